@@ -1,0 +1,95 @@
+//! What one simulated cycle leaves behind: a trace of the fast state and per-step summaries.
+//! Aging laws integrate over the trace; reports print it.
+
+/// The fast state at the end of one time step (SI units; stresses positive in tension).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct TracePoint {
+    pub time_s: f64,
+    /// Length of the time step that ended here, s (0 for the first point).
+    pub dt_s: f64,
+    /// Current held over that step, A, positive on discharge.
+    pub current_a: f64,
+    pub voltage_v: f64,
+    pub temperature_k: f64,
+    pub soc: f64,
+    pub neg_surface_stoich: f64,
+    pub pos_surface_stoich: f64,
+    /// Negative electrode potential against Li/Li⁺ at its surface, U_n + η_n, V.
+    pub neg_potential_v: f64,
+    pub neg_surface_stress_pa: f64,
+    pub pos_surface_stress_pa: f64,
+    /// Index of the step (0-based, into the expanded step list; 0 for a time series).
+    pub step: usize,
+}
+
+/// Why a step ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum EndReason {
+    Voltage,
+    Current,
+    Time,
+    Soc,
+    Charge,
+    /// The cell's own voltage window, which always ends a step.
+    VoltageLimit,
+    /// An electrode surface reached empty or full.
+    ElectrodeLimit,
+    /// A time series ran out of samples.
+    SeriesEnd,
+}
+
+impl EndReason {
+    pub fn describe(self) -> &'static str {
+        match self {
+            EndReason::Voltage => "end voltage",
+            EndReason::Current => "taper current",
+            EndReason::Time => "time",
+            EndReason::Soc => "state of charge",
+            EndReason::Charge => "charge passed",
+            EndReason::VoltageLimit => "cell voltage limit",
+            EndReason::ElectrodeLimit => "electrode empty/full",
+            EndReason::SeriesEnd => "end of series",
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct StepSummary {
+    pub index: usize,
+    pub label: String,
+    pub end: EndReason,
+    pub duration_s: f64,
+    /// Net charge out of the cell during the step, C (negative when charging).
+    pub charge_coulomb: f64,
+}
+
+/// One simulated cycle.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct CycleRecord {
+    pub trace: Vec<TracePoint>,
+    pub steps: Vec<StepSummary>,
+    pub duration_s: f64,
+    /// Charge into / out of the cell, C (both positive).
+    pub charge_in_coulomb: f64,
+    pub charge_out_coulomb: f64,
+    /// Energy into / out of the cell at the terminals, J (both positive).
+    pub energy_in_j: f64,
+    pub energy_out_j: f64,
+    pub peak_temperature_k: f64,
+    pub min_temperature_k: f64,
+    pub neg_stress_max_pa: f64,
+    pub neg_stress_min_pa: f64,
+    pub pos_stress_max_pa: f64,
+    pub pos_stress_min_pa: f64,
+    /// Lowest negative-electrode potential against Li/Li⁺ over the cycle, V.
+    pub neg_potential_min_v: f64,
+    /// Largest current magnitudes on charge and discharge, A.
+    pub peak_charge_current_a: f64,
+    pub peak_discharge_current_a: f64,
+    /// Time steps taken (the trace length minus one).
+    pub time_steps: usize,
+    /// Warm-up cycles run before this one to reach the periodic state.
+    pub warmup_cycles: usize,
+    /// Largest change of the start state over the last warm-up cycle (stoichiometry).
+    pub periodic_residual: f64,
+}

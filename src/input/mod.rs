@@ -1,0 +1,1 @@
+//! Input files → validated structs (in progress).

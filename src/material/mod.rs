@@ -1,0 +1,8 @@
+//! Material functions: open-circuit potentials, the Arrhenius factor and physical constants.
+
+pub mod arrhenius;
+pub mod constants;
+pub mod ocp;
+
+pub use arrhenius::arrhenius_factor;
+pub use ocp::{BuiltinOcp, OpenCircuit};
