@@ -1,1 +1,32 @@
-//! Output writers (in progress).
+//! Output writers. Each writer only turns results into bytes or text; [`write_atomic`] and
+//! [`write_all_atomic`] are the one place that puts bytes on disk, so a failed run never leaves
+//! a half-written file.
+
+mod atomic;
+mod cycle_csv;
+mod cycle_svg;
+mod inputs;
+mod summary;
+pub mod text;
+
+pub use atomic::{write_all_atomic, write_atomic};
+pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
+pub use cycle_svg::cycle_svg;
+pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
+pub use summary::{cycle_cautions, cycle_summary};
+
+use std::path::PathBuf;
+use thiserror::Error;
+
+#[derive(Debug, Error)]
+pub enum ReportError {
+    #[error("could not format CSV: {0}")]
+    Csv(#[from] csv::Error),
+    #[error("could not draw the plot: {0}")]
+    Plot(String),
+    #[error("{}: could not write: {source}", path.display())]
+    Io {
+        path: PathBuf,
+        source: std::io::Error,
+    },
+}
