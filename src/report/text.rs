@@ -45,7 +45,7 @@ mod tests {
         assert_eq!(sig(200.0, 4), "200");
         assert_eq!(sig(0.05, 4), "0.05");
         assert_eq!(sig(4.2, 4), "4.2");
-        assert_eq!(sig(3.14159, 3), "3.14");
+        assert_eq!(sig(1.23456, 3), "1.23");
         assert_eq!(sig(-12.345, 3), "-12.3");
         assert_eq!(sig(0.0, 3), "0");
     }
