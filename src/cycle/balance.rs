@@ -1,11 +1,19 @@
-//! Electrode balancing: stoichiometries at the ends of the voltage window at equilibrium.
-//! (skeleton)
+//! Electrode balancing: where each electrode sits at the two ends of the voltage window at
+//! equilibrium, given the lithium inventory and the active material left in each electrode.
+//!
+//! Lithium is conserved between the electrodes, x·Q_neg + y·Q_pos = Q_Li, and the end states
+//! solve U_pos(y) − U_neg(x) = V_max and V_min. Reference: C. R. Birkl, M. R. Roberts,
+//! E. McTurk, P. G. Bruce, D. A. Howey, J. Power Sources 341 (2017) 373; M. Dubarry,
+//! C. Truchot, B. Y. Liaw, J. Power Sources 219 (2012) 204.
+
 use super::{Cell, Health};
 
 /// Low-rate (equilibrium) state of the cell at the two ends of its voltage window.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Balance {
+    /// Charge between the window ends at equilibrium, C.
     pub capacity_coulomb: f64,
+    /// Energy between the window ends at equilibrium, J.
     pub energy_j: f64,
     pub neg_stoich_full: f64,
     pub neg_stoich_empty: f64,
@@ -13,8 +21,83 @@ pub struct Balance {
     pub pos_stoich_empty: f64,
     /// Q_neg / Q_pos of the active material present.
     pub np_ratio: f64,
+    pub neg_capacity_coulomb: f64,
+    pub pos_capacity_coulomb: f64,
 }
 
-pub fn balance_cell(_cell: &Cell, _health: &Health) -> Option<Balance> {
-    todo!()
+/// Balances the cell at reference temperature. None when no lithium can be cycled in the
+/// window (the inventory or an electrode is gone).
+pub fn balance_cell(cell: &Cell, health: &Health) -> Option<Balance> {
+    let q_neg = cell.negative.capacity_coulomb() * health.neg_active_scale;
+    let q_pos = cell.positive.capacity_coulomb() * health.pos_active_scale;
+    let lithium = health.lithium_inventory_coulomb;
+    if q_neg <= 0.0 || q_pos <= 0.0 || lithium <= 0.0 {
+        return None;
+    }
+    let pos_stoich = |x: f64| (lithium - x * q_neg) / q_pos;
+    let ocv = |x: f64| cell.positive.ocp.potential(pos_stoich(x)) - cell.negative.ocp.potential(x);
+    // Feasible negative stoichiometries keep both electrodes within 0–1.
+    let guard = 1e-6;
+    let x_lo = ((lithium - q_pos) / q_neg).max(0.0) + guard;
+    let x_hi = (lithium / q_neg).min(1.0) - guard;
+    if x_hi <= x_lo {
+        return None;
+    }
+    // OCV rises with x (charging fills the negative); each end is held at its bound when the
+    // window is not reached inside it.
+    let solve = |target: f64| -> f64 {
+        if ocv(x_lo) >= target {
+            return x_lo;
+        }
+        if ocv(x_hi) <= target {
+            return x_hi;
+        }
+        let (mut a, mut b) = (x_lo, x_hi);
+        for _ in 0..80 {
+            let m = 0.5 * (a + b);
+            if ocv(m) < target {
+                a = m;
+            } else {
+                b = m;
+            }
+        }
+        0.5 * (a + b)
+    };
+    let x_full = solve(cell.voltage_max_v);
+    let x_empty = solve(cell.voltage_min_v);
+    if x_full <= x_empty {
+        return None;
+    }
+    // Energy = Q_neg ∫ OCV dx over the window (Simpson's rule).
+    let intervals = 400;
+    let h = (x_full - x_empty) / intervals as f64;
+    let mut sum = ocv(x_empty) + ocv(x_full);
+    for i in 1..intervals {
+        sum += ocv(x_empty + i as f64 * h) * if i % 2 == 1 { 4.0 } else { 2.0 };
+    }
+    Some(Balance {
+        capacity_coulomb: (x_full - x_empty) * q_neg,
+        energy_j: q_neg * sum * h / 3.0,
+        neg_stoich_full: x_full,
+        neg_stoich_empty: x_empty,
+        pos_stoich_full: pos_stoich(x_full),
+        pos_stoich_empty: pos_stoich(x_empty),
+        np_ratio: q_neg / q_pos,
+        neg_capacity_coulomb: q_neg,
+        pos_capacity_coulomb: q_pos,
+    })
+}
+
+impl Balance {
+    /// State of charge (0–1) of a given mean negative stoichiometry.
+    pub fn soc_of_neg_stoich(&self, x: f64) -> f64 {
+        (x - self.neg_stoich_empty) / (self.neg_stoich_full - self.neg_stoich_empty)
+    }
+
+    /// Mean stoichiometries of both electrodes at a state of charge at equilibrium.
+    pub fn stoich_at_soc(&self, soc: f64, health: &Health) -> (f64, f64) {
+        let x = self.neg_stoich_empty + soc * (self.neg_stoich_full - self.neg_stoich_empty);
+        let y = (health.lithium_inventory_coulomb - x * self.neg_capacity_coulomb) / self.pos_capacity_coulomb;
+        (x, y)
+    }
 }

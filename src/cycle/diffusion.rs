@@ -175,21 +175,26 @@ impl SphereModes {
     /// Surface concentration, from a quadratic through the two outer shells that meets the
     /// boundary condition (the given inward flux, or the held value).
     pub fn surface(&self, modes: &[f64], input: f64, radius_m: f64, diffusivity_m2_s: f64) -> f64 {
+        let outer = Self::dot(&self.outer, modes);
+        let second = Self::dot(&self.second_outer, modes);
+        self.surface_from_outer(outer, second, input, radius_m, diffusivity_m2_s)
+    }
+
+    /// [`SphereModes::surface`] from the outer and second-outer shell values.
+    pub fn surface_from_outer(&self, outer: f64, second: f64, input: f64, radius_m: f64, diffusivity_m2_s: f64) -> f64 {
         match self.boundary {
             Boundary::FixedConcentration => input,
             Boundary::Flux => {
                 // Quadratic c = a + b·s + k·s² in s = ρ − 1, with b fixed by the flux and a, k
                 // matched to the r²-weighted averages of the two outer shells.
                 let b = input / diffusivity_m2_s * radius_m;
-                let c1 = Self::dot(&self.outer, modes);
                 let [m1, m2] = self.outer_moments;
                 if self.shells < 2 {
-                    return c1 - b * m1;
+                    return outer - b * m1;
                 }
-                let c2 = Self::dot(&self.second_outer, modes);
                 let [n1, n2] = self.second_outer_moments;
-                let k = (c1 - c2 - b * (m1 - n1)) / (m2 - n2);
-                c1 - b * m1 - k * m2
+                let k = (outer - second - b * (m1 - n1)) / (m2 - n2);
+                outer - b * m1 - k * m2
             }
         }
     }
@@ -207,8 +212,8 @@ impl SphereModes {
         c0 - k * 0.6 * h2
     }
 
-    /// Linear functional of the modes giving the outer shell value; with `second_outer` it
-    /// lets callers evaluate the surface of a trial state without building it.
+    /// Rows giving the outer and second-outer shell values, so callers can evaluate the
+    /// surface of a trial state (with [`ModeStep::project`]) without building it.
     pub fn outer_rows(&self) -> (&[f64], &[f64]) {
         (&self.outer, &self.second_outer)
     }

@@ -86,6 +86,8 @@ pub struct CycleRecord {
     /// Largest current magnitudes on charge and discharge, A.
     pub peak_charge_current_a: f64,
     pub peak_discharge_current_a: f64,
+    /// Time a measured series was held back at a voltage limit (derated), s.
+    pub voltage_limited_s: f64,
     /// Time steps taken (the trace length minus one).
     pub time_steps: usize,
     /// Warm-up cycles run before this one to reach the periodic state.
