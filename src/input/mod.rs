@@ -1,1 +1,69 @@
-//! Input files → validated structs (in progress).
+//! Input files → validated structs.
+//!
+//! Each loader reads one file (formats in `FORMATS.md`), applies the `--set` overrides meant
+//! for it, checks every rule and converts to the SI structs of [`crate::cycle`]. Every problem
+//! is an [`InputError`] naming the file, line and key; the `check_*` variants return all
+//! problems, the `load_*` ones the first. Loaders only read their input files.
+
+mod cell;
+mod checks;
+mod document;
+mod duty;
+mod error;
+pub mod locate;
+mod overrides;
+mod profile;
+mod scenario;
+mod series;
+mod suggest;
+
+use std::path::Path;
+
+pub use cell::{check_cell, load_cell};
+pub use duty::load_duty;
+pub use error::{InputError, COMMAND_LINE_SOURCE};
+pub use overrides::{apply_overrides, parse_override, Override, OverrideTarget};
+pub use profile::load_profile;
+pub use scenario::{check_scenario, load_scenario, LoadedScenario};
+pub use series::load_series;
+
+use document::read_text;
+
+/// The kinds of input file fadecast reads.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum InputKind {
+    Cell,
+    Profile,
+    Series,
+    Scenario,
+}
+
+/// Tells the kind of an input file from its extension and, for TOML, its top-level keys.
+pub fn detect_kind(path: &Path) -> Result<InputKind, InputError> {
+    match duty::extension(path).as_deref() {
+        Some("csv") => return Ok(InputKind::Series),
+        Some("toml") => {}
+        _ => {
+            return Err(InputError::new(
+                path,
+                "expected a `.toml` input file (cell, step profile or scenario) or a `.csv` time series",
+            ))
+        }
+    }
+    let source = read_text(path)?;
+    let document = document::TomlDocument::parse(path, source, OverrideTarget::Scenario)?;
+    let table = document.table();
+    if table.get("negative").is_some_and(toml::Value::is_table) {
+        Ok(InputKind::Cell)
+    } else if table.contains_key("block") {
+        Ok(InputKind::Profile)
+    } else if table.contains_key("cell") && table.contains_key("profile") {
+        Ok(InputKind::Scenario)
+    } else {
+        Err(InputError::new(
+            path,
+            "cannot tell what this file is: expected a cell file (with a [negative] table), a step \
+             profile (with [[block]] tables) or a scenario (with `cell` and `profile` keys)",
+        ))
+    }
+}

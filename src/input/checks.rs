@@ -1,0 +1,74 @@
+//! Value rules shared by the input files; every failed rule is kept, with its key and line.
+
+use super::document::TomlDocument;
+use super::error::InputError;
+
+/// Collects the problems found while converting one document.
+pub(crate) struct Checks<'d> {
+    document: &'d TomlDocument,
+    problems: Vec<InputError>,
+}
+
+impl<'d> Checks<'d> {
+    pub fn new(document: &'d TomlDocument) -> Self {
+        Self {
+            document,
+            problems: Vec::new(),
+        }
+    }
+
+    pub fn report(&mut self, key: &str, rule: impl Into<String>) {
+        let problem = self.document.problem(key, rule);
+        self.problems.push(problem);
+    }
+
+    /// True (and nothing reported) when `value` is finite.
+    pub fn finite(&mut self, key: &str, value: f64) -> bool {
+        if !value.is_finite() {
+            self.report(key, format!("must be a finite number, found {value}"));
+        }
+        value.is_finite()
+    }
+
+    pub fn positive(&mut self, key: &str, value: f64) {
+        if self.finite(key, value) && value <= 0.0 {
+            self.report(key, format!("must be positive, found {value}"));
+        }
+    }
+
+    pub fn non_negative(&mut self, key: &str, value: f64) {
+        if self.finite(key, value) && value < 0.0 {
+            self.report(key, format!("must be zero or positive, found {value}"));
+        }
+    }
+
+    /// `low ≤ value ≤ high`.
+    pub fn within(&mut self, key: &str, value: f64, low: f64, high: f64) {
+        if self.finite(key, value) && !(low..=high).contains(&value) {
+            self.report(key, format!("must lie in {low}–{high}, found {value}"));
+        }
+    }
+
+    /// A temperature in °C that is physically possible.
+    pub fn celsius(&mut self, key: &str, value: f64) {
+        if self.finite(key, value) && value <= -crate::material::constants::ZERO_CELSIUS_K {
+            self.report(
+                key,
+                format!("must be above absolute zero (−273.15 °C), found {value}"),
+            );
+        }
+    }
+
+    pub fn problem_count(&self) -> usize {
+        self.problems.len()
+    }
+
+    /// `value` when no rule failed, otherwise every problem in the order found.
+    pub fn finish<T>(self, value: T) -> Result<T, Vec<InputError>> {
+        if self.problems.is_empty() {
+            Ok(value)
+        } else {
+            Err(self.problems)
+        }
+    }
+}

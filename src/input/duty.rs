@@ -1,0 +1,62 @@
+//! The duty cycle a scenario names: a `.toml` step profile or a `.csv` measured series.
+
+use std::path::Path;
+
+use super::error::{first_problem, InputError};
+use super::overrides::{Override, OverrideTarget};
+use super::profile::{check_profile, VoltageWindow};
+use super::series::load_series;
+use crate::cycle::DutyCycle;
+
+/// A measured series starts from a full cell unless the scenario says otherwise.
+const SERIES_START_SOC: f64 = 1.0;
+
+/// Reads a duty cycle, choosing the format by extension. Returns it with the start state of
+/// charge the file asks for (fraction; 1 for a CSV series). C-rates are relative to
+/// `nominal_capacity_coulomb`.
+pub fn load_duty(
+    path: &Path,
+    nominal_capacity_coulomb: f64,
+    overrides: &[Override],
+) -> Result<(DutyCycle, f64), InputError> {
+    check_duty(path, nominal_capacity_coulomb, None, overrides).map_err(first_problem)
+}
+
+pub(crate) fn check_duty(
+    path: &Path,
+    nominal_capacity_coulomb: f64,
+    window: Option<VoltageWindow>,
+    overrides: &[Override],
+) -> Result<(DutyCycle, f64), Vec<InputError>> {
+    match extension(path).as_deref() {
+        Some("toml") => check_profile(path, nominal_capacity_coulomb, window, overrides)
+            .map(|(profile, start_soc)| (DutyCycle::Steps(profile), start_soc)),
+        Some("csv") => {
+            if let Some(item) = overrides
+                .iter()
+                .find(|o| o.target == OverrideTarget::Profile)
+            {
+                return Err(vec![InputError::command_line(
+                    item.key(),
+                    format!(
+                        "`{}` is a CSV time series; `--set profile.…` applies only to TOML step \
+                         profiles",
+                        path.display()
+                    ),
+                )]);
+            }
+            let series = load_series(path).map_err(|e| vec![e])?;
+            Ok((DutyCycle::Series(series), SERIES_START_SOC))
+        }
+        _ => Err(vec![InputError::new(
+            path,
+            "a duty cycle must be a `.toml` step profile or a `.csv` time series",
+        )]),
+    }
+}
+
+/// The lower-cased extension, if any.
+pub(crate) fn extension(path: &Path) -> Option<String> {
+    path.extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase())
+}

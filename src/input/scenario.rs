@@ -1,0 +1,186 @@
+//! Scenario files: which cell runs which duty cycle under which conditions.
+//!
+//! Each section of the file is one field of [`ScenarioFile`] plus one conversion step in
+//! [`check_scenario`]; later sections slot in the same way.
+
+use std::path::{Path, PathBuf};
+
+use serde::Deserialize;
+
+use super::cell::check_cell;
+use super::checks::Checks;
+use super::document::TomlDocument;
+use super::duty::check_duty;
+use super::error::{first_problem, InputError};
+use super::overrides::{Override, OverrideTarget};
+use super::profile::VoltageWindow;
+use crate::cycle::{Cell, Scenario};
+use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
+
+/// Electrode windows further apart than this (relative to the smaller) draw a warning.
+const WINDOW_MISMATCH_WARNING: f64 = 0.03;
+
+/// The scenario file as written.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ScenarioFile {
+    name: String,
+    /// Relative to the scenario file.
+    cell: PathBuf,
+    /// Relative to the scenario file; `.toml` step profile or `.csv` series.
+    profile: PathBuf,
+    ambient_c: f64,
+    /// Overrides the profile's own start, when given.
+    start_soc_pct: Option<f64>,
+}
+
+/// A scenario with everything it names loaded and checked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LoadedScenario {
+    pub scenario: Scenario,
+    /// The cell and duty-cycle files as resolved against the scenario's directory.
+    pub cell_path: PathBuf,
+    pub profile_path: PathBuf,
+    /// Things that are allowed but probably not meant, one line each.
+    pub warnings: Vec<String>,
+}
+
+/// Reads a scenario and the cell and duty cycle it names; the first problem is the error.
+/// Problems inside the cell or profile name that file.
+pub fn load_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScenario, InputError> {
+    check_scenario(path, overrides).map_err(first_problem)
+}
+
+/// Like [`load_scenario`], but returns every problem found across the three files.
+pub fn check_scenario(
+    path: &Path,
+    overrides: &[Override],
+) -> Result<LoadedScenario, Vec<InputError>> {
+    let mut document = TomlDocument::read(path, OverrideTarget::Scenario).map_err(|e| vec![e])?;
+    document.apply_overrides(overrides).map_err(|e| vec![e])?;
+    let file: ScenarioFile = document.deserialize().map_err(|e| vec![e])?;
+
+    let mut checks = Checks::new(&document);
+    if file.name.trim().is_empty() {
+        checks.report("name", "must not be empty");
+    }
+    checks.celsius("ambient_c", file.ambient_c);
+    if let Some(start_soc_pct) = file.start_soc_pct {
+        checks.within("start_soc_pct", start_soc_pct, 0.0, 100.0);
+    }
+    let directory = path.parent().unwrap_or(Path::new(""));
+    let cell_path = referenced_file(&mut checks, directory, "cell", &file.cell);
+    let profile_path = referenced_file(&mut checks, directory, "profile", &file.profile);
+    let mut problems = checks.finish(()).err().unwrap_or_default();
+
+    let cell = match &cell_path {
+        Some(cell_path) => check_cell(cell_path, overrides)
+            .map_err(|mut found| problems.append(&mut found))
+            .ok(),
+        None => None,
+    };
+    let duty = match (&cell, &profile_path) {
+        (Some(cell), Some(profile_path)) => {
+            let window = VoltageWindow {
+                min_v: cell.voltage_min_v,
+                max_v: cell.voltage_max_v,
+            };
+            check_duty(
+                profile_path,
+                cell.nominal_capacity_coulomb,
+                Some(window),
+                overrides,
+            )
+            .map_err(|mut found| problems.append(&mut found))
+            .ok()
+        }
+        _ => None,
+    };
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    // With no problems recorded every part loaded; the `else` only keeps this panic-free.
+    let (Some(cell), Some((duty, profile_start_soc)), Some(cell_path), Some(profile_path)) =
+        (cell, duty, cell_path, profile_path)
+    else {
+        return Err(problems);
+    };
+
+    let mut warnings = Vec::new();
+    if let Some(warning) = window_mismatch_warning(&cell, &cell_path) {
+        warnings.push(warning);
+    }
+    let ambient_k = file.ambient_c + ZERO_CELSIUS_K;
+    if !(cell.temperature_min_k..=cell.temperature_max_k).contains(&ambient_k) {
+        let rule = format!(
+            "warning: {} °C is outside the cell's temperature limits {:.1}–{:.1} °C",
+            file.ambient_c,
+            cell.temperature_min_k - ZERO_CELSIUS_K,
+            cell.temperature_max_k - ZERO_CELSIUS_K
+        );
+        warnings.push(document.problem("ambient_c", rule).to_string());
+    }
+
+    let start_soc = file
+        .start_soc_pct
+        .map_or(profile_start_soc, |pct| pct / 100.0);
+    Ok(LoadedScenario {
+        scenario: Scenario {
+            name: file.name.trim().to_string(),
+            cell,
+            duty,
+            ambient_k,
+            start_soc,
+        },
+        cell_path,
+        profile_path,
+        warnings,
+    })
+}
+
+/// `written` resolved against the scenario's directory, if that file exists.
+fn referenced_file(
+    checks: &mut Checks<'_>,
+    directory: &Path,
+    key: &str,
+    written: &Path,
+) -> Option<PathBuf> {
+    if written.as_os_str().is_empty() {
+        checks.report(key, "must name a file");
+        return None;
+    }
+    let resolved = directory.join(written);
+    if resolved.is_file() {
+        return Some(resolved);
+    }
+    let rule = if resolved.exists() {
+        format!("`{}` is not a file", resolved.display())
+    } else {
+        format!(
+            "`{}` does not exist (paths are relative to the scenario file)",
+            resolved.display()
+        )
+    };
+    checks.report(key, rule);
+    None
+}
+
+/// The charge each electrode's stoichiometry window holds should match; a large mismatch
+/// usually means a mistyped stoichiometry.
+fn window_mismatch_warning(cell: &Cell, cell_path: &Path) -> Option<String> {
+    let negative = (cell.negative.stoich_at_soc100 - cell.negative.stoich_at_soc0)
+        * cell.negative.capacity_coulomb();
+    let positive = (cell.positive.stoich_at_soc0 - cell.positive.stoich_at_soc100)
+        * cell.positive.capacity_coulomb();
+    let mismatch = (negative - positive).abs() / negative.min(positive);
+    (mismatch > WINDOW_MISMATCH_WARNING).then(|| {
+        format!(
+            "{}: warning: the electrode windows hold different charge: negative {:.3} Ah, positive {:.3} Ah \
+             ({:.1} % apart); check stoich_at_soc0 and stoich_at_soc100",
+            cell_path.display(),
+            negative / SECONDS_PER_HOUR,
+            positive / SECONDS_PER_HOUR,
+            mismatch * 100.0
+        )
+    })
+}

@@ -1,0 +1,812 @@
+//! Acceptance tests for the input layer: valid files convert to SI, bad files give one-line
+//! errors naming the file, line, key and rule, and no input makes a loader panic.
+//!
+//! The numbers in the files below are arbitrary round values chosen for these tests; checks
+//! compare against the unit definitions, never against published data.
+
+use std::path::{Path, PathBuf};
+
+use fadecast::cycle::{Drive, DutyCycle, SeriesSignal, StepEnd};
+use fadecast::input::{
+    detect_kind, load_cell, load_duty, load_scenario, load_series, parse_override, InputError,
+    InputKind, Override,
+};
+use fadecast::material::constants::{FARADAY, SECONDS_PER_HOUR, ZERO_CELSIUS_K};
+use fadecast::material::{BuiltinOcp, OpenCircuit};
+
+const CELL: &str = r#"name = "test cell"
+nominal_capacity_ah = 2.0
+voltage_min_v = 3.0
+voltage_max_v = 4.0
+reference_temperature_c = 20
+
+[resistance]
+ohmic_mohm = 10.0
+ohmic_activation_kj_mol = 20.0
+film_mohm = 1.0
+
+[electrolyte]
+concentration_mol_m3 = 1000.0
+
+[thermal]
+mass_kg = 0.1
+specific_heat_j_kg_k = 1000.0
+convective_conductance_w_k = 0.5
+
+[limits]
+max_charge_current_a = 4.0
+max_discharge_current_a = 6.0
+min_temperature_c = -10.0
+max_temperature_c = 50.0
+
+[negative]
+thickness_um = 50.0
+area_m2 = 0.1
+active_fraction = 0.5
+particle_radius_um = 5.0
+max_concentration_mol_m3 = 30000.0
+stoich_at_soc0 = 0.1
+stoich_at_soc100 = 0.8
+diffusivity_m2_s = 1.0e-14
+diffusivity_activation_kj_mol = 30.0
+rate_constant_m_s = 1.0e-10
+rate_constant_activation_kj_mol = 40.0
+ocp = "graphite-2011"
+entropic_coefficient_mv_k = -0.2
+youngs_modulus_gpa = 10.0
+poisson_ratio = 0.25
+partial_molar_volume_cm3_mol = 3.0
+
+[positive]
+thickness_um = 40.0
+area_m2 = 0.1
+active_fraction = 0.6
+particle_radius_um = 4.0
+max_concentration_mol_m3 = 43750.0
+stoich_at_soc0 = 0.9
+stoich_at_soc100 = 0.4
+diffusivity_m2_s = 2.0e-14
+diffusivity_activation_kj_mol = 30.0
+rate_constant_m_s = 2.0e-10
+rate_constant_activation_kj_mol = 40.0
+ocp_table = [
+  [0.3, 4.2],
+  [0.6, 3.9],
+  [0.95, 3.6],
+]
+youngs_modulus_gpa = 100.0
+poisson_ratio = 0.3
+partial_molar_volume_cm3_mol = 2.0
+"#;
+
+const PROFILE: &str = r#"name = "test profile"
+start_soc_pct = 90
+
+[[block]]
+[[block.step]]
+label = "drive"
+discharge_c = 1.0
+end_voltage_v = 3.0
+[[block.step]]
+rest = true
+end_time_min = 10
+
+[[block]]
+repeat = 2
+[[block.step]]
+charge_c = 0.5
+end_voltage_v = 4.0
+[[block.step]]
+hold_v = 4.0
+end_current_c = 0.05
+end_time_h = 2
+"#;
+
+const SCENARIO: &str = r#"name = "test scenario"
+cell = "../cells/cell.toml"
+profile = "../profiles/profile.toml"
+ambient_c = 25.0
+"#;
+
+/// The nominal capacity of [`CELL`], for loading profiles on their own.
+const CELL_CAPACITY_COULOMB: f64 = 2.0 * SECONDS_PER_HOUR;
+
+struct Files {
+    dir: tempfile::TempDir,
+}
+
+impl Files {
+    fn new() -> Self {
+        Self {
+            dir: tempfile::tempdir().expect("temporary directory"),
+        }
+    }
+
+    fn write(&self, name: &str, text: &str) -> PathBuf {
+        let path = self.dir.path().join(name);
+        if let Some(parent) = path.parent() {
+            std::fs::create_dir_all(parent).expect("create directory");
+        }
+        std::fs::write(&path, text).expect("write test file");
+        path
+    }
+}
+
+/// `text` with its only occurrence of `from` replaced by `to`.
+fn edited(text: &str, from: &str, to: &str) -> String {
+    assert_eq!(
+        text.matches(from).count(),
+        1,
+        "`{from}` must occur exactly once"
+    );
+    text.replacen(from, to, 1)
+}
+
+/// 1-based line of the only line containing `needle`.
+fn line_of(text: &str, needle: &str) -> usize {
+    let lines: Vec<usize> = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| l.contains(needle))
+        .map(|(i, _)| i + 1)
+        .collect();
+    assert_eq!(lines.len(), 1, "`{needle}` must be on exactly one line");
+    lines[0]
+}
+
+fn cell_error(files: &Files, text: &str) -> (PathBuf, InputError) {
+    let path = files.write("cell.toml", text);
+    let error = load_cell(&path, &[]).expect_err("the cell file should be rejected");
+    (path, error)
+}
+
+fn profile_error(files: &Files, text: &str) -> InputError {
+    let path = files.write("profile.toml", text);
+    load_duty(&path, CELL_CAPACITY_COULOMB, &[]).expect_err("the profile should be rejected")
+}
+
+fn overrides(texts: &[&str]) -> Vec<Override> {
+    texts
+        .iter()
+        .map(|t| parse_override(t).expect("well-formed override"))
+        .collect()
+}
+
+fn assert_close(actual: f64, expected: f64) {
+    assert!(
+        (actual - expected).abs() <= 1e-12 * expected.abs().max(1e-300),
+        "{actual} ≠ {expected}"
+    );
+}
+
+/// Checks file, line, key and a fragment of the rule, and that the message is one line.
+fn assert_error(error: &InputError, file: &Path, line: Option<usize>, key: &str, rule: &str) {
+    assert_eq!(error.file, file, "{error}");
+    assert_eq!(error.line, line, "{error}");
+    assert_eq!(error.key.as_deref(), Some(key), "{error}");
+    assert!(
+        error.rule.contains(rule),
+        "`{error}` should contain `{rule}`"
+    );
+    let message = error.to_string();
+    assert!(!message.contains('\n'));
+    assert!(
+        message.starts_with(&file.display().to_string()),
+        "{message}"
+    );
+}
+
+#[test]
+fn valid_cell_converts_to_si_units() {
+    let files = Files::new();
+    let cell = load_cell(&files.write("cell.toml", CELL), &[]).expect("valid cell");
+
+    assert_eq!(cell.name, "test cell");
+    assert_close(cell.nominal_capacity_coulomb, 2.0 * 3600.0);
+    assert_close(cell.voltage_min_v, 3.0);
+    assert_close(cell.voltage_max_v, 4.0);
+    assert_close(cell.reference_temperature_k, 20.0 + ZERO_CELSIUS_K);
+    assert_close(cell.ohmic_resistance_ohm, 10.0e-3);
+    assert_close(cell.ohmic_activation_j_mol, 20.0e3);
+    assert_close(cell.film_resistance_ohm, 1.0e-3);
+    assert_close(cell.electrolyte_concentration_mol_m3, 1000.0);
+    assert_close(cell.mass_kg, 0.1);
+    assert_close(cell.convective_conductance_w_k, 0.5);
+    assert_close(cell.max_charge_current_a, 4.0);
+    assert_close(cell.max_discharge_current_a, 6.0);
+    assert_close(cell.temperature_min_k, -10.0 + ZERO_CELSIUS_K);
+    assert_close(cell.temperature_max_k, 50.0 + ZERO_CELSIUS_K);
+    assert_eq!(cell.shells, 16, "documented default");
+
+    let negative = &cell.negative;
+    assert_close(negative.thickness_m, 50.0e-6);
+    assert_close(negative.particle_radius_m, 5.0e-6);
+    assert_close(negative.diffusivity_activation_j_mol, 30.0e3);
+    assert_close(negative.rate_constant_activation_j_mol, 40.0e3);
+    assert_close(negative.entropic_coefficient_v_k, -0.2e-3);
+    assert_close(negative.youngs_modulus_pa, 10.0e9);
+    assert_close(negative.partial_molar_volume_m3_mol, 3.0e-6);
+    assert_eq!(negative.ocp, OpenCircuit::Builtin(BuiltinOcp::Graphite2011));
+    assert_close(
+        negative.capacity_coulomb(),
+        50.0e-6 * 0.1 * 0.5 * 30000.0 * FARADAY,
+    );
+
+    let positive = &cell.positive;
+    assert_close(positive.stoich_at_soc0, 0.9);
+    assert_close(positive.stoich_at_soc100, 0.4);
+    assert_close(positive.entropic_coefficient_v_k, 0.0);
+    assert_eq!(
+        positive.ocp,
+        OpenCircuit::Table {
+            stoich: vec![0.3, 0.6, 0.95],
+            potential_v: vec![4.2, 3.9, 3.6]
+        }
+    );
+}
+
+#[test]
+fn missing_file_names_the_path() {
+    let files = Files::new();
+    let path = files.dir.path().join("no-such-cell.toml");
+    let error = load_cell(&path, &[]).expect_err("missing file");
+    assert_eq!(error.file, path);
+    assert_eq!(
+        error.to_string(),
+        format!("{}: file does not exist", path.display())
+    );
+}
+
+#[test]
+fn malformed_toml_has_its_line() {
+    let files = Files::new();
+    let text = edited(CELL, "mass_kg = 0.1", "mass_kg = = 0.1");
+    let (path, error) = cell_error(&files, &text);
+    assert_eq!(error.file, path);
+    assert_eq!(error.line, Some(line_of(&text, "mass_kg")));
+    assert!(error.rule.starts_with("invalid TOML"), "{error}");
+}
+
+#[test]
+fn unknown_key_suggests_the_nearest_valid_key() {
+    let files = Files::new();
+    let text = edited(CELL, "particle_radius_um = 5.0", "partical_radius_um = 5.0");
+    let (path, error) = cell_error(&files, &text);
+    let line = line_of(&text, "partical_radius_um");
+    assert_error(
+        &error,
+        &path,
+        Some(line),
+        "negative.partical_radius_um",
+        "unknown key",
+    );
+    assert_eq!(
+        error.to_string(),
+        format!(
+            "{}:{line}: negative.partical_radius_um: unknown key; did you mean `particle_radius_um`?",
+            path.display()
+        )
+    );
+}
+
+#[test]
+fn wrong_type_has_key_and_line() {
+    let files = Files::new();
+    let text = edited(CELL, "thickness_um = 40.0", "thickness_um = \"forty\"");
+    let (path, error) = cell_error(&files, &text);
+    let line = line_of(&text, "\"forty\"");
+    assert_error(
+        &error,
+        &path,
+        Some(line),
+        "positive.thickness_um",
+        "expected a number",
+    );
+}
+
+#[test]
+fn missing_key_names_its_table() {
+    let files = Files::new();
+    let text = edited(CELL, "mass_kg = 0.1\n", "");
+    let (path, error) = cell_error(&files, &text);
+    assert_error(
+        &error,
+        &path,
+        Some(line_of(&text, "[thermal]")),
+        "thermal.mass_kg",
+        "required key is missing",
+    );
+}
+
+#[test]
+fn impossible_cell_values_name_key_rule_and_line() {
+    // (text to replace, replacement, key, rule fragment, text on the reported line)
+    let cases = [
+        (
+            "particle_radius_um = 5.0",
+            "particle_radius_um = -5.0",
+            "negative.particle_radius_um",
+            "must be positive",
+            "-5.0",
+        ),
+        (
+            "stoich_at_soc0 = 0.9",
+            "stoich_at_soc0 = 1.2",
+            "positive.stoich_at_soc0",
+            "must lie in 0–1",
+            "1.2",
+        ),
+        (
+            "voltage_min_v = 3.0",
+            "voltage_min_v = 4.5",
+            "voltage_min_v",
+            "must be below voltage_max_v",
+            "4.5",
+        ),
+        (
+            "stoich_at_soc100 = 0.8",
+            "stoich_at_soc100 = 0.05",
+            "negative.stoich_at_soc100",
+            "must be above",
+            "0.05",
+        ),
+        (
+            "poisson_ratio = 0.3",
+            "poisson_ratio = 0.7",
+            "positive.poisson_ratio",
+            "must lie in 0–0.5",
+            "0.7",
+        ),
+        (
+            "min_temperature_c = -10.0",
+            "min_temperature_c = 70.0",
+            "limits.min_temperature_c",
+            "must be below",
+            "70.0",
+        ),
+        (
+            "ocp = \"graphite-2011\"",
+            "ocp = \"graphite-201\"",
+            "negative.ocp",
+            "did you mean `graphite-2011`?",
+            "-201\"",
+        ),
+        (
+            "  [0.6, 3.9],",
+            "  [0.2, 3.9],",
+            "positive.ocp_table",
+            "must increase strictly",
+            "ocp_table",
+        ),
+        (
+            "diffusivity_m2_s = 1.0e-14",
+            "diffusivity_m2_s = nan",
+            "negative.diffusivity_m2_s",
+            "finite",
+            "nan",
+        ),
+    ];
+    for (from, to, key, rule, on_line) in cases {
+        let files = Files::new();
+        let text = edited(CELL, from, to);
+        let (path, error) = cell_error(&files, &text);
+        assert_error(&error, &path, Some(line_of(&text, on_line)), key, rule);
+    }
+}
+
+#[test]
+fn both_ocp_forms_is_an_error() {
+    let files = Files::new();
+    let text = edited(
+        CELL,
+        "ocp_table = [",
+        "ocp = \"cobalt-oxide-1996\"\nocp_table = [",
+    );
+    let (path, error) = cell_error(&files, &text);
+    assert_error(
+        &error,
+        &path,
+        Some(line_of(&text, "ocp_table")),
+        "positive.ocp_table",
+        "not both",
+    );
+}
+
+#[test]
+fn valid_profile_expands_repeats_and_converts_units() {
+    let files = Files::new();
+    let path = files.write("profile.toml", PROFILE);
+    let (duty, start_soc) = load_duty(&path, CELL_CAPACITY_COULOMB, &[]).expect("valid profile");
+    assert_close(start_soc, 0.9);
+    let DutyCycle::Steps(profile) = duty else {
+        panic!("a .toml file is a step profile")
+    };
+    assert_eq!(profile.name, "test profile");
+    assert_eq!(profile.steps.len(), 2 + 2 * 2);
+
+    let capacity_a = CELL_CAPACITY_COULOMB / 3600.0;
+    let drive = &profile.steps[0];
+    assert_eq!(drive.label, "drive");
+    assert_eq!(drive.drive, Drive::Current(1.0 * capacity_a));
+    assert_eq!(drive.ends, vec![StepEnd::Voltage(3.0)]);
+    let rest = &profile.steps[1];
+    assert_eq!(rest.label, "step 2");
+    assert_eq!(
+        (rest.drive, rest.ends.clone()),
+        (Drive::Rest, vec![StepEnd::Time(10.0 * 60.0)])
+    );
+    let charge = &profile.steps[2];
+    assert_eq!(
+        charge.drive,
+        Drive::Current(-0.5 * capacity_a),
+        "charging current is negative"
+    );
+    let hold = &profile.steps[3];
+    assert_eq!(hold.drive, Drive::Voltage(4.0));
+    assert_eq!(
+        hold.ends,
+        vec![
+            StepEnd::CurrentBelow(0.05 * capacity_a),
+            StepEnd::Time(2.0 * 3600.0)
+        ]
+    );
+    assert_eq!(profile.steps[4], profile.steps[2]);
+    assert_eq!(profile.steps[5], profile.steps[3]);
+}
+
+#[test]
+fn impossible_steps_name_key_rule_and_line() {
+    // (text to replace, replacement, key, rule fragment, text on the reported line)
+    let cases = [
+        (
+            "[[block.step]]\nlabel = \"drive\"\ndischarge_c = 1.0\nend_voltage_v = 3.0\n",
+            "[[block.step]] # no end\nlabel = \"drive\"\ndischarge_c = 1.0\n",
+            "block.0.step.0",
+            "no end key",
+            "# no end",
+        ),
+        (
+            "charge_c = 0.5\nend_voltage_v = 4.0\n",
+            "charge_c = 0.5\ncharge_a = 1.0\nend_voltage_v = 4.0\n",
+            "block.1.step.0.charge_a",
+            "exactly one drive key, but this one also has `charge_c`",
+            "charge_a",
+        ),
+        (
+            "rest = true\nend_time_min = 10\n",
+            "rest = true\nend_voltage_v = 3.5\n",
+            "block.0.step.1.end_voltage_v",
+            "a rest ends on time only",
+            "3.5",
+        ),
+        (
+            "hold_v = 4.0\nend_current_c = 0.05\nend_time_h = 2\n",
+            "hold_v = 4.0\nend_soc_pct = 95\n",
+            "block.1.step.1.hold_v",
+            "constant-voltage step needs a taper end (end_current_c or end_current_a)",
+            "hold_v",
+        ),
+        (
+            "charge_c = 0.5\nend_voltage_v = 4.0\n",
+            "charge_c = 0.5\nend_current_a = 0.1\n",
+            "block.1.step.0.end_current_a",
+            "applies only to constant-voltage steps",
+            "end_current_a",
+        ),
+        (
+            "repeat = 2",
+            "repeat = 0",
+            "block.1.repeat",
+            "must lie in 1–100000",
+            "repeat",
+        ),
+        (
+            "discharge_c = 1.0",
+            "discharge_c = -1.0",
+            "block.0.step.0.discharge_c",
+            "must be positive",
+            "-1.0",
+        ),
+    ];
+    for (from, to, key, rule, on_line) in cases {
+        let files = Files::new();
+        let text = edited(PROFILE, from, to);
+        let error = profile_error(&files, &text);
+        let path = files.dir.path().join("profile.toml");
+        assert_error(&error, &path, Some(line_of(&text, on_line)), key, rule);
+    }
+}
+
+#[test]
+fn unknown_step_key_has_its_line() {
+    let files = Files::new();
+    let text = edited(PROFILE, "end_time_min = 10", "end_time_mins = 10");
+    let error = profile_error(&files, &text);
+    let path = files.dir.path().join("profile.toml");
+    assert_error(
+        &error,
+        &path,
+        Some(line_of(&text, "end_time_mins")),
+        "block.0.step.1.end_time_mins",
+        "did you mean `end_time_min`?",
+    );
+}
+
+#[test]
+fn valid_series_converts_ambient() {
+    let files = Files::new();
+    let path = files.write(
+        "duty.csv",
+        "time_s,power_w,ambient_c\n0,5.0,10\n30,-5.0,12\n90,0,12\n",
+    );
+    let series = load_series(&path).expect("valid series");
+    assert_eq!(series.signal, SeriesSignal::PowerW);
+    assert_eq!(series.time_s, vec![0.0, 30.0, 90.0]);
+    assert_eq!(series.value, vec![5.0, -5.0, 0.0]);
+    assert_eq!(
+        series.ambient_k,
+        Some(vec![
+            10.0 + ZERO_CELSIUS_K,
+            12.0 + ZERO_CELSIUS_K,
+            12.0 + ZERO_CELSIUS_K
+        ])
+    );
+    let (duty, start_soc) = load_duty(&path, CELL_CAPACITY_COULOMB, &[]).expect("valid series");
+    assert!(matches!(duty, DutyCycle::Series(_)));
+    assert_eq!(start_soc, 1.0);
+}
+
+#[test]
+fn bad_series_names_line_and_column() {
+    let cases = [
+        (
+            "time_s,ambient_c\n0,20\n10,20\n",
+            1,
+            "current_a",
+            "required column is missing",
+        ),
+        (
+            "time_s,current_a\n0,1\n10,one\n20,1\n",
+            3,
+            "current_a",
+            "expected a number, found `one`",
+        ),
+        (
+            "time_s,current_a\n0,1\n10,1\n10,2\n",
+            4,
+            "time_s",
+            "must increase strictly",
+        ),
+        (
+            "time_s,current_a\n0,1\n10,NaN\n20,1\n",
+            3,
+            "current_a",
+            "must be a finite number",
+        ),
+        (
+            "time_s,curent_a\n0,1\n10,1\n",
+            1,
+            "curent_a",
+            "did you mean `current_a`?",
+        ),
+    ];
+    for (text, line, column, rule) in cases {
+        let files = Files::new();
+        let path = files.write("duty.csv", text);
+        let error = load_series(&path).expect_err("bad series");
+        assert_error(&error, &path, Some(line), column, rule);
+    }
+}
+
+#[test]
+fn series_needs_two_rows() {
+    let files = Files::new();
+    let path = files.write("duty.csv", "time_s,current_a\n0,1\n");
+    let error = load_series(&path).expect_err("one row");
+    assert!(error.rule.contains("at least two rows"), "{error}");
+}
+
+fn scenario_files(cell: &str, profile: &str, scenario: &str) -> (Files, PathBuf) {
+    let files = Files::new();
+    files.write("cells/cell.toml", cell);
+    files.write("profiles/profile.toml", profile);
+    let path = files.write("scenarios/scenario.toml", scenario);
+    (files, path)
+}
+
+#[test]
+fn scenario_resolves_relative_paths_and_loads_everything() {
+    let (files, path) = scenario_files(CELL, PROFILE, SCENARIO);
+    let loaded = load_scenario(&path, &[]).expect("valid scenario");
+    assert_eq!(
+        loaded.cell_path,
+        files.dir.path().join("scenarios/../cells/cell.toml")
+    );
+    assert_eq!(
+        loaded.profile_path,
+        files.dir.path().join("scenarios/../profiles/profile.toml")
+    );
+    assert_eq!(loaded.scenario.name, "test scenario");
+    assert_eq!(loaded.scenario.cell.name, "test cell");
+    assert_close(loaded.scenario.ambient_k, 25.0 + ZERO_CELSIUS_K);
+    assert_close(loaded.scenario.start_soc, 0.9);
+    assert!(loaded.warnings.is_empty(), "{:?}", loaded.warnings);
+}
+
+#[test]
+fn scenario_warns_about_mismatched_windows_and_ambient() {
+    let cell = edited(CELL, "stoich_at_soc100 = 0.4", "stoich_at_soc100 = 0.2");
+    let scenario = edited(
+        SCENARIO,
+        "ambient_c = 25.0",
+        "ambient_c = 55.0\nstart_soc_pct = 50",
+    );
+    let (_files, path) = scenario_files(&cell, PROFILE, &scenario);
+    let loaded = load_scenario(&path, &[]).expect("warnings are not errors");
+    assert_close(loaded.scenario.start_soc, 0.5);
+    assert_eq!(loaded.warnings.len(), 2, "{:?}", loaded.warnings);
+    assert!(loaded
+        .warnings
+        .iter()
+        .any(|w| w.contains("electrode windows")));
+    assert!(loaded
+        .warnings
+        .iter()
+        .any(|w| w.contains("ambient_c") && w.contains("temperature limits")));
+}
+
+#[test]
+fn scenario_errors_name_the_file_at_fault() {
+    let bad_cell = edited(CELL, "particle_radius_um = 4.0", "particle_radius_um = 0.0");
+    let (files, path) = scenario_files(&bad_cell, PROFILE, SCENARIO);
+    let error = load_scenario(&path, &[]).expect_err("bad cell");
+    assert_eq!(
+        error.file,
+        files.dir.path().join("scenarios/../cells/cell.toml")
+    );
+    assert_eq!(error.key.as_deref(), Some("positive.particle_radius_um"));
+
+    let missing = edited(SCENARIO, "../cells/cell.toml", "../cells/other.toml");
+    let (_files, path) = scenario_files(CELL, PROFILE, &missing);
+    let error = load_scenario(&path, &[]).expect_err("missing cell");
+    assert_error(&error, &path, Some(2), "cell", "does not exist");
+
+    let unknown = edited(SCENARIO, "ambient_c", "ambiant_c");
+    let (_files, path) = scenario_files(CELL, PROFILE, &unknown);
+    let error = load_scenario(&path, &[]).expect_err("unknown key");
+    assert_error(
+        &error,
+        &path,
+        Some(4),
+        "ambiant_c",
+        "did you mean `ambient_c`?",
+    );
+
+    let out_of_window = edited(PROFILE, "hold_v = 4.0", "hold_v = 4.5");
+    let (files, path) = scenario_files(CELL, &out_of_window, SCENARIO);
+    let error = load_scenario(&path, &[]).expect_err("hold outside the window");
+    let profile_path = files.dir.path().join("scenarios/../profiles/profile.toml");
+    assert_error(
+        &error,
+        &profile_path,
+        Some(line_of(&out_of_window, "hold_v")),
+        "block.1.step.1.hold_v",
+        "voltage window",
+    );
+}
+
+#[test]
+fn overrides_change_each_file() {
+    let (_files, path) = scenario_files(CELL, PROFILE, SCENARIO);
+    let set = overrides(&[
+        "ambient_c=40",
+        "cell.negative.particle_radius_um=2.5",
+        "cell.numerics.shells=32",
+        "profile.block.1.step.0.charge_c=1.5",
+    ]);
+    let loaded = load_scenario(&path, &set).expect("overrides are valid");
+    assert_close(loaded.scenario.ambient_k, 40.0 + ZERO_CELSIUS_K);
+    assert_close(loaded.scenario.cell.negative.particle_radius_m, 2.5e-6);
+    assert_eq!(loaded.scenario.cell.shells, 32);
+    let DutyCycle::Steps(profile) = &loaded.scenario.duty else {
+        panic!("step profile")
+    };
+    assert_eq!(
+        profile.steps[2].drive,
+        Drive::Current(-1.5 * CELL_CAPACITY_COULOMB / 3600.0)
+    );
+}
+
+#[test]
+fn override_errors_name_set() {
+    let (_files, path) = scenario_files(CELL, PROFILE, SCENARIO);
+    let cases = [
+        (
+            "cell.negative.particle_radius_um=-1",
+            "--set: cell.negative.particle_radius_um: must be positive, found -1",
+        ),
+        (
+            "cell.negative.thickness_um=thick",
+            "--set: cell.negative.thickness_um: expected a number, found string \"thick\"",
+        ),
+        (
+            "cell.negative.partical_radius_um=1",
+            "--set: cell.negative.partical_radius_um: unknown key; \
+             did you mean `particle_radius_um`?",
+        ),
+        (
+            "profile.block.5.step.0.charge_c=1",
+            "--set: profile.block.5.step.0.charge_c: index 5 is out of range",
+        ),
+        (
+            "profile.block.0.step.1.end_voltage_v=3",
+            "--set: profile.block.0.step.1.end_voltage_v: does not apply to a rest",
+        ),
+        (
+            "ambient_c=-300",
+            "--set: ambient_c: must be above absolute zero",
+        ),
+        (
+            "cell.name.first=x",
+            "--set: cell.name.first: `name` is text, not a table",
+        ),
+    ];
+    for (text, expected) in cases {
+        let error = load_scenario(&path, &overrides(&[text])).expect_err(text);
+        assert!(error.is_from_command_line(), "{error}");
+        assert!(
+            error.to_string().starts_with(expected),
+            "`{error}` should start with `{expected}`"
+        );
+    }
+    let malformed = parse_override("cell.negative.thickness_um").expect_err("no value");
+    assert!(malformed.to_string().starts_with("--set: "), "{malformed}");
+}
+
+#[test]
+fn detects_file_kinds() {
+    let files = Files::new();
+    assert_eq!(
+        detect_kind(&files.write("c.toml", CELL)).ok(),
+        Some(InputKind::Cell)
+    );
+    assert_eq!(
+        detect_kind(&files.write("p.toml", PROFILE)).ok(),
+        Some(InputKind::Profile)
+    );
+    assert_eq!(
+        detect_kind(&files.write("s.toml", SCENARIO)).ok(),
+        Some(InputKind::Scenario)
+    );
+    assert_eq!(
+        detect_kind(&files.write("d.csv", "time_s,current_a\n")).ok(),
+        Some(InputKind::Series)
+    );
+    let unknown =
+        detect_kind(&files.write("x.toml", "name = \"x\"\n")).expect_err("no known table");
+    assert!(unknown.rule.contains("expected a cell file"), "{unknown}");
+    assert!(detect_kind(&files.write("x.txt", "")).is_err());
+}
+
+/// Every prefix of every valid file is some input a user could save by accident.
+#[test]
+fn truncated_files_never_panic() {
+    let files = Files::new();
+    for (name, text) in [
+        ("cell.toml", CELL),
+        ("profile.toml", PROFILE),
+        ("scenario.toml", SCENARIO),
+    ] {
+        for end in (0..=text.len()).filter(|&i| text.is_char_boundary(i)) {
+            let path = files.write(name, &text[..end]);
+            let _ = detect_kind(&path);
+            let _ = load_cell(&path, &[]);
+            let _ = load_duty(&path, CELL_CAPACITY_COULOMB, &[]);
+            let _ = load_scenario(&path, &[]);
+        }
+    }
+    let csv = "time_s,current_a,ambient_c\n0,1.5,20\n10,-2,21\n20,0,21\n";
+    for end in 0..=csv.len() {
+        let _ = load_series(&files.write("duty.csv", &csv[..end]));
+    }
+}
