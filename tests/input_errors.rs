@@ -810,3 +810,21 @@ fn truncated_files_never_panic() {
         let _ = load_series(&files.write("duty.csv", &csv[..end]));
     }
 }
+
+/// The shipped demo scenarios must stay loadable as the formats evolve.
+#[test]
+fn demo_scenarios_load() {
+    let examples = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    let Ok(entries) = std::fs::read_dir(&examples) else {
+        return;
+    };
+    for path in entries.filter_map(|e| e.ok()).map(|e| e.path()) {
+        if path.extension().is_some_and(|e| e == "toml")
+            && detect_kind(&path).ok() == Some(InputKind::Scenario)
+        {
+            if let Err(error) = load_scenario(&path, &[]) {
+                panic!("{error}");
+            }
+        }
+    }
+}
