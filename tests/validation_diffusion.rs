@@ -22,7 +22,12 @@ fn tau_to_seconds(tau: f64) -> f64 {
 }
 
 /// Positive roots of tan λ = λ by Newton from the asymptote (n + ½)π.
-fn tan_roots(count: usize) -> Vec<f64> {
+fn tan_roots() -> &'static [f64] {
+    static ROOTS: std::sync::OnceLock<Vec<f64>> = std::sync::OnceLock::new();
+    ROOTS.get_or_init(|| compute_tan_roots(400))
+}
+
+fn compute_tan_roots(count: usize) -> Vec<f64> {
     (1..=count)
         .map(|n| {
             let mut x = (n as f64 + 0.5) * std::f64::consts::PI - 1e-3;
@@ -40,7 +45,7 @@ fn tan_roots(count: usize) -> Vec<f64> {
 /// 3τ + ρ²/2 − 3/10 − 2 Σ sin(λₙρ)/(ρ λₙ² sin λₙ) exp(−λₙ² τ), tan λₙ = λₙ.
 /// Marked "from memory" in VALIDATION.md: `constant_flux_series_meets_its_conditions` checks it.
 fn crank_constant_flux(rho: f64, tau: f64) -> f64 {
-    let roots = tan_roots(400);
+    let roots = tan_roots();
     let series: f64 = roots
         .iter()
         .map(|&l| {
