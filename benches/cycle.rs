@@ -3,24 +3,32 @@
 //! on one core. Run: `cargo bench --bench cycle`.
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use fadecast::cycle::{balance_cell, simulate_cycle, simulate_periodic_with, CellModel, CycleRecord, Health, SolverSettings};
+use fadecast::cycle::{
+    balance_cell, simulate_cycle, simulate_periodic_with, CellModel, CycleRecord, Health, SolverSettings,
+};
 use std::hint::black_box;
 use std::path::Path;
 
 fn one_cycle(c: &mut Criterion) {
-    let loaded = fadecast::input::load_scenario(Path::new("examples/lab-cccv-1c.toml"), &[]).expect("demo scenario loads");
+    let loaded =
+        fadecast::input::load_scenario(Path::new("examples/lab-cccv-1c.toml"), &[]).expect("demo scenario loads");
     let scenario = loaded.scenario;
     let health = Health::fresh(&scenario.cell);
     let settings = SolverSettings::default();
     let model = CellModel::new(&scenario.cell);
     let balance = balance_cell(&scenario.cell, &health).expect("balanced");
     let (first, periodic) = simulate_periodic_with(&model, &scenario, &health, &settings).expect("cycle runs");
-    eprintln!("time steps per cycle: {}; step ends: {:?}", first.time_steps, first.steps.iter().map(|s| s.end.describe()).collect::<Vec<_>>());
+    eprintln!(
+        "time steps per cycle: {}; step ends: {:?}",
+        first.time_steps,
+        first.steps.iter().map(|s| s.end.describe()).collect::<Vec<_>>()
+    );
     let mut record = CycleRecord::default();
     c.bench_function("cycle_1c_cccv_5ah", |b| {
         b.iter(|| {
             let mut state = periodic.clone();
-            simulate_cycle(&model, &scenario, &health, &balance, &mut state, &settings, &mut record).expect("cycle runs");
+            simulate_cycle(&model, &scenario, &health, &balance, &mut state, &settings, &mut record)
+                .expect("cycle runs");
             black_box(record.charge_out_coulomb)
         })
     });

@@ -31,7 +31,11 @@ fn capacity_a(s: &Scenario) -> f64 {
 }
 
 /// Runs the scenario once from rest at `soc` (no warm-up) and returns the record and model.
-fn run_once(s: &Scenario, soc: f64, settings: &SolverSettings) -> (CycleRecord, CellModel, CellState, CellState, Balance) {
+fn run_once(
+    s: &Scenario,
+    soc: f64,
+    settings: &SolverSettings,
+) -> (CycleRecord, CellModel, CellState, CellState, Balance) {
     let model = CellModel::new(&s.cell);
     let health = Health::fresh(&s.cell);
     let balance = balance_cell(&s.cell, &health).expect("balanced");
@@ -49,7 +53,10 @@ fn slow_discharge_delivers_the_balanced_capacity() {
     for path in [VAN, FERRY] {
         let base = scenario(path, &[]);
         let c20 = capacity_a(&base) / 20.0;
-        let s = with_steps(base.clone(), vec![step("C/20", Drive::Current(c20), vec![StepEnd::Voltage(base.cell.voltage_min_v)])]);
+        let s = with_steps(
+            base.clone(),
+            vec![step("C/20", Drive::Current(c20), vec![StepEnd::Voltage(base.cell.voltage_min_v)])],
+        );
         let (record, ..) = run_once(&s, 1.0, &SolverSettings::default());
         let balance = balance_cell(&s.cell, &Health::fresh(&s.cell)).unwrap();
         let delivered = record.charge_out_coulomb / balance.capacity_coulomb;
@@ -59,9 +66,17 @@ fn slow_discharge_delivers_the_balanced_capacity() {
 
 #[test]
 fn voltage_stays_in_the_window_and_ends_are_met_within_a_millivolt() {
-    for path in ["examples/van-fleet-overnight.toml", "examples/van-fleet-fast-charge.toml", "examples/van-fleet-multistage.toml", "examples/van-fleet-winter-fast-charge.toml", "examples/van-day-measured.toml", FERRY] {
+    for path in [
+        "examples/van-fleet-overnight.toml",
+        "examples/van-fleet-fast-charge.toml",
+        "examples/van-fleet-multistage.toml",
+        "examples/van-fleet-winter-fast-charge.toml",
+        "examples/van-day-measured.toml",
+        FERRY,
+    ] {
         let s = scenario(path, &[]);
-        let record = simulate_periodic_cycle(&s, &Health::fresh(&s.cell), &SolverSettings::default()).unwrap_or_else(|e| panic!("{path}: {e}"));
+        let record = simulate_periodic_cycle(&s, &Health::fresh(&s.cell), &SolverSettings::default())
+            .unwrap_or_else(|e| panic!("{path}: {e}"));
         let measured = matches!(s.duty, DutyCycle::Series(_));
         for p in &record.trace {
             // A parked cell's open-circuit voltage follows temperature through dU/dT (a few mV
@@ -69,16 +84,34 @@ fn voltage_stays_in_the_window_and_ends_are_met_within_a_millivolt() {
             if measured && p.current_a == 0.0 {
                 continue;
             }
-            assert!(p.voltage_v >= s.cell.voltage_min_v - 1e-3 && p.voltage_v <= s.cell.voltage_max_v + 1e-3, "{path}: {:.4} V at {:.0} s", p.voltage_v, p.time_s);
+            assert!(
+                p.voltage_v >= s.cell.voltage_min_v - 1e-3 && p.voltage_v <= s.cell.voltage_max_v + 1e-3,
+                "{path}: {:.4} V at {:.0} s",
+                p.voltage_v,
+                p.time_s
+            );
         }
         if let DutyCycle::Steps(profile) = &s.duty {
             for summary in &record.steps {
                 let last = record.trace.iter().rev().find(|p| p.step == summary.index).unwrap();
-                let target = profile.steps[summary.index].ends.iter().find_map(|e| if let StepEnd::Voltage(v) = e { Some(*v) } else { None });
+                let target = profile.steps[summary.index].ends.iter().find_map(|e| {
+                    if let StepEnd::Voltage(v) = e {
+                        Some(*v)
+                    } else {
+                        None
+                    }
+                });
                 match (summary.end, target) {
-                    (EndReason::Voltage, Some(v)) => assert!((last.voltage_v - v).abs() < 1e-3, "{path} step {}: ended at {:.5} V, target {v}", summary.index + 1, last.voltage_v),
+                    (EndReason::Voltage, Some(v)) => assert!(
+                        (last.voltage_v - v).abs() < 1e-3,
+                        "{path} step {}: ended at {:.5} V, target {v}",
+                        summary.index + 1,
+                        last.voltage_v
+                    ),
                     (EndReason::VoltageLimit, _) => {
-                        let d = (last.voltage_v - s.cell.voltage_min_v).abs().min((last.voltage_v - s.cell.voltage_max_v).abs());
+                        let d = (last.voltage_v - s.cell.voltage_min_v)
+                            .abs()
+                            .min((last.voltage_v - s.cell.voltage_max_v).abs());
                         assert!(d < 1e-3, "{path}: limit met at {:.5} V", last.voltage_v);
                     }
                     _ => {}
@@ -104,7 +137,12 @@ fn constant_voltage_current_decays_monotonically() {
     let hold: Vec<&TracePoint> = record.trace.iter().filter(|p| p.step == 1).collect();
     assert!(hold.len() > 10, "hold has {} points", hold.len());
     for pair in hold.windows(2) {
-        assert!(pair[1].current_a.abs() <= pair[0].current_a.abs() + 1e-9, "current rose from {:.5} to {:.5} A", pair[0].current_a, pair[1].current_a);
+        assert!(
+            pair[1].current_a.abs() <= pair[0].current_a.abs() + 1e-9,
+            "current rose from {:.5} to {:.5} A",
+            pair[0].current_a,
+            pair[1].current_a
+        );
         assert!((pair[1].voltage_v - v_max).abs() < 1e-6, "hold voltage {:.6}", pair[1].voltage_v);
     }
     assert_eq!(record.steps[1].end, EndReason::Current);
@@ -135,7 +173,12 @@ fn stress_extremes(s: &Scenario, rate_c: f64) -> [f64; 4] {
     // Charge: the reverse.
     assert!(charge.neg_surface_stress_pa < 0.0, "negative surface not compressive on insertion");
     assert!(charge.pos_surface_stress_pa > 0.0, "positive surface not tensile on extraction");
-    [discharge.neg_surface_stress_pa, -discharge.pos_surface_stress_pa, -charge.neg_surface_stress_pa, charge.pos_surface_stress_pa]
+    [
+        discharge.neg_surface_stress_pa,
+        -discharge.pos_surface_stress_pa,
+        -charge.neg_surface_stress_pa,
+        charge.pos_surface_stress_pa,
+    ]
 }
 
 #[test]
@@ -186,7 +229,8 @@ fn steady_heating_rises_by_heat_over_conductance() {
     // A long symmetric ±1C pulse train holds the state of charge; the reversible heat cancels
     // and the mean rise settles at q̄/(hA) (Incropera & DeWitt, ch. 5, steady lumped balance),
     // with q̄ the mean irreversible heat, here I(U−V) computed from the trace.
-    let base = scenario(VAN, &["cell.negative.entropic_coefficient_mv_k=0", "cell.positive.entropic_coefficient_mv_k=0"]);
+    let base =
+        scenario(VAN, &["cell.negative.entropic_coefficient_mv_k=0", "cell.positive.entropic_coefficient_mv_k=0"]);
     let c = capacity_a(&base);
     let tau = base.cell.thermal_time_constant_s();
     let mut steps = Vec::new();

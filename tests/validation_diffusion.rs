@@ -59,7 +59,8 @@ fn crank_constant_flux(rho: f64, tau: f64) -> f64 {
 /// Crank (1975) eq. 6.18: fixed surface concentration, centre value (ρ → 0):
 /// (c − c₀)/(c_s − c₀) = 1 + 2 Σ (−1)ⁿ exp(−n²π²τ).
 fn crank_fixed_surface_centre(tau: f64) -> f64 {
-    1.0 + 2.0 * (1..200).map(|n| (-1f64).powi(n) * (-(n * n) as f64 * std::f64::consts::PI.powi(2) * tau).exp()).sum::<f64>()
+    1.0 + 2.0
+        * (1..200).map(|n| (-1f64).powi(n) * (-(n * n) as f64 * std::f64::consts::PI.powi(2) * tau).exp()).sum::<f64>()
 }
 
 /// Crank (1975) eq. 6.20: fractional uptake 1 − (6/π²) Σ exp(−n²π²τ)/n².
@@ -70,7 +71,10 @@ fn crank_fixed_surface_uptake(tau: f64) -> f64 {
 
 fn assert_relative(what: &str, computed: f64, reference: f64, tolerance: f64) {
     let error = (computed - reference).abs() / reference.abs();
-    assert!(error <= tolerance, "{what}: computed {computed:.7}, reference {reference:.7}, relative error {error:.2e} > {tolerance:.0e}");
+    assert!(
+        error <= tolerance,
+        "{what}: computed {computed:.7}, reference {reference:.7}, relative error {error:.2e} > {tolerance:.0e}"
+    );
 }
 
 /// Runs a particle from a uniform zero state with a constant input to τ, in one exact step.

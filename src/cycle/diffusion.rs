@@ -56,8 +56,7 @@ impl SphereModes {
     pub fn new(shells: usize, boundary: Boundary) -> SphereModes {
         let n = shells;
         let h = 1.0 / n as f64;
-        let volume: Vec<f64> =
-            (0..n).map(|i| (((i + 1) as f64 * h).powi(3) - (i as f64 * h).powi(3)) / 3.0).collect();
+        let volume: Vec<f64> = (0..n).map(|i| (((i + 1) as f64 * h).powi(3) - (i as f64 * h).powi(3)) / 3.0).collect();
         // Conductance across the face between shell i and i+1: ρ_f² / Δρ.
         let mut laplacian = DMatrix::<f64>::zeros(n, n);
         for i in 0..n - 1 {

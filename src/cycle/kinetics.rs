@@ -12,9 +12,18 @@ use crate::material::constants::{FARADAY, GAS_CONSTANT};
 pub const REFERENCE_ELECTROLYTE_MOL_M3: f64 = 1000.0;
 
 /// Exchange current density, A/m², at surface stoichiometry θ.
-pub fn exchange_current_density(rate_constant_m_s: f64, max_concentration_mol_m3: f64, theta: f64, electrolyte_mol_m3: f64) -> f64 {
+pub fn exchange_current_density(
+    rate_constant_m_s: f64,
+    max_concentration_mol_m3: f64,
+    theta: f64,
+    electrolyte_mol_m3: f64,
+) -> f64 {
     let theta = theta.clamp(1e-9, 1.0 - 1e-9);
-    FARADAY * rate_constant_m_s * max_concentration_mol_m3 * (theta * (1.0 - theta)).sqrt() * (electrolyte_mol_m3 / REFERENCE_ELECTROLYTE_MOL_M3).sqrt()
+    FARADAY
+        * rate_constant_m_s
+        * max_concentration_mol_m3
+        * (theta * (1.0 - theta)).sqrt()
+        * (electrolyte_mol_m3 / REFERENCE_ELECTROLYTE_MOL_M3).sqrt()
 }
 
 /// Overpotential, V, that drives an anodic (lithium-extracting) current density `i_a_m2`;

@@ -21,4 +21,7 @@ pub use balance::{balance_cell, Balance};
 pub use cell::{Cell, Electrode};
 pub use protocol::{Drive, DutyCycle, Scenario, SeriesSignal, Step, StepEnd, StepProfile, TimeSeries};
 pub use record::{CycleRecord, EndReason, StepSummary, TracePoint};
-pub use simulate::{simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CellModel, CellState, CycleError, Health, SolverSettings};
+pub use simulate::{
+    simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CellModel, CellState, CycleError, Health,
+    SolverSettings,
+};

@@ -198,11 +198,7 @@ impl CellModel {
     /// Uniform particles at equilibrium at the given state of charge.
     pub fn rest_state(&self, balance: &Balance, health: &Health, soc: f64, temperature_k: f64) -> CellState {
         let (x, y) = balance.stoich_at_soc(soc, health);
-        CellState {
-            neg_modes: self.neg.modes.uniform(x),
-            pos_modes: self.pos.modes.uniform(y),
-            temperature_k,
-        }
+        CellState { neg_modes: self.neg.modes.uniform(x), pos_modes: self.pos.modes.uniform(y), temperature_k }
     }
 
     /// Lithium held in both particles, as charge, C.
@@ -223,12 +219,15 @@ impl CellModel {
         StepConditions {
             temperature_k,
             ambient_k,
-            neg_diffusivity: n.diffusivity_m2_s * arrhenius_factor(n.diffusivity_activation_j_mol, temperature_k, t_ref),
-            pos_diffusivity: p.diffusivity_m2_s * arrhenius_factor(p.diffusivity_activation_j_mol, temperature_k, t_ref),
+            neg_diffusivity: n.diffusivity_m2_s
+                * arrhenius_factor(n.diffusivity_activation_j_mol, temperature_k, t_ref),
+            pos_diffusivity: p.diffusivity_m2_s
+                * arrhenius_factor(p.diffusivity_activation_j_mol, temperature_k, t_ref),
             neg_rate: n.rate_constant_m_s * arrhenius_factor(n.rate_constant_activation_j_mol, temperature_k, t_ref),
             pos_rate: p.rate_constant_m_s * arrhenius_factor(p.rate_constant_activation_j_mol, temperature_k, t_ref),
             // Conductances rise with temperature, so resistance falls by the inverse factor.
-            series_resistance_ohm: cell.ohmic_resistance_ohm / arrhenius_factor(cell.ohmic_activation_j_mol, temperature_k, t_ref)
+            series_resistance_ohm: cell.ohmic_resistance_ohm
+                / arrhenius_factor(cell.ohmic_activation_j_mol, temperature_k, t_ref)
                 + cell.film_resistance_ohm
                 + health.added_resistance_ohm,
             neg_area_m2: self.neg.surface_area_m2 * health.neg_active_scale,
@@ -286,7 +285,15 @@ impl CellModel {
     }
 
     /// Solves for the current meeting the control and returns the end-of-step state.
-    fn trial(&self, state: &CellState, cond: &StepConditions, control: Control, dt: f64, guess: f64, scratch: &mut Scratch) -> Option<Trial> {
+    fn trial(
+        &self,
+        state: &CellState,
+        cond: &StepConditions,
+        control: Control,
+        dt: f64,
+        guess: f64,
+        scratch: &mut Scratch,
+    ) -> Option<Trial> {
         let maps = self.responses(state, cond, dt, scratch);
         let current = match control {
             Control::Current(i) => i,
@@ -304,7 +311,14 @@ impl CellModel {
         let ocv = cell.positive.ocp.potential(pos_mean) - cell.negative.ocp.potential(neg_mean)
             + (cond.temperature_k - cell.reference_temperature_k) * self.entropic_v_k();
         let heat = bernardi_heat(current, ocv, voltage, cond.temperature_k, self.entropic_v_k());
-        let temperature_k = advance_temperature(cond.temperature_k, cond.ambient_k, heat, cell.heat_capacity_j_k(), cell.convective_conductance_w_k, dt);
+        let temperature_k = advance_temperature(
+            cond.temperature_k,
+            cond.ambient_k,
+            heat,
+            cell.heat_capacity_j_k(),
+            cell.convective_conductance_w_k,
+            dt,
+        );
         Some(Trial { dt, current, voltage, temperature_k, neg_surface, pos_surface, neg_mean, pos_mean, neg_potential })
     }
 
@@ -335,8 +349,16 @@ impl CellModel {
             neg_surface_stoich: trial.neg_surface,
             pos_surface_stoich: trial.pos_surface,
             neg_potential_v: trial.neg_potential,
-            neg_surface_stress_pa: surface_hoop_stress(self.neg.stress_coefficient * self.neg.max_concentration, trial.neg_mean, trial.neg_surface),
-            pos_surface_stress_pa: surface_hoop_stress(self.pos.stress_coefficient * self.pos.max_concentration, trial.pos_mean, trial.pos_surface),
+            neg_surface_stress_pa: surface_hoop_stress(
+                self.neg.stress_coefficient * self.neg.max_concentration,
+                trial.neg_mean,
+                trial.neg_surface,
+            ),
+            pos_surface_stress_pa: surface_hoop_stress(
+                self.pos.stress_coefficient * self.pos.max_concentration,
+                trial.pos_mean,
+                trial.pos_surface,
+            ),
             step,
         }
     }
@@ -391,8 +413,23 @@ struct ActiveStep<'a> {
     ends: &'a [StepEnd],
 }
 
+/// How far a step has run at the end of a trial.
+#[derive(Debug, Clone, Copy)]
+struct Progress {
+    soc: f64,
+    elapsed_s: f64,
+    charge_passed_coulomb: f64,
+}
+
 /// Distance to each end, scaled by its tolerance: positive before, ≤ 0 once reached.
-fn end_margins(step: &ActiveStep, cell: &Cell, trial: &Trial, soc: f64, elapsed: f64, charge_passed: f64, tolerance_v: f64, out: &mut Vec<(EndReason, f64)>) {
+fn end_margins(
+    step: &ActiveStep,
+    cell: &Cell,
+    trial: &Trial,
+    progress: Progress,
+    tolerance_v: f64,
+    out: &mut Vec<(EndReason, f64)>,
+) {
     out.clear();
     // Direction of travel: +1 discharge, −1 charge; a hold follows its current.
     let direction = match step.drive {
@@ -405,19 +442,20 @@ fn end_margins(step: &ActiveStep, cell: &Cell, trial: &Trial, soc: f64, elapsed:
         let margin = match *end {
             StepEnd::Voltage(v) => direction * (trial.voltage - v) / tolerance_v,
             StepEnd::CurrentBelow(i) => (trial.current.abs() - i) / (1e-4 * i),
-            StepEnd::Time(t) => (t - elapsed) / 1e-9 - 1.0,
+            StepEnd::Time(t) => (t - progress.elapsed_s) / 1e-9 - 1.0,
             StepEnd::Soc(s) => {
                 if direction == 0.0 {
                     continue;
                 }
-                direction * (soc - s) / 1e-6
+                direction * (progress.soc - s) / 1e-6
             }
-            StepEnd::Charge(q) => (q - charge_passed.abs()) / (1e-6 * q),
+            StepEnd::Charge(q) => (q - progress.charge_passed_coulomb.abs()) / (1e-6 * q),
         };
         out.push((reason_of(end), margin));
     }
     if !matches!(step.drive, Drive::Voltage(_) | Drive::Rest) {
-        let window = if direction > 0.0 { trial.voltage - cell.voltage_min_v } else { cell.voltage_max_v - trial.voltage };
+        let window =
+            if direction > 0.0 { trial.voltage - cell.voltage_min_v } else { cell.voltage_max_v - trial.voltage };
         out.push((EndReason::VoltageLimit, window / tolerance_v));
     }
     let surface_room = [trial.neg_surface, trial.pos_surface]
@@ -453,15 +491,27 @@ pub fn simulate_cycle(
     settings: &SolverSettings,
     record: &mut CycleRecord,
 ) -> Result<(), CycleError> {
-    let mut stepper = Stepper { model, health, balance, settings, scenario, scratch: Scratch::default(), margins: Vec::new(), time_s: 0.0, current_guess: 0.0 };
+    let mut stepper = Stepper {
+        model,
+        health,
+        balance,
+        settings,
+        scenario,
+        scratch: Scratch::default(),
+        margins: Vec::new(),
+        time_s: 0.0,
+        current_guess: 0.0,
+    };
     record.trace.clear();
     record.steps.clear();
     let cond = model.conditions(health, state.temperature_k, scenario.ambient_k);
-    let start = model.trial(state, &cond, Control::Current(0.0), 0.0, 0.0, &mut stepper.scratch).ok_or_else(|| CycleError::Failed {
-        step: 0,
-        label: "start".into(),
-        time_s: 0.0,
-        detail: "the starting state has no finite voltage".into(),
+    let start = model.trial(state, &cond, Control::Current(0.0), 0.0, 0.0, &mut stepper.scratch).ok_or_else(|| {
+        CycleError::Failed {
+            step: 0,
+            label: "start".into(),
+            time_s: 0.0,
+            detail: "the starting state has no finite voltage".into(),
+        }
     })?;
     record.trace.push(model.trace_point(0.0, &start, balance, 0));
     let mut voltage_limited_s = 0.0;
@@ -482,13 +532,22 @@ pub fn simulate_cycle(
 
 /// Simulates the scenario's duty cycle at the given health from the periodic state: warm-up
 /// cycles run from the profile's start until the cycle returns to the state it started from.
-pub fn simulate_periodic_cycle(scenario: &Scenario, health: &Health, settings: &SolverSettings) -> Result<CycleRecord, CycleError> {
+pub fn simulate_periodic_cycle(
+    scenario: &Scenario,
+    health: &Health,
+    settings: &SolverSettings,
+) -> Result<CycleRecord, CycleError> {
     let model = CellModel::new(&scenario.cell);
     simulate_periodic_with(&model, scenario, health, settings).map(|(record, _)| record)
 }
 
 /// [`simulate_periodic_cycle`] with a prepared model; also returns the periodic end state.
-pub fn simulate_periodic_with(model: &CellModel, scenario: &Scenario, health: &Health, settings: &SolverSettings) -> Result<(CycleRecord, CellState), CycleError> {
+pub fn simulate_periodic_with(
+    model: &CellModel,
+    scenario: &Scenario,
+    health: &Health,
+    settings: &SolverSettings,
+) -> Result<(CycleRecord, CellState), CycleError> {
     let balance = balance_cell(&model.cell, health).ok_or(CycleError::Unbalanced)?;
     let mut state = model.rest_state(&balance, health, scenario.start_soc, scenario.ambient_k);
     let mut record = CycleRecord::default();
@@ -602,18 +661,29 @@ impl Stepper<'_> {
     fn next_dt(&self, previous: &TracePoint, trial: &Trial, check_voltage: bool, max_dt: f64) -> f64 {
         let s = self.settings;
         let ratio = |change: f64, limit: f64| if change > 1e-12 { limit / change } else { f64::INFINITY };
-        let mut r = ratio((self.soc(trial) - previous.soc).abs(), s.max_soc_step).min(ratio((trial.temperature_k - previous.temperature_k).abs(), s.max_temperature_step_k));
+        let mut r = ratio((self.soc(trial) - previous.soc).abs(), s.max_soc_step)
+            .min(ratio((trial.temperature_k - previous.temperature_k).abs(), s.max_temperature_step_k));
         if check_voltage {
             r = r.min(ratio((trial.voltage - previous.voltage_v).abs(), s.max_voltage_step_v));
         }
         (trial.dt * r.clamp(0.5, 2.0)).min(max_dt)
     }
 
-    fn run_step(&mut self, index: usize, step: &Step, state: &mut CellState, record: &mut CycleRecord) -> Result<StepSummary, CycleError> {
+    fn run_step(
+        &mut self,
+        index: usize,
+        step: &Step,
+        state: &mut CellState,
+        record: &mut CycleRecord,
+    ) -> Result<StepSummary, CycleError> {
         let active = ActiveStep { index, label: &step.label, drive: step.drive, ends: &step.ends };
         let control = self.control(step.drive);
         let max_dt = if step.drive == Drive::Rest { self.settings.max_dt_rest_s } else { self.settings.max_dt_load_s };
-        let time_end = step.ends.iter().filter_map(|e| if let StepEnd::Time(t) = e { Some(*t) } else { None }).fold(f64::INFINITY, f64::min);
+        let time_end = step
+            .ends
+            .iter()
+            .filter_map(|e| if let StepEnd::Time(t) = e { Some(*t) } else { None })
+            .fold(f64::INFINITY, f64::min);
         let mut elapsed = 0.0;
         let mut charge = 0.0;
         let mut dt = self.settings.first_dt_s;
@@ -625,7 +695,14 @@ impl Stepper<'_> {
         };
         loop {
             if elapsed > self.settings.max_step_duration_s {
-                return Err(self.fail(index, &step.label, format!("did not end within {:.0} h; check its end conditions", self.settings.max_step_duration_s / 3600.0)));
+                return Err(self.fail(
+                    index,
+                    &step.label,
+                    format!(
+                        "did not end within {:.0} h; check its end conditions",
+                        self.settings.max_step_duration_s / 3600.0
+                    ),
+                ));
             }
             dt = dt.min(time_end - elapsed).max(1e-9);
             let previous = *record.trace.last().expect("trace starts with the initial point");
@@ -643,15 +720,32 @@ impl Stepper<'_> {
             }
             let soc = self.soc(&trial);
             let passed = charge + trial.current * trial.dt;
-            end_margins(&active, &self.model.cell, &trial, soc, elapsed + dt, passed, self.settings.voltage_end_tolerance_v, &mut self.margins);
+            end_margins(
+                &active,
+                &self.model.cell,
+                &trial,
+                Progress { soc, elapsed_s: elapsed + dt, charge_passed_coulomb: passed },
+                self.settings.voltage_end_tolerance_v,
+                &mut self.margins,
+            );
             let (other_end, time_end_reached) = ends_reached(&self.margins);
             if other_end || time_end_reached {
                 // An end inside the step is located; the time end is met exactly by the clamp.
-                let (trial, reason) = if other_end { self.locate(&active, state, &cond, control, elapsed, charge, dt)? } else { (trial, EndReason::Time) };
+                let (trial, reason) = if other_end {
+                    self.locate(&active, state, &cond, control, elapsed, charge, dt)?
+                } else {
+                    (trial, EndReason::Time)
+                };
                 self.accept(state, &cond, &trial, index, record);
                 charge += trial.current * trial.dt;
                 elapsed += trial.dt;
-                return Ok(StepSummary { index, label: step.label.clone(), end: reason, duration_s: elapsed, charge_coulomb: charge });
+                return Ok(StepSummary {
+                    index,
+                    label: step.label.clone(),
+                    end: reason,
+                    duration_s: elapsed,
+                    charge_coulomb: charge,
+                });
             }
             self.accept(state, &cond, &trial, index, record);
             charge = passed;
@@ -665,7 +759,14 @@ impl Stepper<'_> {
         series_value.unwrap_or(self.scenario.ambient_k)
     }
 
-    fn accept(&mut self, state: &mut CellState, cond: &StepConditions, trial: &Trial, step: usize, record: &mut CycleRecord) {
+    fn accept(
+        &mut self,
+        state: &mut CellState,
+        cond: &StepConditions,
+        trial: &Trial,
+        step: usize,
+        record: &mut CycleRecord,
+    ) {
         self.model.commit(state, cond, trial, &mut self.scratch);
         self.time_s += trial.dt;
         self.current_guess = trial.current;
@@ -675,17 +776,34 @@ impl Stepper<'_> {
     /// Finds the step length inside (0, dt] at which the first end is met, by the Illinois
     /// variant of false position on the smallest scaled margin (target: within tolerance).
     #[allow(clippy::too_many_arguments)]
-    fn locate(&mut self, step: &ActiveStep, state: &CellState, cond: &StepConditions, control: Control, elapsed: f64, charge: f64, dt: f64) -> Result<(Trial, EndReason), CycleError> {
+    fn locate(
+        &mut self,
+        step: &ActiveStep,
+        state: &CellState,
+        cond: &StepConditions,
+        control: Control,
+        elapsed: f64,
+        charge: f64,
+        dt: f64,
+    ) -> Result<(Trial, EndReason), CycleError> {
         // Scaled margins are ≤ 0 once an end is reached; accept anything in [−1, 0].
         let evaluate = |this: &mut Self, h: f64| -> Option<(Trial, EndReason, f64)> {
             let trial = this.model.trial(state, cond, control, h, this.current_guess, &mut this.scratch)?;
             let soc = this.soc(&trial);
-            end_margins(step, &this.model.cell, &trial, soc, elapsed + h, charge + trial.current * h, this.settings.voltage_end_tolerance_v, &mut this.margins);
+            end_margins(
+                step,
+                &this.model.cell,
+                &trial,
+                Progress { soc, elapsed_s: elapsed + h, charge_passed_coulomb: charge + trial.current * h },
+                this.settings.voltage_end_tolerance_v,
+                &mut this.margins,
+            );
             let (reason, margin) = this.margins.iter().copied().min_by(|a, b| a.1.total_cmp(&b.1))?;
             Some((trial, reason, margin))
         };
         let (mut lo, mut f_lo) = (0.0, 1.0_f64);
-        let (mut best, mut best_reason, f_dt) = evaluate(self, dt).ok_or_else(|| self.fail(step.index, step.label, "solver failed near a step end"))?;
+        let (mut best, mut best_reason, f_dt) =
+            evaluate(self, dt).ok_or_else(|| self.fail(step.index, step.label, "solver failed near a step end"))?;
         let (mut hi, mut f_hi) = (dt, f_dt + 0.5);
         if f_dt >= -1.0 {
             return Ok((best, best_reason));
@@ -694,7 +812,11 @@ impl Stepper<'_> {
         f_lo += 0.5;
         let mut side = 0;
         for _ in 0..60 {
-            let h = if f_lo.is_finite() && f_hi.is_finite() && f_lo > f_hi { (lo * f_hi - hi * f_lo) / (f_hi - f_lo) } else { 0.5 * (lo + hi) };
+            let h = if f_lo.is_finite() && f_hi.is_finite() && f_lo > f_hi {
+                (lo * f_hi - hi * f_lo) / (f_hi - f_lo)
+            } else {
+                0.5 * (lo + hi)
+            };
             let h = if h <= lo || h >= hi { 0.5 * (lo + hi) } else { h };
             let Some((trial, reason, margin)) = evaluate(self, h) else {
                 hi = h;
@@ -729,7 +851,12 @@ impl Stepper<'_> {
     }
 
     /// Runs a measured series; returns the time the current was held back at a voltage limit.
-    fn run_series(&mut self, series: &super::TimeSeries, state: &mut CellState, record: &mut CycleRecord) -> Result<f64, CycleError> {
+    fn run_series(
+        &mut self,
+        series: &super::TimeSeries,
+        state: &mut CellState,
+        record: &mut CycleRecord,
+    ) -> Result<f64, CycleError> {
         let cell = &self.model.cell;
         let mut limited = 0.0;
         for k in 0..series.time_s.len() - 1 {
@@ -754,10 +881,20 @@ impl Stepper<'_> {
                 // A battery management system would derate a current that drives the voltage
                 // out of the window: hold the limit with a current of the same sign, smaller.
                 let trial = match trial {
-                    Some(t) if (t.voltage > cell.voltage_max_v && t.current < 0.0) || (t.voltage < cell.voltage_min_v && t.current > 0.0) => {
+                    Some(t)
+                        if (t.voltage > cell.voltage_max_v && t.current < 0.0)
+                            || (t.voltage < cell.voltage_min_v && t.current > 0.0) =>
+                    {
                         let limit = if t.current < 0.0 { cell.voltage_max_v } else { cell.voltage_min_v };
                         limited += dt;
-                        let held = self.model.trial(state, &cond, Control::Voltage(limit), dt, 0.5 * t.current, &mut self.scratch);
+                        let held = self.model.trial(
+                            state,
+                            &cond,
+                            Control::Voltage(limit),
+                            dt,
+                            0.5 * t.current,
+                            &mut self.scratch,
+                        );
                         match held {
                             Some(h) if h.current * t.current >= 0.0 && h.current.abs() <= t.current.abs() => Some(h),
                             _ => self.model.trial(state, &cond, Control::Current(0.0), dt, 0.0, &mut self.scratch),
@@ -767,7 +904,11 @@ impl Stepper<'_> {
                 };
                 let Some(trial) = trial else {
                     if dt < 1e-3 {
-                        return Err(self.fail(0, &series.name, format!("sample {} at t = {:.0} s cannot be run", k + 2, series.time_s[k])));
+                        return Err(self.fail(
+                            0,
+                            &series.name,
+                            format!("sample {} at t = {:.0} s cannot be run", k + 2, series.time_s[k]),
+                        ));
                     }
                     dt *= 0.25;
                     continue;
@@ -784,7 +925,13 @@ impl Stepper<'_> {
         }
         let duration = series.time_s[series.time_s.len() - 1] - series.time_s[0];
         let charge = record.trace.iter().map(|p| p.current_a * p.dt_s).sum();
-        record.steps.push(StepSummary { index: 0, label: series.name.clone(), end: EndReason::SeriesEnd, duration_s: duration, charge_coulomb: charge });
+        record.steps.push(StepSummary {
+            index: 0,
+            label: series.name.clone(),
+            end: EndReason::SeriesEnd,
+            duration_s: duration,
+            charge_coulomb: charge,
+        });
         Ok(limited)
     }
 }

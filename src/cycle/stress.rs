@@ -50,7 +50,8 @@ mod tests {
 
     #[test]
     fn uniform_concentration_is_stress_free() {
-        let volumes: Vec<f64> = (0..8).map(|i| (((i + 1) as f64 / 8.0).powi(3) - (i as f64 / 8.0).powi(3)) / 3.0).collect();
+        let volumes: Vec<f64> =
+            (0..8).map(|i| (((i + 1) as f64 / 8.0).powi(3) - (i as f64 / 8.0).powi(3)) / 3.0).collect();
         for (radial, hoop) in face_stresses(1e4, &[7.0; 8], &volumes, 7.0) {
             assert!(radial.abs() < 1e-9 && hoop.abs() < 1e-9);
         }

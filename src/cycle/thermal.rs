@@ -10,7 +10,14 @@ pub fn bernardi_heat(current_a: f64, ocv_v: f64, voltage_v: f64, temperature_k: 
 
 /// Temperature after `dt` with constant heat: the exact solution of the lumped balance,
 /// T_∞ + (T₀ − T_∞) e^(−dt/τ), T_∞ = T_amb + q/hA, τ = m c_p / hA.
-pub fn advance_temperature(temperature_k: f64, ambient_k: f64, heat_w: f64, heat_capacity_j_k: f64, conductance_w_k: f64, dt_s: f64) -> f64 {
+pub fn advance_temperature(
+    temperature_k: f64,
+    ambient_k: f64,
+    heat_w: f64,
+    heat_capacity_j_k: f64,
+    conductance_w_k: f64,
+    dt_s: f64,
+) -> f64 {
     let steady = ambient_k + heat_w / conductance_w_k;
     steady + (temperature_k - steady) * (-dt_s * conductance_w_k / heat_capacity_j_k).exp()
 }

@@ -53,13 +53,13 @@ impl BuiltinOcp {
         let x = x.clamp(STOICH_GUARD, 1.0 - STOICH_GUARD);
         match self {
             BuiltinOcp::GraphiteMcmb1996 => {
-                0.7222 + 0.1387 * x + 0.029 * x.sqrt() - 0.0172 / x + 0.0019 / x.powf(1.5)
+                0.7222 + 0.1387 * x + 0.029 * x.sqrt() - 0.0172 / x
+                    + 0.0019 / x.powf(1.5)
                     + 0.2808 * (0.9 - 15.0 * x).exp()
                     - 0.7984 * (0.4465 * x - 0.4108).exp()
             }
             BuiltinOcp::Graphite2011 => {
-                0.6379 + 0.5416 * (-305.5309 * x).exp()
-                    + 0.044 * (-(x - 0.1958) / 0.1088).tanh()
+                0.6379 + 0.5416 * (-305.5309 * x).exp() + 0.044 * (-(x - 0.1958) / 0.1088).tanh()
                     - 0.1978 * ((x - 1.0571) / 0.0854).tanh()
                     - 0.6875 * ((x + 0.0117) / 0.0529).tanh()
                     - 0.0175 * ((x - 0.5692) / 0.0875).tanh()
@@ -70,15 +70,12 @@ impl BuiltinOcp {
                 let y6 = y4 * y2;
                 let y8 = y4 * y4;
                 let y10 = y8 * y2;
-                (-4.656 + 88.669 * y2 - 401.119 * y4 + 342.909 * y6 - 462.471 * y8
-                    + 433.434 * y10)
-                    / (-1.0 + 18.933 * y2 - 79.532 * y4 + 37.311 * y6 - 73.083 * y8
-                        + 95.96 * y10)
+                (-4.656 + 88.669 * y2 - 401.119 * y4 + 342.909 * y6 - 462.471 * y8 + 433.434 * y10)
+                    / (-1.0 + 18.933 * y2 - 79.532 * y4 + 37.311 * y6 - 73.083 * y8 + 95.96 * y10)
             }
             BuiltinOcp::IronPhosphate2011 => {
                 let v = 1.0 - x;
-                3.4323 - 0.8428 * (-80.2493 * v.powf(1.3198)).exp()
-                    - 3.2474e-6 * (20.2645 * v.powf(3.8003)).exp()
+                3.4323 - 0.8428 * (-80.2493 * v.powf(1.3198)).exp() - 3.2474e-6 * (20.2645 * v.powf(3.8003)).exp()
                     + 3.2482e-6 * (20.2646 * v.powf(3.7995)).exp()
             }
         }
@@ -91,7 +88,10 @@ pub enum OpenCircuit {
     Builtin(BuiltinOcp),
     /// Points (stoichiometry strictly increasing, potential in volts), linearly interpolated and
     /// held flat beyond the ends.
-    Table { stoich: Vec<f64>, potential_v: Vec<f64> },
+    Table {
+        stoich: Vec<f64>,
+        potential_v: Vec<f64>,
+    },
 }
 
 impl OpenCircuit {
