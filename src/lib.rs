@@ -4,8 +4,10 @@
 //! → reports ([`report`]). Physics modules never read files or print; the command layer
 //! ([`cli`]) never does physics.
 
+pub mod aging;
 pub mod cli;
 pub mod cycle;
+pub mod forecast;
 pub mod input;
 pub mod material;
 pub mod report;

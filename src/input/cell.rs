@@ -240,6 +240,9 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<Inp
         temperature_max_k: limits.max_temperature_c + ZERO_CELSIUS_K,
         reference_temperature_k: reference_temperature_c + ZERO_CELSIUS_K,
         shells: usize::try_from(shells).unwrap_or(0),
+        // Filled from the mechanism tables once the input layer reads them.
+        aging: crate::aging::AgingParams::default(),
+        calibration: None,
     };
     checks.finish(cell)
 }

@@ -1,0 +1,25 @@
+//! The forecast: integrates the slow aging state over thousands of cycles by simulating only
+//! the cycles an adaptive integrator asks for (cycle jumping), or every cycle for reference.
+
+pub mod plan;
+pub mod result;
+
+pub use plan::{Ambient, EndOfLife, Horizon, Plan, Usage};
+pub use result::{EndOfLifePoint, FadePoint, Forecast, LifeAt, LossByMechanism, StopReason, Threshold};
+
+/// Options of one forecast run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ForecastOptions {
+    /// Simulate every cycle (reference) instead of jumping.
+    pub every_cycle: bool,
+    /// Reported points over the horizon (plus the start).
+    pub report_points: usize,
+    /// Relative tolerance of the cycle-jumping integrator.
+    pub relative_tolerance: f64,
+}
+
+impl Default for ForecastOptions {
+    fn default() -> Self {
+        ForecastOptions { every_cycle: false, report_points: 100, relative_tolerance: 1e-4 }
+    }
+}
