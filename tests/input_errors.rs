@@ -8,8 +8,7 @@ use std::path::{Path, PathBuf};
 
 use fadecast::cycle::{Drive, DutyCycle, SeriesSignal, StepEnd};
 use fadecast::input::{
-    detect_kind, load_cell, load_duty, load_scenario, load_series, parse_override, InputError,
-    InputKind, Override,
+    detect_kind, load_cell, load_duty, load_scenario, load_series, parse_override, InputError, InputKind, Override,
 };
 use fadecast::material::constants::{FARADAY, SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use fadecast::material::{BuiltinOcp, OpenCircuit};
@@ -117,9 +116,7 @@ struct Files {
 
 impl Files {
     fn new() -> Self {
-        Self {
-            dir: tempfile::tempdir().expect("temporary directory"),
-        }
+        Self { dir: tempfile::tempdir().expect("temporary directory") }
     }
 
     fn write(&self, name: &str, text: &str) -> PathBuf {
@@ -134,22 +131,13 @@ impl Files {
 
 /// `text` with its only occurrence of `from` replaced by `to`.
 fn edited(text: &str, from: &str, to: &str) -> String {
-    assert_eq!(
-        text.matches(from).count(),
-        1,
-        "`{from}` must occur exactly once"
-    );
+    assert_eq!(text.matches(from).count(), 1, "`{from}` must occur exactly once");
     text.replacen(from, to, 1)
 }
 
 /// 1-based line of the only line containing `needle`.
 fn line_of(text: &str, needle: &str) -> usize {
-    let lines: Vec<usize> = text
-        .lines()
-        .enumerate()
-        .filter(|(_, l)| l.contains(needle))
-        .map(|(i, _)| i + 1)
-        .collect();
+    let lines: Vec<usize> = text.lines().enumerate().filter(|(_, l)| l.contains(needle)).map(|(i, _)| i + 1).collect();
     assert_eq!(lines.len(), 1, "`{needle}` must be on exactly one line");
     lines[0]
 }
@@ -166,17 +154,11 @@ fn profile_error(files: &Files, text: &str) -> InputError {
 }
 
 fn overrides(texts: &[&str]) -> Vec<Override> {
-    texts
-        .iter()
-        .map(|t| parse_override(t).expect("well-formed override"))
-        .collect()
+    texts.iter().map(|t| parse_override(t).expect("well-formed override")).collect()
 }
 
 fn assert_close(actual: f64, expected: f64) {
-    assert!(
-        (actual - expected).abs() <= 1e-12 * expected.abs().max(1e-300),
-        "{actual} ≠ {expected}"
-    );
+    assert!((actual - expected).abs() <= 1e-12 * expected.abs().max(1e-300), "{actual} ≠ {expected}");
 }
 
 /// Checks file, line, key and a fragment of the rule, and that the message is one line.
@@ -184,16 +166,10 @@ fn assert_error(error: &InputError, file: &Path, line: Option<usize>, key: &str,
     assert_eq!(error.file, file, "{error}");
     assert_eq!(error.line, line, "{error}");
     assert_eq!(error.key.as_deref(), Some(key), "{error}");
-    assert!(
-        error.rule.contains(rule),
-        "`{error}` should contain `{rule}`"
-    );
+    assert!(error.rule.contains(rule), "`{error}` should contain `{rule}`");
     let message = error.to_string();
     assert!(!message.contains('\n'));
-    assert!(
-        message.starts_with(&file.display().to_string()),
-        "{message}"
-    );
+    assert!(message.starts_with(&file.display().to_string()), "{message}");
 }
 
 #[test]
@@ -227,22 +203,13 @@ fn valid_cell_converts_to_si_units() {
     assert_close(negative.youngs_modulus_pa, 10.0e9);
     assert_close(negative.partial_molar_volume_m3_mol, 3.0e-6);
     assert_eq!(negative.ocp, OpenCircuit::Builtin(BuiltinOcp::Graphite2011));
-    assert_close(
-        negative.capacity_coulomb(),
-        50.0e-6 * 0.1 * 0.5 * 30000.0 * FARADAY,
-    );
+    assert_close(negative.capacity_coulomb(), 50.0e-6 * 0.1 * 0.5 * 30000.0 * FARADAY);
 
     let positive = &cell.positive;
     assert_close(positive.stoich_at_soc0, 0.9);
     assert_close(positive.stoich_at_soc100, 0.4);
     assert_close(positive.entropic_coefficient_v_k, 0.0);
-    assert_eq!(
-        positive.ocp,
-        OpenCircuit::Table {
-            stoich: vec![0.3, 0.6, 0.95],
-            potential_v: vec![4.2, 3.9, 3.6]
-        }
-    );
+    assert_eq!(positive.ocp, OpenCircuit::Table { stoich: vec![0.3, 0.6, 0.95], potential_v: vec![4.2, 3.9, 3.6] });
 }
 
 #[test]
@@ -251,10 +218,7 @@ fn missing_file_names_the_path() {
     let path = files.dir.path().join("no-such-cell.toml");
     let error = load_cell(&path, &[]).expect_err("missing file");
     assert_eq!(error.file, path);
-    assert_eq!(
-        error.to_string(),
-        format!("{}: file does not exist", path.display())
-    );
+    assert_eq!(error.to_string(), format!("{}: file does not exist", path.display()));
 }
 
 #[test]
@@ -273,13 +237,7 @@ fn unknown_key_suggests_the_nearest_valid_key() {
     let text = edited(CELL, "particle_radius_um = 5.0", "partical_radius_um = 5.0");
     let (path, error) = cell_error(&files, &text);
     let line = line_of(&text, "partical_radius_um");
-    assert_error(
-        &error,
-        &path,
-        Some(line),
-        "negative.partical_radius_um",
-        "unknown key",
-    );
+    assert_error(&error, &path, Some(line), "negative.partical_radius_um", "unknown key");
     assert_eq!(
         error.to_string(),
         format!(
@@ -295,13 +253,7 @@ fn wrong_type_has_key_and_line() {
     let text = edited(CELL, "thickness_um = 40.0", "thickness_um = \"forty\"");
     let (path, error) = cell_error(&files, &text);
     let line = line_of(&text, "\"forty\"");
-    assert_error(
-        &error,
-        &path,
-        Some(line),
-        "positive.thickness_um",
-        "expected a number",
-    );
+    assert_error(&error, &path, Some(line), "positive.thickness_um", "expected a number");
 }
 
 #[test]
@@ -309,13 +261,7 @@ fn missing_key_names_its_table() {
     let files = Files::new();
     let text = edited(CELL, "mass_kg = 0.1\n", "");
     let (path, error) = cell_error(&files, &text);
-    assert_error(
-        &error,
-        &path,
-        Some(line_of(&text, "[thermal]")),
-        "thermal.mass_kg",
-        "required key is missing",
-    );
+    assert_error(&error, &path, Some(line_of(&text, "[thermal]")), "thermal.mass_kg", "required key is missing");
 }
 
 #[test]
@@ -329,41 +275,11 @@ fn impossible_cell_values_name_key_rule_and_line() {
             "must be positive",
             "-5.0",
         ),
-        (
-            "stoich_at_soc0 = 0.9",
-            "stoich_at_soc0 = 1.2",
-            "positive.stoich_at_soc0",
-            "must lie in 0–1",
-            "1.2",
-        ),
-        (
-            "voltage_min_v = 3.0",
-            "voltage_min_v = 4.5",
-            "voltage_min_v",
-            "must be below voltage_max_v",
-            "4.5",
-        ),
-        (
-            "stoich_at_soc100 = 0.8",
-            "stoich_at_soc100 = 0.05",
-            "negative.stoich_at_soc100",
-            "must be above",
-            "0.05",
-        ),
-        (
-            "poisson_ratio = 0.3",
-            "poisson_ratio = 0.7",
-            "positive.poisson_ratio",
-            "must lie in 0–0.5",
-            "0.7",
-        ),
-        (
-            "min_temperature_c = -10.0",
-            "min_temperature_c = 70.0",
-            "limits.min_temperature_c",
-            "must be below",
-            "70.0",
-        ),
+        ("stoich_at_soc0 = 0.9", "stoich_at_soc0 = 1.2", "positive.stoich_at_soc0", "must lie in 0–1", "1.2"),
+        ("voltage_min_v = 3.0", "voltage_min_v = 4.5", "voltage_min_v", "must be below voltage_max_v", "4.5"),
+        ("stoich_at_soc100 = 0.8", "stoich_at_soc100 = 0.05", "negative.stoich_at_soc100", "must be above", "0.05"),
+        ("poisson_ratio = 0.3", "poisson_ratio = 0.7", "positive.poisson_ratio", "must lie in 0–0.5", "0.7"),
+        ("min_temperature_c = -10.0", "min_temperature_c = 70.0", "limits.min_temperature_c", "must be below", "70.0"),
         (
             "ocp = \"graphite-2011\"",
             "ocp = \"graphite-201\"",
@@ -371,20 +287,8 @@ fn impossible_cell_values_name_key_rule_and_line() {
             "did you mean `graphite-2011`?",
             "-201\"",
         ),
-        (
-            "  [0.6, 3.9],",
-            "  [0.2, 3.9],",
-            "positive.ocp_table",
-            "must increase strictly",
-            "ocp_table",
-        ),
-        (
-            "diffusivity_m2_s = 1.0e-14",
-            "diffusivity_m2_s = nan",
-            "negative.diffusivity_m2_s",
-            "finite",
-            "nan",
-        ),
+        ("  [0.6, 3.9],", "  [0.2, 3.9],", "positive.ocp_table", "must increase strictly", "ocp_table"),
+        ("diffusivity_m2_s = 1.0e-14", "diffusivity_m2_s = nan", "negative.diffusivity_m2_s", "finite", "nan"),
     ];
     for (from, to, key, rule, on_line) in cases {
         let files = Files::new();
@@ -397,19 +301,9 @@ fn impossible_cell_values_name_key_rule_and_line() {
 #[test]
 fn both_ocp_forms_is_an_error() {
     let files = Files::new();
-    let text = edited(
-        CELL,
-        "ocp_table = [",
-        "ocp = \"cobalt-oxide-1996\"\nocp_table = [",
-    );
+    let text = edited(CELL, "ocp_table = [", "ocp = \"cobalt-oxide-1996\"\nocp_table = [");
     let (path, error) = cell_error(&files, &text);
-    assert_error(
-        &error,
-        &path,
-        Some(line_of(&text, "ocp_table")),
-        "positive.ocp_table",
-        "not both",
-    );
+    assert_error(&error, &path, Some(line_of(&text, "ocp_table")), "positive.ocp_table", "not both");
 }
 
 #[test]
@@ -418,9 +312,7 @@ fn valid_profile_expands_repeats_and_converts_units() {
     let path = files.write("profile.toml", PROFILE);
     let (duty, start_soc) = load_duty(&path, CELL_CAPACITY_COULOMB, &[]).expect("valid profile");
     assert_close(start_soc, 0.9);
-    let DutyCycle::Steps(profile) = duty else {
-        panic!("a .toml file is a step profile")
-    };
+    let DutyCycle::Steps(profile) = duty else { panic!("a .toml file is a step profile") };
     assert_eq!(profile.name, "test profile");
     assert_eq!(profile.steps.len(), 2 + 2 * 2);
 
@@ -431,25 +323,12 @@ fn valid_profile_expands_repeats_and_converts_units() {
     assert_eq!(drive.ends, vec![StepEnd::Voltage(3.0)]);
     let rest = &profile.steps[1];
     assert_eq!(rest.label, "step 2");
-    assert_eq!(
-        (rest.drive, rest.ends.clone()),
-        (Drive::Rest, vec![StepEnd::Time(10.0 * 60.0)])
-    );
+    assert_eq!((rest.drive, rest.ends.clone()), (Drive::Rest, vec![StepEnd::Time(10.0 * 60.0)]));
     let charge = &profile.steps[2];
-    assert_eq!(
-        charge.drive,
-        Drive::Current(-0.5 * capacity_a),
-        "charging current is negative"
-    );
+    assert_eq!(charge.drive, Drive::Current(-0.5 * capacity_a), "charging current is negative");
     let hold = &profile.steps[3];
     assert_eq!(hold.drive, Drive::Voltage(4.0));
-    assert_eq!(
-        hold.ends,
-        vec![
-            StepEnd::CurrentBelow(0.05 * capacity_a),
-            StepEnd::Time(2.0 * 3600.0)
-        ]
-    );
+    assert_eq!(hold.ends, vec![StepEnd::CurrentBelow(0.05 * capacity_a), StepEnd::Time(2.0 * 3600.0)]);
     assert_eq!(profile.steps[4], profile.steps[2]);
     assert_eq!(profile.steps[5], profile.steps[3]);
 }
@@ -493,20 +372,8 @@ fn impossible_steps_name_key_rule_and_line() {
             "applies only to constant-voltage steps",
             "end_current_a",
         ),
-        (
-            "repeat = 2",
-            "repeat = 0",
-            "block.1.repeat",
-            "must lie in 1–100000",
-            "repeat",
-        ),
-        (
-            "discharge_c = 1.0",
-            "discharge_c = -1.0",
-            "block.0.step.0.discharge_c",
-            "must be positive",
-            "-1.0",
-        ),
+        ("repeat = 2", "repeat = 0", "block.1.repeat", "must lie in 1–100000", "repeat"),
+        ("discharge_c = 1.0", "discharge_c = -1.0", "block.0.step.0.discharge_c", "must be positive", "-1.0"),
     ];
     for (from, to, key, rule, on_line) in cases {
         let files = Files::new();
@@ -535,22 +402,12 @@ fn unknown_step_key_has_its_line() {
 #[test]
 fn valid_series_converts_ambient() {
     let files = Files::new();
-    let path = files.write(
-        "duty.csv",
-        "time_s,power_w,ambient_c\n0,5.0,10\n30,-5.0,12\n90,0,12\n",
-    );
+    let path = files.write("duty.csv", "time_s,power_w,ambient_c\n0,5.0,10\n30,-5.0,12\n90,0,12\n");
     let series = load_series(&path).expect("valid series");
     assert_eq!(series.signal, SeriesSignal::PowerW);
     assert_eq!(series.time_s, vec![0.0, 30.0, 90.0]);
     assert_eq!(series.value, vec![5.0, -5.0, 0.0]);
-    assert_eq!(
-        series.ambient_k,
-        Some(vec![
-            10.0 + ZERO_CELSIUS_K,
-            12.0 + ZERO_CELSIUS_K,
-            12.0 + ZERO_CELSIUS_K
-        ])
-    );
+    assert_eq!(series.ambient_k, Some(vec![10.0 + ZERO_CELSIUS_K, 12.0 + ZERO_CELSIUS_K, 12.0 + ZERO_CELSIUS_K]));
     let (duty, start_soc) = load_duty(&path, CELL_CAPACITY_COULOMB, &[]).expect("valid series");
     assert!(matches!(duty, DutyCycle::Series(_)));
     assert_eq!(start_soc, 1.0);
@@ -559,36 +416,11 @@ fn valid_series_converts_ambient() {
 #[test]
 fn bad_series_names_line_and_column() {
     let cases = [
-        (
-            "time_s,ambient_c\n0,20\n10,20\n",
-            1,
-            "current_a",
-            "required column is missing",
-        ),
-        (
-            "time_s,current_a\n0,1\n10,one\n20,1\n",
-            3,
-            "current_a",
-            "expected a number, found `one`",
-        ),
-        (
-            "time_s,current_a\n0,1\n10,1\n10,2\n",
-            4,
-            "time_s",
-            "must increase strictly",
-        ),
-        (
-            "time_s,current_a\n0,1\n10,NaN\n20,1\n",
-            3,
-            "current_a",
-            "must be a finite number",
-        ),
-        (
-            "time_s,curent_a\n0,1\n10,1\n",
-            1,
-            "curent_a",
-            "did you mean `current_a`?",
-        ),
+        ("time_s,ambient_c\n0,20\n10,20\n", 1, "current_a", "required column is missing"),
+        ("time_s,current_a\n0,1\n10,one\n20,1\n", 3, "current_a", "expected a number, found `one`"),
+        ("time_s,current_a\n0,1\n10,1\n10,2\n", 4, "time_s", "must increase strictly"),
+        ("time_s,current_a\n0,1\n10,NaN\n20,1\n", 3, "current_a", "must be a finite number"),
+        ("time_s,curent_a\n0,1\n10,1\n", 1, "curent_a", "did you mean `current_a`?"),
     ];
     for (text, line, column, rule) in cases {
         let files = Files::new();
@@ -618,14 +450,8 @@ fn scenario_files(cell: &str, profile: &str, scenario: &str) -> (Files, PathBuf)
 fn scenario_resolves_relative_paths_and_loads_everything() {
     let (files, path) = scenario_files(CELL, PROFILE, SCENARIO);
     let loaded = load_scenario(&path, &[]).expect("valid scenario");
-    assert_eq!(
-        loaded.cell_path,
-        files.dir.path().join("scenarios/../cells/cell.toml")
-    );
-    assert_eq!(
-        loaded.profile_path,
-        files.dir.path().join("scenarios/../profiles/profile.toml")
-    );
+    assert_eq!(loaded.cell_path, files.dir.path().join("scenarios/../cells/cell.toml"));
+    assert_eq!(loaded.profile_path, files.dir.path().join("scenarios/../profiles/profile.toml"));
     assert_eq!(loaded.scenario.name, "test scenario");
     assert_eq!(loaded.scenario.cell.name, "test cell");
     assert_close(loaded.scenario.ambient_k, 25.0 + ZERO_CELSIUS_K);
@@ -636,23 +462,13 @@ fn scenario_resolves_relative_paths_and_loads_everything() {
 #[test]
 fn scenario_warns_about_mismatched_windows_and_ambient() {
     let cell = edited(CELL, "stoich_at_soc100 = 0.4", "stoich_at_soc100 = 0.2");
-    let scenario = edited(
-        SCENARIO,
-        "ambient_c = 25.0",
-        "ambient_c = 55.0\nstart_soc_pct = 50",
-    );
+    let scenario = edited(SCENARIO, "ambient_c = 25.0", "ambient_c = 55.0\nstart_soc_pct = 50");
     let (_files, path) = scenario_files(&cell, PROFILE, &scenario);
     let loaded = load_scenario(&path, &[]).expect("warnings are not errors");
     assert_close(loaded.scenario.start_soc, 0.5);
     assert_eq!(loaded.warnings.len(), 2, "{:?}", loaded.warnings);
-    assert!(loaded
-        .warnings
-        .iter()
-        .any(|w| w.contains("electrode windows")));
-    assert!(loaded
-        .warnings
-        .iter()
-        .any(|w| w.contains("ambient_c") && w.contains("temperature limits")));
+    assert!(loaded.warnings.iter().any(|w| w.contains("electrode windows")));
+    assert!(loaded.warnings.iter().any(|w| w.contains("ambient_c") && w.contains("temperature limits")));
 }
 
 #[test]
@@ -660,10 +476,7 @@ fn scenario_errors_name_the_file_at_fault() {
     let bad_cell = edited(CELL, "particle_radius_um = 4.0", "particle_radius_um = 0.0");
     let (files, path) = scenario_files(&bad_cell, PROFILE, SCENARIO);
     let error = load_scenario(&path, &[]).expect_err("bad cell");
-    assert_eq!(
-        error.file,
-        files.dir.path().join("scenarios/../cells/cell.toml")
-    );
+    assert_eq!(error.file, files.dir.path().join("scenarios/../cells/cell.toml"));
     assert_eq!(error.key.as_deref(), Some("positive.particle_radius_um"));
 
     let missing = edited(SCENARIO, "../cells/cell.toml", "../cells/other.toml");
@@ -674,13 +487,7 @@ fn scenario_errors_name_the_file_at_fault() {
     let unknown = edited(SCENARIO, "ambient_c", "ambiant_c");
     let (_files, path) = scenario_files(CELL, PROFILE, &unknown);
     let error = load_scenario(&path, &[]).expect_err("unknown key");
-    assert_error(
-        &error,
-        &path,
-        Some(4),
-        "ambiant_c",
-        "did you mean `ambient_c`?",
-    );
+    assert_error(&error, &path, Some(4), "ambiant_c", "did you mean `ambient_c`?");
 
     let out_of_window = edited(PROFILE, "hold_v = 4.0", "hold_v = 4.5");
     let (files, path) = scenario_files(CELL, &out_of_window, SCENARIO);
@@ -708,23 +515,15 @@ fn overrides_change_each_file() {
     assert_close(loaded.scenario.ambient_k, 40.0 + ZERO_CELSIUS_K);
     assert_close(loaded.scenario.cell.negative.particle_radius_m, 2.5e-6);
     assert_eq!(loaded.scenario.cell.shells, 32);
-    let DutyCycle::Steps(profile) = &loaded.scenario.duty else {
-        panic!("step profile")
-    };
-    assert_eq!(
-        profile.steps[2].drive,
-        Drive::Current(-1.5 * CELL_CAPACITY_COULOMB / 3600.0)
-    );
+    let DutyCycle::Steps(profile) = &loaded.scenario.duty else { panic!("step profile") };
+    assert_eq!(profile.steps[2].drive, Drive::Current(-1.5 * CELL_CAPACITY_COULOMB / 3600.0));
 }
 
 #[test]
 fn override_errors_name_set() {
     let (_files, path) = scenario_files(CELL, PROFILE, SCENARIO);
     let cases = [
-        (
-            "cell.negative.particle_radius_um=-1",
-            "--set: cell.negative.particle_radius_um: must be positive, found -1",
-        ),
+        ("cell.negative.particle_radius_um=-1", "--set: cell.negative.particle_radius_um: must be positive, found -1"),
         (
             "cell.negative.thickness_um=thick",
             "--set: cell.negative.thickness_um: expected a number, found string \"thick\"",
@@ -734,30 +533,18 @@ fn override_errors_name_set() {
             "--set: cell.negative.partical_radius_um: unknown key; \
              did you mean `particle_radius_um`?",
         ),
-        (
-            "profile.block.5.step.0.charge_c=1",
-            "--set: profile.block.5.step.0.charge_c: index 5 is out of range",
-        ),
+        ("profile.block.5.step.0.charge_c=1", "--set: profile.block.5.step.0.charge_c: index 5 is out of range"),
         (
             "profile.block.0.step.1.end_voltage_v=3",
             "--set: profile.block.0.step.1.end_voltage_v: does not apply to a rest",
         ),
-        (
-            "ambient_c=-300",
-            "--set: ambient_c: must be above absolute zero",
-        ),
-        (
-            "cell.name.first=x",
-            "--set: cell.name.first: `name` is text, not a table",
-        ),
+        ("ambient_c=-300", "--set: ambient_c: must be above absolute zero"),
+        ("cell.name.first=x", "--set: cell.name.first: `name` is text, not a table"),
     ];
     for (text, expected) in cases {
         let error = load_scenario(&path, &overrides(&[text])).expect_err(text);
         assert!(error.is_from_command_line(), "{error}");
-        assert!(
-            error.to_string().starts_with(expected),
-            "`{error}` should start with `{expected}`"
-        );
+        assert!(error.to_string().starts_with(expected), "`{error}` should start with `{expected}`");
     }
     let malformed = parse_override("cell.negative.thickness_um").expect_err("no value");
     assert!(malformed.to_string().starts_with("--set: "), "{malformed}");
@@ -766,24 +553,11 @@ fn override_errors_name_set() {
 #[test]
 fn detects_file_kinds() {
     let files = Files::new();
-    assert_eq!(
-        detect_kind(&files.write("c.toml", CELL)).ok(),
-        Some(InputKind::Cell)
-    );
-    assert_eq!(
-        detect_kind(&files.write("p.toml", PROFILE)).ok(),
-        Some(InputKind::Profile)
-    );
-    assert_eq!(
-        detect_kind(&files.write("s.toml", SCENARIO)).ok(),
-        Some(InputKind::Scenario)
-    );
-    assert_eq!(
-        detect_kind(&files.write("d.csv", "time_s,current_a\n")).ok(),
-        Some(InputKind::Series)
-    );
-    let unknown =
-        detect_kind(&files.write("x.toml", "name = \"x\"\n")).expect_err("no known table");
+    assert_eq!(detect_kind(&files.write("c.toml", CELL)).ok(), Some(InputKind::Cell));
+    assert_eq!(detect_kind(&files.write("p.toml", PROFILE)).ok(), Some(InputKind::Profile));
+    assert_eq!(detect_kind(&files.write("s.toml", SCENARIO)).ok(), Some(InputKind::Scenario));
+    assert_eq!(detect_kind(&files.write("d.csv", "time_s,current_a\n")).ok(), Some(InputKind::Series));
+    let unknown = detect_kind(&files.write("x.toml", "name = \"x\"\n")).expect_err("no known table");
     assert!(unknown.rule.contains("expected a cell file"), "{unknown}");
     assert!(detect_kind(&files.write("x.txt", "")).is_err());
 }
@@ -792,11 +566,7 @@ fn detects_file_kinds() {
 #[test]
 fn truncated_files_never_panic() {
     let files = Files::new();
-    for (name, text) in [
-        ("cell.toml", CELL),
-        ("profile.toml", PROFILE),
-        ("scenario.toml", SCENARIO),
-    ] {
+    for (name, text) in [("cell.toml", CELL), ("profile.toml", PROFILE), ("scenario.toml", SCENARIO)] {
         for end in (0..=text.len()).filter(|&i| text.is_char_boundary(i)) {
             let path = files.write(name, &text[..end]);
             let _ = detect_kind(&path);
@@ -819,9 +589,7 @@ fn demo_scenarios_load() {
         return;
     };
     for path in entries.filter_map(|e| e.ok()).map(|e| e.path()) {
-        if path.extension().is_some_and(|e| e == "toml")
-            && detect_kind(&path).ok() == Some(InputKind::Scenario)
-        {
+        if path.extension().is_some_and(|e| e == "toml") && detect_kind(&path).ok() == Some(InputKind::Scenario) {
             if let Err(error) = load_scenario(&path, &[]) {
                 panic!("{error}");
             }

@@ -107,9 +107,7 @@ struct NumericsSection {
 
 impl Default for NumericsSection {
     fn default() -> Self {
-        Self {
-            shells: DEFAULT_SHELLS,
-        }
+        Self { shells: DEFAULT_SHELLS }
     }
 }
 
@@ -157,43 +155,26 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<Inp
     if file.voltage_min_v >= file.voltage_max_v {
         checks.report(
             "voltage_min_v",
-            format!(
-                "must be below voltage_max_v ({} V), found {} V",
-                file.voltage_max_v, file.voltage_min_v
-            ),
+            format!("must be below voltage_max_v ({} V), found {} V", file.voltage_max_v, file.voltage_min_v),
         );
     }
-    let reference_temperature_c = file
-        .reference_temperature_c
-        .unwrap_or(DEFAULT_REFERENCE_TEMPERATURE_C);
+    let reference_temperature_c = file.reference_temperature_c.unwrap_or(DEFAULT_REFERENCE_TEMPERATURE_C);
     checks.celsius("reference_temperature_c", reference_temperature_c);
 
     let resistance = &file.resistance;
     checks.non_negative("resistance.ohmic_mohm", resistance.ohmic_mohm);
-    checks.non_negative(
-        "resistance.ohmic_activation_kj_mol",
-        resistance.ohmic_activation_kj_mol,
-    );
+    checks.non_negative("resistance.ohmic_activation_kj_mol", resistance.ohmic_activation_kj_mol);
     checks.non_negative("resistance.film_mohm", resistance.film_mohm);
-    checks.positive(
-        "electrolyte.concentration_mol_m3",
-        file.electrolyte.concentration_mol_m3,
-    );
+    checks.positive("electrolyte.concentration_mol_m3", file.electrolyte.concentration_mol_m3);
 
     let thermal = &file.thermal;
     checks.positive("thermal.mass_kg", thermal.mass_kg);
     checks.positive("thermal.specific_heat_j_kg_k", thermal.specific_heat_j_kg_k);
-    checks.positive(
-        "thermal.convective_conductance_w_k",
-        thermal.convective_conductance_w_k,
-    );
+    checks.positive("thermal.convective_conductance_w_k", thermal.convective_conductance_w_k);
 
     let limits = &file.limits;
     checks.positive("limits.max_charge_current_a", limits.max_charge_current_a);
-    checks.positive(
-        "limits.max_discharge_current_a",
-        limits.max_discharge_current_a,
-    );
+    checks.positive("limits.max_discharge_current_a", limits.max_discharge_current_a);
     checks.celsius("limits.min_temperature_c", limits.min_temperature_c);
     checks.celsius("limits.max_temperature_c", limits.max_temperature_c);
     if limits.min_temperature_c >= limits.max_temperature_c {
@@ -208,13 +189,7 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<Inp
 
     let shells = file.numerics.shells;
     if !(SHELL_RANGE.0..=SHELL_RANGE.1).contains(&shells) {
-        checks.report(
-            "numerics.shells",
-            format!(
-                "must lie in {}–{}, found {shells}",
-                SHELL_RANGE.0, SHELL_RANGE.1
-            ),
-        );
+        checks.report("numerics.shells", format!("must lie in {}–{}, found {shells}", SHELL_RANGE.0, SHELL_RANGE.1));
     }
 
     let negative = convert_electrode(&mut checks, Side::Negative, &file.negative);
@@ -256,40 +231,22 @@ fn convert_electrode(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSec
     {
         checks.report(
             &key("active_fraction"),
-            format!(
-                "must be above 0 and at most 1, found {}",
-                section.active_fraction
-            ),
+            format!("must be above 0 and at most 1, found {}", section.active_fraction),
         );
     }
     checks.positive(&key("particle_radius_um"), section.particle_radius_um);
-    checks.positive(
-        &key("max_concentration_mol_m3"),
-        section.max_concentration_mol_m3,
-    );
+    checks.positive(&key("max_concentration_mol_m3"), section.max_concentration_mol_m3);
     checks.within(&key("stoich_at_soc0"), section.stoich_at_soc0, 0.0, 1.0);
     checks.within(&key("stoich_at_soc100"), section.stoich_at_soc100, 0.0, 1.0);
     check_stoichiometry_direction(checks, side, section);
     checks.positive(&key("diffusivity_m2_s"), section.diffusivity_m2_s);
-    checks.non_negative(
-        &key("diffusivity_activation_kj_mol"),
-        section.diffusivity_activation_kj_mol,
-    );
+    checks.non_negative(&key("diffusivity_activation_kj_mol"), section.diffusivity_activation_kj_mol);
     checks.positive(&key("rate_constant_m_s"), section.rate_constant_m_s);
-    checks.non_negative(
-        &key("rate_constant_activation_kj_mol"),
-        section.rate_constant_activation_kj_mol,
-    );
-    checks.finite(
-        &key("entropic_coefficient_mv_k"),
-        section.entropic_coefficient_mv_k,
-    );
+    checks.non_negative(&key("rate_constant_activation_kj_mol"), section.rate_constant_activation_kj_mol);
+    checks.finite(&key("entropic_coefficient_mv_k"), section.entropic_coefficient_mv_k);
     checks.positive(&key("youngs_modulus_gpa"), section.youngs_modulus_gpa);
     checks.within(&key("poisson_ratio"), section.poisson_ratio, 0.0, 0.5);
-    checks.positive(
-        &key("partial_molar_volume_cm3_mol"),
-        section.partial_molar_volume_cm3_mol,
-    );
+    checks.positive(&key("partial_molar_volume_cm3_mol"), section.partial_molar_volume_cm3_mol);
     let ocp = convert_ocp(checks, side, section);
 
     Electrode {
@@ -336,10 +293,7 @@ fn check_stoichiometry_direction(checks: &mut Checks<'_>, side: Side, section: &
 }
 
 fn convert_ocp(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSection) -> OpenCircuit {
-    let placeholder = OpenCircuit::Table {
-        stoich: Vec::new(),
-        potential_v: Vec::new(),
-    };
+    let placeholder = OpenCircuit::Table { stoich: Vec::new(), potential_v: Vec::new() };
     match (&section.ocp, &section.ocp_table) {
         (Some(_), Some(_)) => {
             checks.report(
@@ -349,10 +303,7 @@ fn convert_ocp(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSection) 
             placeholder
         }
         (None, None) => {
-            checks.report(
-                side.key(),
-                "needs an open-circuit potential: `ocp` (a built-in form) or `ocp_table`",
-            );
+            checks.report(side.key(), "needs an open-circuit potential: `ocp` (a built-in form) or `ocp_table`");
             placeholder
         }
         (Some(name), None) => match BuiltinOcp::from_name(name.trim()) {
@@ -365,44 +316,27 @@ fn convert_ocp(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSection) 
                 };
                 checks.report(
                     &format!("{}.ocp", side.key()),
-                    format!(
-                        "unknown open-circuit form `{name}`; {hint}built-in forms: {}",
-                        names.join(", ")
-                    ),
+                    format!("unknown open-circuit form `{name}`; {hint}built-in forms: {}", names.join(", ")),
                 );
                 placeholder
             }
         },
-        (None, Some(points)) => {
-            convert_ocp_table(checks, &format!("{}.ocp_table", side.key()), points)
-        }
+        (None, Some(points)) => convert_ocp_table(checks, &format!("{}.ocp_table", side.key()), points),
     }
 }
 
 fn convert_ocp_table(checks: &mut Checks<'_>, key: &str, points: &[[f64; 2]]) -> OpenCircuit {
     let problems_before = checks.problem_count();
     if points.len() < 2 {
-        checks.report(
-            key,
-            format!(
-                "needs at least two [stoichiometry, volts] points, found {}",
-                points.len()
-            ),
-        );
+        checks.report(key, format!("needs at least two [stoichiometry, volts] points, found {}", points.len()));
     }
     for (i, [stoich, volts]) in points.iter().copied().enumerate() {
         let point = i + 1;
         if !(stoich.is_finite() && (0.0..=1.0).contains(&stoich)) {
-            checks.report(
-                key,
-                format!("point {point}: stoichiometry must lie in 0–1, found {stoich}"),
-            );
+            checks.report(key, format!("point {point}: stoichiometry must lie in 0–1, found {stoich}"));
         }
         if !volts.is_finite() {
-            checks.report(
-                key,
-                format!("point {point}: potential must be a finite number, found {volts}"),
-            );
+            checks.report(key, format!("point {point}: potential must be a finite number, found {volts}"));
         }
         if i > 0 && stoich <= points[i - 1][0] {
             checks.report(
@@ -415,10 +349,7 @@ fn convert_ocp_table(checks: &mut Checks<'_>, key: &str, points: &[[f64; 2]]) ->
         }
     }
     if checks.problem_count() > problems_before {
-        return OpenCircuit::Table {
-            stoich: Vec::new(),
-            potential_v: Vec::new(),
-        };
+        return OpenCircuit::Table { stoich: Vec::new(), potential_v: Vec::new() };
     }
     OpenCircuit::Table {
         stoich: points.iter().map(|p| p[0]).collect(),

@@ -11,10 +11,7 @@ pub(crate) struct Checks<'d> {
 
 impl<'d> Checks<'d> {
     pub fn new(document: &'d TomlDocument) -> Self {
-        Self {
-            document,
-            problems: Vec::new(),
-        }
+        Self { document, problems: Vec::new() }
     }
 
     pub fn report(&mut self, key: &str, rule: impl Into<String>) {
@@ -52,10 +49,7 @@ impl<'d> Checks<'d> {
     /// A temperature in °C that is physically possible.
     pub fn celsius(&mut self, key: &str, value: f64) {
         if self.finite(key, value) && value <= -crate::material::constants::ZERO_CELSIUS_K {
-            self.report(
-                key,
-                format!("must be above absolute zero (−273.15 °C), found {value}"),
-            );
+            self.report(key, format!("must be above absolute zero (−273.15 °C), found {value}"));
         }
     }
 

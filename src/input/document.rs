@@ -30,9 +30,7 @@ impl TomlDocument {
     }
 
     pub fn parse(path: &Path, source: String, target: OverrideTarget) -> Result<Self, InputError> {
-        let original = source
-            .parse::<toml::Table>()
-            .map_err(|error| syntax_error(path, &source, &error))?;
+        let original = source.parse::<toml::Table>().map_err(|error| syntax_error(path, &source, &error))?;
         let index = KeyIndex::new(&source);
         Ok(Self {
             path: path.to_path_buf(),
@@ -57,12 +55,7 @@ impl TomlDocument {
     /// Applies the overrides meant for this document's file.
     pub fn apply_overrides(&mut self, overrides: &[Override]) -> Result<(), InputError> {
         apply_overrides(&mut self.table, overrides, self.target)?;
-        self.applied.extend(
-            overrides
-                .iter()
-                .filter(|o| o.target == self.target)
-                .cloned(),
-        );
+        self.applied.extend(overrides.iter().filter(|o| o.target == self.target).cloned());
         Ok(())
     }
 
@@ -99,17 +92,10 @@ impl TomlDocument {
         let error = error.as_ref().unwrap_or(fallback);
         let shape = ShapeError::from_message(error.message());
         let span = error.span();
-        let span_text = span
-            .clone()
-            .and_then(|span| self.source.get(span))
-            .unwrap_or("");
-        let entry = span
-            .as_ref()
-            .and_then(|span| self.index.entry_at_offset(span.start));
+        let span_text = span.clone().and_then(|span| self.source.get(span)).unwrap_or("");
+        let entry = span.as_ref().and_then(|span| self.index.entry_at_offset(span.start));
         let key = shape.key(entry, span_text);
-        let line = span
-            .filter(|_| !span_text.is_empty())
-            .map(|span| line_of_offset(&self.source, span.start));
+        let line = span.filter(|_| !span_text.is_empty()).map(|span| line_of_offset(&self.source, span.start));
         let error = InputError::new(&self.path, shape.rule).with_line(line);
         match key {
             Some(key) if !key.is_empty() => error.with_key(key),
@@ -123,9 +109,7 @@ impl TomlDocument {
         if self.applied.iter().any(|o| o.covers(key_path)) {
             return InputError::command_line(format!("{}{key_path}", self.target.prefix()), rule);
         }
-        InputError::new(&self.path, rule)
-            .with_line(self.index.line_of(key_path))
-            .with_key(key_path)
+        InputError::new(&self.path, rule).with_line(self.index.line_of(key_path)).with_key(key_path)
     }
 }
 
@@ -135,10 +119,7 @@ pub(crate) fn read_text(path: &Path) -> Result<String, InputError> {
     String::from_utf8(bytes).map_err(|error| {
         InputError::new(
             path,
-            format!(
-                "file is not UTF-8 text (invalid byte at offset {})",
-                error.utf8_error().valid_up_to()
-            ),
+            format!("file is not UTF-8 text (invalid byte at offset {})", error.utf8_error().valid_up_to()),
         )
     })
 }
@@ -182,32 +163,18 @@ impl ShapeError {
             };
         }
         if let Some(rest) = message.strip_prefix("missing field ") {
-            let field = backticked(rest)
-                .first()
-                .map(|s| s.to_string())
-                .unwrap_or_default();
-            return Self {
-                rule: "required key is missing".to_string(),
-                named: NamedKey::Missing(field),
-            };
+            let field = backticked(rest).first().map(|s| s.to_string()).unwrap_or_default();
+            return Self { rule: "required key is missing".to_string(), named: NamedKey::Missing(field) };
         }
-        if let Some((found, expected)) = message
-            .strip_prefix("invalid type: ")
-            .and_then(|rest| rest.rsplit_once(", expected "))
+        if let Some((found, expected)) =
+            message.strip_prefix("invalid type: ").and_then(|rest| rest.rsplit_once(", expected "))
         {
             return Self {
-                rule: format!(
-                    "expected {}, found {}",
-                    describe_expected(expected),
-                    describe_found(found)
-                ),
+                rule: format!("expected {}, found {}", describe_expected(expected), describe_found(found)),
                 named: NamedKey::None,
             };
         }
-        Self {
-            rule: message.to_string(),
-            named: NamedKey::None,
-        }
+        Self { rule: message.to_string(), named: NamedKey::None }
     }
 
     /// The key to report, given the index entry at the error's position and the source text
@@ -223,10 +190,7 @@ impl ShapeError {
             // An unknown `[[name]]` header resolves to `name.0`; the key is `name`.
             (NamedKey::Unknown(name), Some(entry)) => {
                 let segments: Vec<&str> = entry.path.split('.').collect();
-                let end = segments
-                    .iter()
-                    .rposition(|s| s == name)
-                    .map_or(segments.len(), |i| i + 1);
+                let end = segments.iter().rposition(|s| s == name).map_or(segments.len(), |i| i + 1);
                 Some(segments[..end].join("."))
             }
             (NamedKey::Unknown(name), None) => Some(name.clone()),
@@ -267,9 +231,7 @@ fn describe_found(serde_found: &str) -> String {
     if serde_found == "sequence" {
         return "an array".to_string();
     }
-    serde_found
-        .replace("floating point", "number")
-        .replace("integer", "whole number")
+    serde_found.replace("floating point", "number").replace("integer", "whole number")
 }
 
 #[cfg(test)]
@@ -281,10 +243,7 @@ mod tests {
         let unknown = ShapeError::from_message(
             "unknown field `partical_radius_um`, expected one of `thickness_um`, `particle_radius_um`",
         );
-        assert_eq!(
-            unknown.rule,
-            "unknown key; did you mean `particle_radius_um`?"
-        );
+        assert_eq!(unknown.rule, "unknown key; did you mean `particle_radius_um`?");
         let wrong = ShapeError::from_message("invalid type: string \"six\", expected f64");
         assert_eq!(wrong.rule, "expected a number, found string \"six\"");
         let missing = ShapeError::from_message("missing field `name`");

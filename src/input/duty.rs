@@ -32,10 +32,7 @@ pub(crate) fn check_duty(
         Some("toml") => check_profile(path, nominal_capacity_coulomb, window, overrides)
             .map(|(profile, start_soc)| (DutyCycle::Steps(profile), start_soc)),
         Some("csv") => {
-            if let Some(item) = overrides
-                .iter()
-                .find(|o| o.target == OverrideTarget::Profile)
-            {
+            if let Some(item) = overrides.iter().find(|o| o.target == OverrideTarget::Profile) {
                 return Err(vec![InputError::command_line(
                     item.key(),
                     format!(
@@ -48,15 +45,11 @@ pub(crate) fn check_duty(
             let series = load_series(path).map_err(|e| vec![e])?;
             Ok((DutyCycle::Series(series), SERIES_START_SOC))
         }
-        _ => Err(vec![InputError::new(
-            path,
-            "a duty cycle must be a `.toml` step profile or a `.csv` time series",
-        )]),
+        _ => Err(vec![InputError::new(path, "a duty cycle must be a `.toml` step profile or a `.csv` time series")]),
     }
 }
 
 /// The lower-cased extension, if any.
 pub(crate) fn extension(path: &Path) -> Option<String> {
-    path.extension()
-        .map(|e| e.to_string_lossy().to_ascii_lowercase())
+    path.extension().map(|e| e.to_string_lossy().to_ascii_lowercase())
 }

@@ -22,12 +22,7 @@ pub struct InputError {
 
 impl InputError {
     pub fn new(file: impl Into<PathBuf>, rule: impl Into<String>) -> Self {
-        Self {
-            file: file.into(),
-            line: None,
-            key: None,
-            rule: rule.into(),
-        }
+        Self { file: file.into(), line: None, key: None, rule: rule.into() }
     }
 
     /// An error about a value given with `--set`; `key` is the dotted path as typed.
@@ -89,9 +84,7 @@ mod tests {
 
     #[test]
     fn display_leaves_out_missing_parts() {
-        let full = InputError::new("cell.toml", "must be positive")
-            .with_line(Some(7))
-            .with_key("a.b");
+        let full = InputError::new("cell.toml", "must be positive").with_line(Some(7)).with_key("a.b");
         assert_eq!(full.to_string(), "cell.toml:7: a.b: must be positive");
         let no_line = InputError::new("cell.toml", "must be positive").with_key("a.b");
         assert_eq!(no_line.to_string(), "cell.toml: a.b: must be positive");

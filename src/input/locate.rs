@@ -14,10 +14,7 @@ use std::collections::HashMap;
 /// 1-based line of a byte offset in `source`; offsets past the end give the last line.
 pub fn line_of_offset(source: &str, offset: usize) -> usize {
     let end = offset.min(source.len());
-    1 + source.as_bytes()[..end]
-        .iter()
-        .filter(|&&b| b == b'\n')
-        .count()
+    1 + source.as_bytes()[..end].iter().filter(|&&b| b == b'\n').count()
 }
 
 /// 1-based line where `key_path` (dotted, array indices as segments) is defined in `source`,
@@ -65,14 +62,7 @@ impl KeyIndex {
 
     /// The last header or key that starts at or before byte `offset`.
     pub fn entry_at_offset(&self, offset: usize) -> Option<Located<'_>> {
-        self.entries
-            .iter()
-            .take_while(|e| e.offset <= offset)
-            .last()
-            .map(|e| Located {
-                path: &e.path,
-                line: e.line,
-            })
+        self.entries.iter().take_while(|e| e.offset <= offset).last().map(|e| Located { path: &e.path, line: e.line })
     }
 }
 
@@ -114,9 +104,7 @@ impl<'a> Scanner<'a> {
                 self.pos += 1;
             }
         }
-        KeyIndex {
-            entries: self.entries,
-        }
+        KeyIndex { entries: self.entries }
     }
 
     fn peek(&self, ahead: usize) -> Option<u8> {
@@ -176,11 +164,7 @@ impl<'a> Scanner<'a> {
                 push_segment(&mut path, &index.to_string());
             }
         }
-        self.entries.push(KeyEntry {
-            path: path.clone(),
-            offset: start,
-            line: self.line,
-        });
+        self.entries.push(KeyEntry { path: path.clone(), offset: start, line: self.line });
         self.table = path;
     }
 
@@ -197,11 +181,7 @@ impl<'a> Scanner<'a> {
         for segment in &segments {
             push_segment(&mut path, segment);
         }
-        self.entries.push(KeyEntry {
-            path,
-            offset: start,
-            line: self.line,
-        });
+        self.entries.push(KeyEntry { path, offset: start, line: self.line });
         self.skip_value();
     }
 
@@ -238,10 +218,7 @@ impl<'a> Scanner<'a> {
         let start = self.pos;
         while let Some(b) = self.peek(0) {
             if b == quote {
-                let text = self
-                    .source
-                    .get(start..self.pos)
-                    .map(|s| s.replace("\\\"", "\""));
+                let text = self.source.get(start..self.pos).map(|s| s.replace("\\\"", "\""));
                 self.pos += 1;
                 return text;
             }
@@ -385,30 +362,14 @@ end_time_s = 5
         let source = "a = 1\n[t]\nb = \"x\"\n";
         let index = KeyIndex::new(source);
         let value_offset = source.find("\"x\"").unwrap_or(0);
-        assert_eq!(
-            index.entry_at_offset(value_offset),
-            Some(Located {
-                path: "t.b",
-                line: 3
-            })
-        );
+        assert_eq!(index.entry_at_offset(value_offset), Some(Located { path: "t.b", line: 3 }));
         assert_eq!(line_of_offset(source, value_offset), 3);
         assert_eq!(line_of_offset(source, 10_000), 4);
     }
 
     #[test]
     fn garbage_does_not_hang_or_panic() {
-        for source in [
-            "[",
-            "[[",
-            "\"",
-            "= = =",
-            "a = \"\"\"",
-            "a = [ [ [",
-            "'''",
-            "é = ü",
-            "\\",
-        ] {
+        for source in ["[", "[[", "\"", "= = =", "a = \"\"\"", "a = [ [ [", "'''", "é = ü", "\\"] {
             let _ = KeyIndex::new(source);
         }
     }

@@ -46,8 +46,7 @@ impl Override {
     /// array that contains it.
     pub fn covers(&self, key_path: &str) -> bool {
         let key_segments: Vec<&str> = key_path.split('.').collect();
-        self.path.len() <= key_segments.len()
-            && self.path.iter().zip(&key_segments).all(|(a, b)| a == b)
+        self.path.len() <= key_segments.len() && self.path.iter().zip(&key_segments).all(|(a, b)| a == b)
     }
 }
 
@@ -55,42 +54,24 @@ impl Override {
 /// string, array, inline table) and otherwise taken as plain text.
 pub fn parse_override(s: &str) -> Result<Override, InputError> {
     let Some((raw_path, raw_value)) = s.split_once('=') else {
-        return Err(InputError::command_line(
-            s.trim(),
-            format!("expected `path.to.key=value`, found `{s}`"),
-        ));
+        return Err(InputError::command_line(s.trim(), format!("expected `path.to.key=value`, found `{s}`")));
     };
     let raw_path = raw_path.trim();
     let segments: Vec<String> = raw_path.split('.').map(|p| p.trim().to_string()).collect();
     if segments.iter().any(String::is_empty) {
-        return Err(InputError::command_line(
-            raw_path,
-            "key path has an empty segment; write it as `table.key=value`",
-        ));
+        return Err(InputError::command_line(raw_path, "key path has an empty segment; write it as `table.key=value`"));
     }
     let raw_value = raw_value.trim();
     if raw_value.is_empty() {
-        return Err(InputError::command_line(
-            raw_path,
-            "expected a value after `=`",
-        ));
+        return Err(InputError::command_line(raw_path, "expected a value after `=`"));
     }
 
     let (target, path) = match segments.split_first() {
-        Some((first, rest)) if first == "cell" && !rest.is_empty() => {
-            (OverrideTarget::Cell, rest.to_vec())
-        }
-        Some((first, rest)) if first == "profile" && !rest.is_empty() => {
-            (OverrideTarget::Profile, rest.to_vec())
-        }
+        Some((first, rest)) if first == "cell" && !rest.is_empty() => (OverrideTarget::Cell, rest.to_vec()),
+        Some((first, rest)) if first == "profile" && !rest.is_empty() => (OverrideTarget::Profile, rest.to_vec()),
         _ => (OverrideTarget::Scenario, segments),
     };
-    Ok(Override {
-        target,
-        path,
-        value: parse_value(raw_value),
-        text: s.to_string(),
-    })
+    Ok(Override { target, path, value: parse_value(raw_value), text: s.to_string() })
 }
 
 fn parse_value(raw: &str) -> toml::Value {
@@ -134,16 +115,11 @@ enum Node<'t> {
 }
 
 impl<'t> Node<'t> {
-    fn child(
-        self,
-        segment: &str,
-        walked: &[&str],
-        item: &Override,
-    ) -> Result<Node<'t>, InputError> {
+    fn child(self, segment: &str, walked: &[&str], item: &Override) -> Result<Node<'t>, InputError> {
         let value = match self {
-            Node::Table(table) => table
-                .entry(segment.to_string())
-                .or_insert_with(|| toml::Value::Table(toml::Table::new())),
+            Node::Table(table) => {
+                table.entry(segment.to_string()).or_insert_with(|| toml::Value::Table(toml::Table::new()))
+            }
             Node::Array(array) => {
                 let index = array_index(segment, array.len(), walked, item)?;
                 &mut array[index]
@@ -164,13 +140,7 @@ impl<'t> Node<'t> {
         }
     }
 
-    fn set(
-        self,
-        segment: &str,
-        value: toml::Value,
-        walked: &[&str],
-        item: &Override,
-    ) -> Result<(), InputError> {
+    fn set(self, segment: &str, value: toml::Value, walked: &[&str], item: &Override) -> Result<(), InputError> {
         match self {
             Node::Table(table) => {
                 table.insert(segment.to_string(), value);
@@ -184,17 +154,8 @@ impl<'t> Node<'t> {
     }
 }
 
-fn array_index(
-    segment: &str,
-    len: usize,
-    walked: &[&str],
-    item: &Override,
-) -> Result<usize, InputError> {
-    let array_name = if walked.is_empty() {
-        "the file".to_string()
-    } else {
-        format!("`{}`", walked.join("."))
-    };
+fn array_index(segment: &str, len: usize, walked: &[&str], item: &Override) -> Result<usize, InputError> {
+    let array_name = if walked.is_empty() { "the file".to_string() } else { format!("`{}`", walked.join(".")) };
     match segment.parse::<usize>() {
         Ok(index) if index < len => Ok(index),
         Ok(index) => Err(InputError::command_line(
@@ -212,12 +173,7 @@ fn array_index(
 }
 
 fn join_path(walked: &[&str], segment: &str) -> String {
-    walked
-        .iter()
-        .copied()
-        .chain([segment])
-        .collect::<Vec<_>>()
-        .join(".")
+    walked.iter().copied().chain([segment]).collect::<Vec<_>>().join(".")
 }
 
 fn describe_value(value: &toml::Value) -> &'static str {
@@ -260,23 +216,14 @@ mod tests {
 
         let file_reference = parsed("cell=other.toml");
         assert_eq!(file_reference.target, OverrideTarget::Scenario);
-        assert_eq!(
-            file_reference.value,
-            toml::Value::String("other.toml".into())
-        );
+        assert_eq!(file_reference.value, toml::Value::String("other.toml".into()));
     }
 
     #[test]
     fn values_are_toml_or_text() {
         assert_eq!(parsed("a=true").value, toml::Value::Boolean(true));
-        assert_eq!(
-            parsed("a=\"quoted\"").value,
-            toml::Value::String("quoted".into())
-        );
-        assert_eq!(
-            parsed("a=two words").value,
-            toml::Value::String("two words".into())
-        );
+        assert_eq!(parsed("a=\"quoted\"").value, toml::Value::String("quoted".into()));
+        assert_eq!(parsed("a=two words").value, toml::Value::String("two words".into()));
         let array = parsed("a=[[0, 1.0], [1, 0.1]]").value;
         assert!(matches!(array, toml::Value::Array(ref v) if v.len() == 2));
     }
@@ -295,10 +242,7 @@ mod tests {
             "[[block]]\n[[block.step]]\ncharge_c = 1.0\n[[block]]\n[[block.step]]\nrest = true\n"
                 .parse()
                 .unwrap_or_default();
-        let overrides = [
-            parsed("profile.block.1.step.0.end_time_s=60"),
-            parsed("profile.new.key=1"),
-        ];
+        let overrides = [parsed("profile.block.1.step.0.end_time_s=60"), parsed("profile.new.key=1")];
         assert!(apply_overrides(&mut table, &overrides, OverrideTarget::Profile).is_ok());
         let step = &table["block"][1]["step"][0];
         assert_eq!(step.get("end_time_s"), Some(&toml::Value::Integer(60)));

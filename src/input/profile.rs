@@ -17,8 +17,7 @@ const MAX_REPEAT: i64 = 100_000;
 /// Guards memory: the expanded list is held in full.
 const MAX_EXPANDED_STEPS: u64 = 1_000_000;
 
-const DRIVE_KEYS: &str =
-    "charge_c, charge_a, discharge_c, discharge_a, charge_w, discharge_w, hold_v or rest = true";
+const DRIVE_KEYS: &str = "charge_c, charge_a, discharge_c, discharge_a, charge_w, discharge_w, hold_v or rest = true";
 const TIME_ENDS: &str = "end_time_s, end_time_min or end_time_h";
 const CV_ENDS: &str = "a constant-voltage step needs a taper end (end_current_c or end_current_a) \
                        or a time end (end_time_s, end_time_min or end_time_h)";
@@ -133,10 +132,7 @@ fn convert_profile(
     let mut checks = Checks::new(document);
     let name = match &file.name {
         Some(name) if name.trim().is_empty() => {
-            checks.report(
-                "name",
-                "must not be empty (or leave it out to use the file name)",
-            );
+            checks.report("name", "must not be empty (or leave it out to use the file name)");
             String::new()
         }
         Some(name) => name.trim().to_string(),
@@ -146,10 +142,7 @@ fn convert_profile(
     checks.within("start_soc_pct", start_soc_pct, 0.0, 100.0);
 
     if file.block.is_empty() {
-        checks.report(
-            "block",
-            "the profile has no blocks; add a [[block]] with [[block.step]] tables",
-        );
+        checks.report("block", "the profile has no blocks; add a [[block]] with [[block.step]] tables");
     }
     let mut steps = Vec::new();
     let mut expanded_count: u64 = 0;
@@ -157,35 +150,21 @@ fn convert_profile(
     for (b, block) in file.block.iter().enumerate() {
         let repeat = block.repeat.unwrap_or(1);
         if !(1..=MAX_REPEAT).contains(&repeat) {
-            checks.report(
-                &format!("block.{b}.repeat"),
-                format!("must lie in 1–{MAX_REPEAT}, found {repeat}"),
-            );
+            checks.report(&format!("block.{b}.repeat"), format!("must lie in 1–{MAX_REPEAT}, found {repeat}"));
         }
         if block.step.is_empty() {
-            checks.report(
-                &format!("block.{b}"),
-                "the block has no steps; add [[block.step]] tables",
-            );
+            checks.report(&format!("block.{b}"), "the block has no steps; add [[block.step]] tables");
         }
         let mut block_steps = Vec::new();
         for (s, section) in block.step.iter().enumerate() {
             position_in_file += 1;
             let key = format!("block.{b}.step.{s}");
-            if let Some(step) = convert_step(
-                &mut checks,
-                &key,
-                section,
-                position_in_file,
-                amps_per_c_rate,
-                window,
-            ) {
+            if let Some(step) = convert_step(&mut checks, &key, section, position_in_file, amps_per_c_rate, window) {
                 block_steps.push(step);
             }
         }
         let repeat = u64::try_from(repeat.clamp(1, MAX_REPEAT)).unwrap_or(1);
-        expanded_count =
-            expanded_count.saturating_add(repeat.saturating_mul(block.step.len() as u64));
+        expanded_count = expanded_count.saturating_add(repeat.saturating_mul(block.step.len() as u64));
         if expanded_count <= MAX_EXPANDED_STEPS {
             for _ in 0..repeat {
                 steps.extend(block_steps.iter().cloned());
@@ -230,37 +209,24 @@ fn convert_step(
 
     let drive = match drives.as_slice() {
         [] => {
-            checks.report(
-                key,
-                format!("the step has no drive key; give exactly one of {DRIVE_KEYS}"),
-            );
+            checks.report(key, format!("the step has no drive key; give exactly one of {DRIVE_KEYS}"));
             None
         }
         [only] => Some(only.drive),
         [first, second, ..] => {
             checks.report(
                 &key_of(second.name),
-                format!(
-                    "a step has exactly one drive key, but this one also has `{}`",
-                    first.name
-                ),
+                format!("a step has exactly one drive key, but this one also has `{}`", first.name),
             );
             None
         }
     };
     if ends.is_empty() {
         match drive {
-            Some(Drive::Rest) => {
-                checks.report(&key_of("rest"), format!("a rest needs a time end: {TIME_ENDS}"))
-            }
-            Some(Drive::Voltage(_)) => checks.report(
-                &key_of("hold_v"),
-                CV_ENDS,
-            ),
-            _ => checks.report(
-                key,
-                "the step has no end key; give at least one end_* key (end_voltage_v, end_time_s, …)",
-            ),
+            Some(Drive::Rest) => checks.report(&key_of("rest"), format!("a rest needs a time end: {TIME_ENDS}")),
+            Some(Drive::Voltage(_)) => checks.report(&key_of("hold_v"), CV_ENDS),
+            _ => checks
+                .report(key, "the step has no end key; give at least one end_* key (end_voltage_v, end_time_s, …)"),
         }
     } else if let Some(drive) = drive {
         check_ends_apply(checks, key, drive, &ends);
@@ -281,11 +247,7 @@ fn convert_step(
         Some(label) => label.clone(),
         None => format!("step {position_in_file}"),
     };
-    Some(Step {
-        label,
-        drive: drive?,
-        ends: ends.iter().map(|e| e.end).collect(),
-    })
+    Some(Step { label, drive: drive?, ends: ends.iter().map(|e| e.end).collect() })
 }
 
 /// Which end keys make sense for which drive (see FORMATS.md, step profile rules).
@@ -300,10 +262,7 @@ fn check_ends_apply(checks: &mut Checks<'_>, key: &str, drive: Drive, ends: &[En
                 );
             }
             if !ends.iter().any(EndKey::is_time) {
-                checks.report(
-                    &key_of("rest"),
-                    format!("a rest needs a time end: {TIME_ENDS}"),
-                );
+                checks.report(&key_of("rest"), format!("a rest needs a time end: {TIME_ENDS}"));
             }
         }
         Drive::Voltage(_) => {
@@ -322,28 +281,18 @@ fn check_ends_apply(checks: &mut Checks<'_>, key: &str, drive: Drive, ends: &[En
         }
         Drive::Current(_) | Drive::Power(_) => {
             for end in ends.iter().filter(|e| e.is_taper()) {
-                checks.report(
-                    &key_of(end.name),
-                    "applies only to constant-voltage steps (hold_v)",
-                );
+                checks.report(&key_of(end.name), "applies only to constant-voltage steps (hold_v)");
             }
         }
     }
 }
 
-fn drive_keys(
-    checks: &mut Checks<'_>,
-    key: &str,
-    section: &StepSection,
-    amps_per_c_rate: f64,
-) -> Vec<DriveKey> {
+fn drive_keys(checks: &mut Checks<'_>, key: &str, section: &StepSection, amps_per_c_rate: f64) -> Vec<DriveKey> {
     // Positive current or power discharges the cell.
     let candidates: [KeyMeaning<Drive>; 7] = [
         ("charge_c", section.charge_c, |v, a| Drive::Current(-v * a)),
         ("charge_a", section.charge_a, |v, _| Drive::Current(-v)),
-        ("discharge_c", section.discharge_c, |v, a| {
-            Drive::Current(v * a)
-        }),
+        ("discharge_c", section.discharge_c, |v, a| Drive::Current(v * a)),
         ("discharge_a", section.discharge_a, |v, _| Drive::Current(v)),
         ("charge_w", section.charge_w, |v, _| Drive::Power(-v)),
         ("discharge_w", section.discharge_w, |v, _| Drive::Power(v)),
@@ -352,23 +301,12 @@ fn drive_keys(
     let mut found: Vec<DriveKey> = candidates
         .into_iter()
         .filter_map(|(name, value, drive)| {
-            value.map(|written| DriveKey {
-                name,
-                written,
-                drive: drive(written, amps_per_c_rate),
-            })
+            value.map(|written| DriveKey { name, written, drive: drive(written, amps_per_c_rate) })
         })
         .collect();
     match section.rest {
-        Some(true) => found.push(DriveKey {
-            name: "rest",
-            written: 1.0,
-            drive: Drive::Rest,
-        }),
-        Some(false) => checks.report(
-            &format!("{key}.rest"),
-            "can only be `true`; leave it out for a driven step",
-        ),
+        Some(true) => found.push(DriveKey { name: "rest", written: 1.0, drive: Drive::Rest }),
+        Some(false) => checks.report(&format!("{key}.rest"), "can only be `true`; leave it out for a driven step"),
         None => {}
     }
     found
@@ -376,43 +314,23 @@ fn drive_keys(
 
 fn end_keys(section: &StepSection, amps_per_c_rate: f64) -> Vec<EndKey> {
     let candidates: [KeyMeaning<StepEnd>; 8] = [
-        ("end_voltage_v", section.end_voltage_v, |v, _| {
-            StepEnd::Voltage(v)
-        }),
-        ("end_current_c", section.end_current_c, |v, a| {
-            StepEnd::CurrentBelow(v * a)
-        }),
-        ("end_current_a", section.end_current_a, |v, _| {
-            StepEnd::CurrentBelow(v)
-        }),
+        ("end_voltage_v", section.end_voltage_v, |v, _| StepEnd::Voltage(v)),
+        ("end_current_c", section.end_current_c, |v, a| StepEnd::CurrentBelow(v * a)),
+        ("end_current_a", section.end_current_a, |v, _| StepEnd::CurrentBelow(v)),
         ("end_time_s", section.end_time_s, |v, _| StepEnd::Time(v)),
-        ("end_time_min", section.end_time_min, |v, _| {
-            StepEnd::Time(v * 60.0)
-        }),
-        ("end_time_h", section.end_time_h, |v, _| {
-            StepEnd::Time(v * SECONDS_PER_HOUR)
-        }),
-        ("end_soc_pct", section.end_soc_pct, |v, _| {
-            StepEnd::Soc(v / 100.0)
-        }),
-        ("end_charge_ah", section.end_charge_ah, |v, _| {
-            StepEnd::Charge(v * SECONDS_PER_HOUR)
-        }),
+        ("end_time_min", section.end_time_min, |v, _| StepEnd::Time(v * 60.0)),
+        ("end_time_h", section.end_time_h, |v, _| StepEnd::Time(v * SECONDS_PER_HOUR)),
+        ("end_soc_pct", section.end_soc_pct, |v, _| StepEnd::Soc(v / 100.0)),
+        ("end_charge_ah", section.end_charge_ah, |v, _| StepEnd::Charge(v * SECONDS_PER_HOUR)),
     ];
     candidates
         .into_iter()
         .filter_map(|(name, value, end)| {
-            value.map(|written| EndKey {
-                name,
-                written,
-                end: end(written, amps_per_c_rate),
-            })
+            value.map(|written| EndKey { name, written, end: end(written, amps_per_c_rate) })
         })
         .collect()
 }
 
 pub(crate) fn file_stem(path: &Path) -> String {
-    path.file_stem()
-        .map(|s| s.to_string_lossy().into_owned())
-        .unwrap_or_default()
+    path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default()
 }

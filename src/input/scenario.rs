@@ -52,10 +52,7 @@ pub fn load_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScenar
 }
 
 /// Like [`load_scenario`], but returns every problem found across the three files.
-pub fn check_scenario(
-    path: &Path,
-    overrides: &[Override],
-) -> Result<LoadedScenario, Vec<InputError>> {
+pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScenario, Vec<InputError>> {
     let mut document = TomlDocument::read(path, OverrideTarget::Scenario).map_err(|e| vec![e])?;
     document.apply_overrides(overrides).map_err(|e| vec![e])?;
     let file: ScenarioFile = document.deserialize().map_err(|e| vec![e])?;
@@ -74,25 +71,15 @@ pub fn check_scenario(
     let mut problems = checks.finish(()).err().unwrap_or_default();
 
     let cell = match &cell_path {
-        Some(cell_path) => check_cell(cell_path, overrides)
-            .map_err(|mut found| problems.append(&mut found))
-            .ok(),
+        Some(cell_path) => check_cell(cell_path, overrides).map_err(|mut found| problems.append(&mut found)).ok(),
         None => None,
     };
     let duty = match (&cell, &profile_path) {
         (Some(cell), Some(profile_path)) => {
-            let window = VoltageWindow {
-                min_v: cell.voltage_min_v,
-                max_v: cell.voltage_max_v,
-            };
-            check_duty(
-                profile_path,
-                cell.nominal_capacity_coulomb,
-                Some(window),
-                overrides,
-            )
-            .map_err(|mut found| problems.append(&mut found))
-            .ok()
+            let window = VoltageWindow { min_v: cell.voltage_min_v, max_v: cell.voltage_max_v };
+            check_duty(profile_path, cell.nominal_capacity_coulomb, Some(window), overrides)
+                .map_err(|mut found| problems.append(&mut found))
+                .ok()
         }
         _ => None,
     };
@@ -121,17 +108,9 @@ pub fn check_scenario(
         warnings.push(document.problem("ambient_c", rule).to_string());
     }
 
-    let start_soc = file
-        .start_soc_pct
-        .map_or(profile_start_soc, |pct| pct / 100.0);
+    let start_soc = file.start_soc_pct.map_or(profile_start_soc, |pct| pct / 100.0);
     Ok(LoadedScenario {
-        scenario: Scenario {
-            name: file.name.trim().to_string(),
-            cell,
-            duty,
-            ambient_k,
-            start_soc,
-        },
+        scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc },
         cell_path,
         profile_path,
         warnings,
@@ -139,12 +118,7 @@ pub fn check_scenario(
 }
 
 /// `written` resolved against the scenario's directory, if that file exists.
-fn referenced_file(
-    checks: &mut Checks<'_>,
-    directory: &Path,
-    key: &str,
-    written: &Path,
-) -> Option<PathBuf> {
+fn referenced_file(checks: &mut Checks<'_>, directory: &Path, key: &str, written: &Path) -> Option<PathBuf> {
     if written.as_os_str().is_empty() {
         checks.report(key, "must name a file");
         return None;
@@ -156,10 +130,7 @@ fn referenced_file(
     let rule = if resolved.exists() {
         format!("`{}` is not a file", resolved.display())
     } else {
-        format!(
-            "`{}` does not exist (paths are relative to the scenario file)",
-            resolved.display()
-        )
+        format!("`{}` does not exist (paths are relative to the scenario file)", resolved.display())
     };
     checks.report(key, rule);
     None
@@ -168,10 +139,8 @@ fn referenced_file(
 /// The charge each electrode's stoichiometry window holds should match; a large mismatch
 /// usually means a mistyped stoichiometry.
 fn window_mismatch_warning(cell: &Cell, cell_path: &Path) -> Option<String> {
-    let negative = (cell.negative.stoich_at_soc100 - cell.negative.stoich_at_soc0)
-        * cell.negative.capacity_coulomb();
-    let positive = (cell.positive.stoich_at_soc0 - cell.positive.stoich_at_soc100)
-        * cell.positive.capacity_coulomb();
+    let negative = (cell.negative.stoich_at_soc100 - cell.negative.stoich_at_soc0) * cell.negative.capacity_coulomb();
+    let positive = (cell.positive.stoich_at_soc0 - cell.positive.stoich_at_soc100) * cell.positive.capacity_coulomb();
     let mismatch = (negative - positive).abs() / negative.min(positive);
     (mismatch > WINDOW_MISMATCH_WARNING).then(|| {
         format!(

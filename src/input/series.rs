@@ -33,15 +33,9 @@ pub fn load_series(path: &Path) -> Result<TimeSeries, InputError> {
 }
 
 fn parse_series(path: &Path, text: &str) -> Result<TimeSeries, InputError> {
-    let error = |line: usize, column: &str, rule: String| {
-        InputError::new(path, rule)
-            .with_line(Some(line))
-            .with_key(column)
-    };
-    let mut reader = csv::ReaderBuilder::new()
-        .trim(csv::Trim::All)
-        .has_headers(true)
-        .from_reader(text.as_bytes());
+    let error =
+        |line: usize, column: &str, rule: String| InputError::new(path, rule).with_line(Some(line)).with_key(column);
+    let mut reader = csv::ReaderBuilder::new().trim(csv::Trim::All).has_headers(true).from_reader(text.as_bytes());
     let header = reader.headers().map_err(|e| csv_error(path, &e))?.clone();
     let columns = find_columns(path, &header)?;
 
@@ -55,9 +49,7 @@ fn parse_series(path: &Path, text: &str) -> Result<TimeSeries, InputError> {
     let mut last_line = HEADER_LINE;
     for record in reader.records() {
         let record = record.map_err(|e| csv_error(path, &e))?;
-        let line = record
-            .position()
-            .map_or(last_line + 1, |p| line_number(p.line()));
+        let line = record.position().map_or(last_line + 1, |p| line_number(p.line()));
         last_line = line;
         let number = |column: usize| -> Result<f64, InputError> {
             let name = header.get(column).unwrap_or("");
@@ -67,11 +59,7 @@ fn parse_series(path: &Path, text: &str) -> Result<TimeSeries, InputError> {
         let time = number(columns.time)?;
         if let Some(&previous) = series.time_s.last() {
             if time <= previous {
-                return Err(error(
-                    line,
-                    TIME,
-                    format!("time must increase strictly, found {time} after {previous}"),
-                ));
+                return Err(error(line, TIME, format!("time must increase strictly, found {time} after {previous}")));
             }
         }
         series.time_s.push(time);
@@ -79,11 +67,7 @@ fn parse_series(path: &Path, text: &str) -> Result<TimeSeries, InputError> {
         if let (Some(column), Some(ambient_k)) = (columns.ambient, series.ambient_k.as_mut()) {
             let celsius = number(column)?;
             if celsius <= -ZERO_CELSIUS_K {
-                return Err(error(
-                    line,
-                    AMBIENT,
-                    format!("must be above absolute zero (−273.15 °C), found {celsius}"),
-                ));
+                return Err(error(line, AMBIENT, format!("must be above absolute zero (−273.15 °C), found {celsius}")));
             }
             ambient_k.push(celsius + ZERO_CELSIUS_K);
         }
@@ -103,11 +87,8 @@ fn parse_series(path: &Path, text: &str) -> Result<TimeSeries, InputError> {
 }
 
 fn find_columns(path: &Path, header: &csv::StringRecord) -> Result<Columns, InputError> {
-    let header_error = |column: &str, rule: String| {
-        InputError::new(path, rule)
-            .with_line(Some(HEADER_LINE))
-            .with_key(column)
-    };
+    let header_error =
+        |column: &str, rule: String| InputError::new(path, rule).with_line(Some(HEADER_LINE)).with_key(column);
     for (i, name) in header.iter().enumerate() {
         if !KNOWN_COLUMNS.contains(&name) {
             let rule = format!("unknown column{}", suggest::hint(name, &KNOWN_COLUMNS));
@@ -118,30 +99,18 @@ fn find_columns(path: &Path, header: &csv::StringRecord) -> Result<Columns, Inpu
         }
     }
     let position = |name: &str| header.iter().position(|h| h == name);
-    let time = position(TIME)
-        .ok_or_else(|| header_error(TIME, "required column is missing".to_string()))?;
+    let time = position(TIME).ok_or_else(|| header_error(TIME, "required column is missing".to_string()))?;
     let (signal, value) = match (position(CURRENT), position(POWER)) {
         (Some(current), None) => (SeriesSignal::CurrentA, current),
         (None, Some(power)) => (SeriesSignal::PowerW, power),
         (Some(_), Some(_)) => {
-            return Err(header_error(
-                POWER,
-                format!("give either `{CURRENT}` or `{POWER}`, not both"),
-            ));
+            return Err(header_error(POWER, format!("give either `{CURRENT}` or `{POWER}`, not both")));
         }
         (None, None) => {
-            return Err(header_error(
-                CURRENT,
-                format!("required column is missing: give `{CURRENT}` or `{POWER}`"),
-            ));
+            return Err(header_error(CURRENT, format!("required column is missing: give `{CURRENT}` or `{POWER}`")));
         }
     };
-    Ok(Columns {
-        time,
-        signal,
-        value,
-        ambient: position(AMBIENT),
-    })
+    Ok(Columns { time, signal, value, ambient: position(AMBIENT) })
 }
 
 /// A finite number, or a rule saying what was found instead.
@@ -163,15 +132,10 @@ fn line_number(csv_line: u64) -> usize {
 
 fn csv_error(path: &Path, error: &csv::Error) -> InputError {
     match error.kind() {
-        csv::ErrorKind::UnequalLengths {
-            pos,
-            expected_len,
-            len,
-        } => InputError::new(
-            path,
-            format!("row has {len} fields but the header has {expected_len}"),
-        )
-        .with_line(pos.as_ref().map(|p| line_number(p.line()))),
+        csv::ErrorKind::UnequalLengths { pos, expected_len, len } => {
+            InputError::new(path, format!("row has {len} fields but the header has {expected_len}"))
+                .with_line(pos.as_ref().map(|p| line_number(p.line())))
+        }
         _ => InputError::new(path, format!("invalid CSV: {error}")),
     }
 }

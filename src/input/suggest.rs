@@ -2,10 +2,7 @@
 
 /// The candidate closest to `typed` by edit distance, if it is close enough to be a likely
 /// misspelling (at most a third of the typed length, and at least 2 edits allowed).
-pub(crate) fn nearest<'a>(
-    typed: &str,
-    candidates: impl IntoIterator<Item = &'a str>,
-) -> Option<&'a str> {
+pub(crate) fn nearest<'a>(typed: &str, candidates: impl IntoIterator<Item = &'a str>) -> Option<&'a str> {
     let allowed = (typed.chars().count() / 3).max(2);
     candidates
         .into_iter()
@@ -57,10 +54,7 @@ mod tests {
     #[test]
     fn suggests_only_close_names() {
         let keys = ["particle_radius_um", "thickness_um", "area_m2"];
-        assert_eq!(
-            nearest("partical_radius_um", keys),
-            Some("particle_radius_um")
-        );
+        assert_eq!(nearest("partical_radius_um", keys), Some("particle_radius_um"));
         assert_eq!(nearest("thickness", keys), Some("thickness_um"));
         assert_eq!(nearest("colour", keys), None);
         assert!(hint("colour", &keys).contains("expected one of `particle_radius_um`"));
