@@ -1,1 +1,207 @@
-//! Command-line layer (in progress).
+//! The command layer: argument definitions (clap stays inside this module), one handler per
+//! command, and the mapping of failures to exit codes. Handlers load inputs, call the physics
+//! and hand results to [`crate::report`]; they do no physics themselves.
+
+mod check;
+mod cycle;
+
+use crate::cycle::{CycleError, DutyCycle};
+use crate::input::{self, InputError, LoadedScenario, Override};
+use crate::material::constants::ZERO_CELSIUS_K;
+use crate::report::text::sig;
+use crate::report::ReportError;
+use clap::{Args, Parser, Subcommand};
+use std::fmt::Write as _;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use thiserror::Error;
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "fadecast",
+    version,
+    about = "Physics-based forecasts of lithium-ion capacity fade and resistance growth",
+    long_about = "Physics-based forecasts of lithium-ion capacity fade and resistance growth.\n\n\
+                  Results are engineering estimates from a reduced model; they do not replace \
+                  qualification and abuse testing."
+)]
+struct Arguments {
+    #[command(flatten)]
+    overrides: OverrideArgs,
+
+    #[command(subcommand)]
+    command: Command,
+}
+
+/// `--set`, accepted before and after the command name. (A clap `global` argument would
+/// drop the occurrences before the command when more follow it, so each level has its own
+/// and [`run`] joins them in command-line order.)
+#[derive(Debug, Args)]
+struct OverrideArgs {
+    /// Override an input value (repeatable), e.g. --set ambient_c=40
+    ///
+    /// A plain key changes the scenario (`ambient_c=40`), `cell.` its cell
+    /// (`cell.negative.particle_radius_um=4`), `profile.` its step profile
+    /// (`profile.block.0.step.0.charge_c=1.5`, blocks and steps counted from 0).
+    #[arg(long = "set", value_name = "KEY=VALUE")]
+    set: Vec<String>,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Load input files and print what they describe
+    ///
+    /// Accepts cell, step-profile, time-series and scenario files (the kind is detected) and
+    /// prints the quantities derived from each: electrode capacities and balance for a cell,
+    /// the steps in words for a profile, totals for a series, and for a scenario its cell plus
+    /// one simulated cycle.
+    Check {
+        /// Files to check; each file's kind is detected.
+        #[arg(required = true, value_name = "FILE")]
+        files: Vec<PathBuf>,
+        #[command(flatten)]
+        overrides: OverrideArgs,
+    },
+    /// Simulate one duty cycle and write its trace and plot
+    ///
+    /// Runs the scenario's duty cycle on the fresh cell until the cycle repeats itself
+    /// (periodic state), then writes DIR/cycle.csv (the trace) and DIR/cycle.svg (voltage,
+    /// current, temperature and surface stress over time) and prints a summary.
+    Cycle {
+        /// Scenario file (TOML).
+        scenario: PathBuf,
+        /// Directory for the outputs; created if missing.
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        #[command(flatten)]
+        overrides: OverrideArgs,
+    },
+}
+
+/// Why a command failed. [`CliError::exit_code`] says which exit code it maps to.
+#[derive(Debug, Error)]
+pub enum CliError {
+    #[error("{0}")]
+    Input(#[from] InputError),
+    /// The message carries the step and time the simulation reached.
+    #[error("simulation failed: {0}")]
+    Cycle(#[from] CycleError),
+    #[error("{0}")]
+    Report(#[from] ReportError),
+    #[error("could not write to standard output: {0}")]
+    Stdout(#[from] std::io::Error),
+    /// Several files failed (`check` goes on past a bad file); one line each.
+    #[error("{}", .0.iter().map(ToString::to_string).collect::<Vec<_>>().join("\n"))]
+    Several(Vec<CliError>),
+}
+
+impl CliError {
+    /// 2 for bad input (as clap uses for bad arguments), 1 for a runtime failure.
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            CliError::Input(_) => 2,
+            CliError::Cycle(_) | CliError::Report(_) | CliError::Stdout(_) => 1,
+            CliError::Several(errors) => errors.iter().map(CliError::exit_code).max().unwrap_or(1),
+        }
+    }
+}
+
+/// Parses the process arguments and runs the command. Argument errors print clap's usage and
+/// exit with code 2 from here; every other failure is returned.
+pub fn run() -> Result<(), CliError> {
+    let Arguments { overrides: before_command, command } = Arguments::parse();
+    let mut stdout = std::io::stdout().lock();
+    match command {
+        Command::Check { files, overrides } => {
+            let overrides = parse_overrides(&before_command, &overrides)?;
+            check::run(&check::CheckConfig { files, overrides }, &mut stdout)
+        }
+        Command::Cycle { scenario, out, overrides } => {
+            let overrides = parse_overrides(&before_command, &overrides)?;
+            cycle::run(&cycle::CycleConfig { scenario, out_dir: out, overrides }, &mut stdout)
+        }
+    }
+}
+
+/// The `--set` values given before and after the command name, in that order.
+fn parse_overrides(before_command: &OverrideArgs, after_command: &OverrideArgs) -> Result<Vec<Override>, InputError> {
+    before_command.set.iter().chain(&after_command.set).map(|text| input::parse_override(text)).collect()
+}
+
+/// Closes a command's output: every result fadecast prints ends with the caution.
+fn print_caution(out: &mut impl Write) -> std::io::Result<()> {
+    writeln!(out, "\n{}", crate::CAUTION)
+}
+
+/// The label of each step of the duty cycle, by 0-based step index (a series is one step).
+fn step_labels(duty: &DutyCycle) -> Vec<String> {
+    match duty {
+        DutyCycle::Steps(profile) => profile.steps.iter().map(|s| s.label.clone()).collect(),
+        DutyCycle::Series(series) => vec![series.name.clone()],
+    }
+}
+
+/// What a loaded scenario combines, and the warnings loading it raised.
+fn scenario_header(path: &Path, loaded: &LoadedScenario) -> String {
+    let scenario = &loaded.scenario;
+    let mut out = format!("{}: scenario \"{}\"\n", path.display(), scenario.name);
+    let _ = writeln!(out, "  {:<28}\"{}\" ({})", "cell", scenario.cell.name, loaded.cell_path.display());
+    let _ = writeln!(out, "  {:<28}\"{}\" ({})", "duty cycle", scenario.duty.name(), loaded.profile_path.display());
+    let _ = writeln!(out, "  {:<28}{} °C", "ambient", sig(scenario.ambient_k - ZERO_CELSIUS_K, 4));
+    let _ = writeln!(out, "  {:<28}{:.0} %", "start state of charge", scenario.start_soc * 100.0);
+    if !loaded.warnings.is_empty() {
+        out.push_str("Input warnings\n");
+        for warning in &loaded.warnings {
+            let _ = writeln!(out, "  {warning}");
+        }
+    }
+    out
+}
+
+/// Cautions as printed: one paragraph each, set off from the report above.
+fn caution_lines(cautions: &[String]) -> String {
+    cautions.iter().map(|c| format!("\n{c}\n")).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn argument_definitions_are_consistent() {
+        Arguments::command().debug_assert();
+    }
+
+    #[test]
+    fn input_errors_exit_2_and_runtime_failures_exit_1() {
+        let input = || CliError::Input(InputError::new("cell.toml", "must be positive"));
+        let runtime = || {
+            CliError::Cycle(CycleError::Failed {
+                step: 2,
+                label: "charge".into(),
+                time_s: 10.0,
+                detail: "no convergence".into(),
+            })
+        };
+        assert_eq!(input().exit_code(), 2);
+        assert_eq!(runtime().exit_code(), 1);
+        assert_eq!(CliError::Several(vec![runtime(), input()]).exit_code(), 2);
+        assert_eq!(CliError::Several(vec![runtime(), runtime()]).to_string().lines().count(), 2);
+    }
+
+    #[test]
+    fn set_is_accepted_before_and_after_the_command() {
+        let parsed =
+            Arguments::try_parse_from(["fadecast", "--set", "a=1", "cycle", "s.toml", "--set", "b=2", "--set", "c=3"])
+                .unwrap();
+        assert_eq!(parsed.overrides.set, ["a=1"]);
+        match parsed.command {
+            Command::Cycle { out, overrides, .. } => {
+                assert_eq!(overrides.set, ["b=2", "c=3"]);
+                assert_eq!(out, Path::new("out"));
+            }
+            other => panic!("parsed as {other:?}"),
+        }
+    }
+}

@@ -19,10 +19,7 @@ pub fn write_atomic(dir: &Path, name: &str, bytes: &[u8]) -> Result<PathBuf, Rep
 /// Writes several files into `dir` (created if missing): all are staged before any is renamed
 /// into place. Returns the final paths in the order given.
 pub fn write_all_atomic(dir: &Path, files: &[(&str, &[u8])]) -> Result<Vec<PathBuf>, ReportError> {
-    fs::create_dir_all(dir).map_err(|source| ReportError::Io {
-        path: dir.to_path_buf(),
-        source,
-    })?;
+    fs::create_dir_all(dir).map_err(|source| ReportError::Io { path: dir.to_path_buf(), source })?;
     let mut staged: Vec<(PathBuf, PathBuf)> = Vec::with_capacity(files.len());
     for (name, bytes) in files {
         let final_path = dir.join(name);
@@ -31,26 +28,17 @@ pub fn write_all_atomic(dir: &Path, files: &[(&str, &[u8])]) -> Result<Vec<PathB
         if let Err(source) = write_synced(&temp_path, bytes) {
             let _ = fs::remove_file(&temp_path);
             discard(&staged);
-            return Err(ReportError::Io {
-                path: final_path,
-                source,
-            });
+            return Err(ReportError::Io { path: final_path, source });
         }
         staged.push((temp_path, final_path));
     }
     for (done, (temp_path, final_path)) in staged.iter().enumerate() {
         if let Err(source) = fs::rename(temp_path, final_path) {
             discard(&staged[done..]);
-            return Err(ReportError::Io {
-                path: final_path.clone(),
-                source,
-            });
+            return Err(ReportError::Io { path: final_path.clone(), source });
         }
     }
-    Ok(staged
-        .into_iter()
-        .map(|(_, final_path)| final_path)
-        .collect())
+    Ok(staged.into_iter().map(|(_, final_path)| final_path).collect())
 }
 
 fn write_synced(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
@@ -74,14 +62,11 @@ mod tests {
     fn writes_all_files_and_leaves_no_temporaries() {
         let dir = std::env::temp_dir().join(format!("fadecast-atomic-{}", std::process::id()));
         let nested = dir.join("new").join("out");
-        let paths =
-            write_all_atomic(&nested, &[("a.csv", b"x,y\n"), ("b.svg", b"<svg/>")]).unwrap();
+        let paths = write_all_atomic(&nested, &[("a.csv", b"x,y\n"), ("b.svg", b"<svg/>")]).unwrap();
         assert_eq!(fs::read(&paths[0]).unwrap(), b"x,y\n");
         assert_eq!(fs::read(&paths[1]).unwrap(), b"<svg/>");
-        let names: Vec<_> = fs::read_dir(&nested)
-            .unwrap()
-            .map(|entry| entry.unwrap().file_name().into_string().unwrap())
-            .collect();
+        let names: Vec<_> =
+            fs::read_dir(&nested).unwrap().map(|entry| entry.unwrap().file_name().into_string().unwrap()).collect();
         assert_eq!(names.len(), 2, "only the two outputs remain: {names:?}");
         fs::remove_dir_all(&dir).unwrap();
     }

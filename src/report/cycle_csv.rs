@@ -56,9 +56,7 @@ pub fn cycle_csv(record: &CycleRecord, step_labels: &[String]) -> Result<Vec<u8>
         // serde writes the header only with the first row; an empty trace still gets one.
         writer.write_record(CYCLE_CSV_HEADER.split(','))?;
     }
-    writer
-        .into_inner()
-        .map_err(|err| ReportError::Csv(err.into_error().into()))
+    writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
 }
 
 #[cfg(test)]

@@ -30,46 +30,25 @@ struct Panel {
 /// Renders voltage, current, temperature and both electrodes' surface stress against time.
 pub fn cycle_svg(record: &CycleRecord, title: &str) -> Result<String, ReportError> {
     let series = |value: fn(&crate::cycle::TracePoint) -> f64| -> Vec<(f64, f64)> {
-        record
-            .trace
-            .iter()
-            .map(|p| (p.time_s / SECONDS_PER_HOUR, value(p)))
-            .collect()
+        record.trace.iter().map(|p| (p.time_s / SECONDS_PER_HOUR, value(p))).collect()
     };
     let single = |y_label, colour, value| Panel {
         y_label,
-        curves: vec![Curve {
-            name: y_label,
-            colour,
-            points: series(value),
-        }],
+        curves: vec![Curve { name: y_label, colour, points: series(value) }],
     };
     let panels = [
         single("voltage, V", BLACK, |p| p.voltage_v),
         single("current, A (+ discharge)", NEGATIVE_COLOUR, |p| p.current_a),
-        single("temperature, °C", POSITIVE_COLOUR, |p| {
-            p.temperature_k - ZERO_CELSIUS_K
-        }),
+        single("temperature, °C", POSITIVE_COLOUR, |p| p.temperature_k - ZERO_CELSIUS_K),
         Panel {
             y_label: "surface stress, MPa (+ tension)",
             curves: vec![
-                Curve {
-                    name: "negative",
-                    colour: NEGATIVE_COLOUR,
-                    points: series(|p| p.neg_surface_stress_pa * 1e-6),
-                },
-                Curve {
-                    name: "positive",
-                    colour: POSITIVE_COLOUR,
-                    points: series(|p| p.pos_surface_stress_pa * 1e-6),
-                },
+                Curve { name: "negative", colour: NEGATIVE_COLOUR, points: series(|p| p.neg_surface_stress_pa * 1e-6) },
+                Curve { name: "positive", colour: POSITIVE_COLOUR, points: series(|p| p.pos_surface_stress_pa * 1e-6) },
             ],
         },
     ];
-    let time_h = padded_range(
-        record.trace.iter().map(|p| p.time_s / SECONDS_PER_HOUR),
-        0.0,
-    );
+    let time_h = padded_range(record.trace.iter().map(|p| p.time_s / SECONDS_PER_HOUR), 0.0);
 
     let height = TITLE_HEIGHT_PX + PANEL_HEIGHT_PX * panels.len() as u32;
     let mut svg = String::new();
@@ -91,34 +70,21 @@ fn draw_panel<DB: DrawingBackend>(
     panel: &Panel,
     time_h: Range<f64>,
 ) -> Result<(), ReportError> {
-    let values = panel
-        .curves
-        .iter()
-        .flat_map(|c| c.points.iter().map(|p| p.1));
+    let values = panel.curves.iter().flat_map(|c| c.points.iter().map(|p| p.1));
     let mut chart = ChartBuilder::on(area)
         .margin(10)
         .x_label_area_size(35)
         .y_label_area_size(70)
         .build_cartesian_2d(time_h, padded_range(values, 0.05))
         .map_err(plot_error)?;
-    chart
-        .configure_mesh()
-        .x_desc("time, h")
-        .y_desc(panel.y_label)
-        .draw()
-        .map_err(plot_error)?;
+    chart.configure_mesh().x_desc("time, h").y_desc(panel.y_label).draw().map_err(plot_error)?;
     for curve in &panel.curves {
         let colour = curve.colour;
         chart
-            .draw_series(LineSeries::new(
-                curve.points.iter().copied(),
-                colour.stroke_width(2),
-            ))
+            .draw_series(LineSeries::new(curve.points.iter().copied(), colour.stroke_width(2)))
             .map_err(plot_error)?
             .label(curve.name)
-            .legend(move |(x, y)| {
-                PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2))
-            });
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2)));
     }
     if panel.curves.len() > 1 {
         chart
@@ -134,11 +100,8 @@ fn draw_panel<DB: DrawingBackend>(
 /// The span of `values` widened by `margin` of itself on each side. A flat or empty series gets
 /// a unit-wide span so the axis can still be drawn.
 fn padded_range(values: impl Iterator<Item = f64>, margin: f64) -> Range<f64> {
-    let (lo, hi) = values
-        .filter(|v| v.is_finite())
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
-            (lo.min(v), hi.max(v))
-        });
+    let (lo, hi) =
+        values.filter(|v| v.is_finite()).fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(v), hi.max(v)));
     if lo > hi {
         return 0.0..1.0;
     }
@@ -159,13 +122,7 @@ mod tests {
     use crate::cycle::TracePoint;
 
     fn point(time_s: f64, current_a: f64) -> TracePoint {
-        TracePoint {
-            time_s,
-            current_a,
-            voltage_v: 3.7,
-            temperature_k: 300.0,
-            ..TracePoint::default()
-        }
+        TracePoint { time_s, current_a, voltage_v: 3.7, temperature_k: 300.0, ..TracePoint::default() }
     }
 
     #[test]
@@ -176,13 +133,7 @@ mod tests {
         };
         let svg = cycle_svg(&record, "test cycle").unwrap();
         assert!(svg.starts_with("<svg"));
-        for text in [
-            "test cycle",
-            "voltage, V",
-            "temperature, °C",
-            "negative",
-            "positive",
-        ] {
+        for text in ["test cycle", "voltage, V", "temperature, °C", "negative", "positive"] {
             assert!(svg.contains(text), "missing {text}");
         }
         assert_eq!(svg.matches("time, h").count(), 4);

@@ -18,18 +18,10 @@ pub fn cell_report(cell: &Cell, balance: Option<&Balance>) -> String {
         let _ = writeln!(out, "  {label:<28}{value}");
     };
     line("nominal capacity", format!("{} Ah", sig(nominal_ah, 4)));
-    line(
-        "voltage window",
-        format!(
-            "{} – {} V",
-            sig(cell.voltage_min_v, 4),
-            sig(cell.voltage_max_v, 4)
-        ),
-    );
-    for (name, electrode, capacity_ah) in [
-        ("negative electrode", &cell.negative, neg_ah),
-        ("positive electrode", &cell.positive, pos_ah),
-    ] {
+    line("voltage window", format!("{} – {} V", sig(cell.voltage_min_v, 4), sig(cell.voltage_max_v, 4)));
+    for (name, electrode, capacity_ah) in
+        [("negative electrode", &cell.negative, neg_ah), ("positive electrode", &cell.positive, pos_ah)]
+    {
         line(
             name,
             format!(
@@ -41,14 +33,8 @@ pub fn cell_report(cell: &Cell, balance: Option<&Balance>) -> String {
         );
     }
     let np_ratio = balance.map_or(neg_ah / pos_ah, |b| b.np_ratio);
-    line(
-        "N/P capacity ratio",
-        format!("{np_ratio:.3} (negative/positive)"),
-    );
-    line(
-        "lithium inventory",
-        format!("{:.3} Ah", ah(cell.lithium_inventory_coulomb())),
-    );
+    line("N/P capacity ratio", format!("{np_ratio:.3} (negative/positive)"));
+    line("lithium inventory", format!("{:.3} Ah", ah(cell.lithium_inventory_coulomb())));
     match balance {
         Some(b) => {
             line(
@@ -59,23 +45,14 @@ pub fn cell_report(cell: &Cell, balance: Option<&Balance>) -> String {
                     sig(cell.reference_temperature_k - ZERO_CELSIUS_K, 3)
                 ),
             );
-            line(
-                "balanced energy",
-                format!("{:.2} Wh", b.energy_j / SECONDS_PER_HOUR),
-            );
+            line("balanced energy", format!("{:.2} Wh", b.energy_j / SECONDS_PER_HOUR));
             line(
                 "stoichiometry when full",
-                format!(
-                    "negative {:.4}, positive {:.4}",
-                    b.neg_stoich_full, b.pos_stoich_full
-                ),
+                format!("negative {:.4}, positive {:.4}", b.neg_stoich_full, b.pos_stoich_full),
             );
             line(
                 "stoichiometry when empty",
-                format!(
-                    "negative {:.4}, positive {:.4}",
-                    b.neg_stoich_empty, b.pos_stoich_empty
-                ),
+                format!("negative {:.4}, positive {:.4}", b.neg_stoich_empty, b.pos_stoich_empty),
             );
         }
         None => line(
@@ -105,10 +82,7 @@ pub fn cell_report(cell: &Cell, balance: Option<&Balance>) -> String {
         ),
     );
     let tau_s = cell.thermal_time_constant_s();
-    line(
-        "thermal time constant",
-        format!("{} (m·cp / hA)", duration(tau_s)),
-    );
+    line("thermal time constant", format!("{} (m·cp / hA)", duration(tau_s)));
     out
 }
 
@@ -116,20 +90,10 @@ pub fn cell_report(cell: &Cell, balance: Option<&Balance>) -> String {
 /// `None` they are shown for a 1 Ah cell (1 C = 1 A) and the report says so.
 pub fn duty_report(duty: &DutyCycle, start_soc: f64, capacity_ah: Option<f64>) -> String {
     let mut out = String::new();
-    let _ = writeln!(
-        out,
-        "  {:<28}{:.0} %",
-        "start state of charge",
-        start_soc * 100.0
-    );
+    let _ = writeln!(out, "  {:<28}{:.0} %", "start state of charge", start_soc * 100.0);
     match duty {
         DutyCycle::Steps(profile) => {
-            let _ = writeln!(
-                out,
-                "  {:<28}{} after expanding repeats",
-                "steps",
-                profile.steps.len()
-            );
+            let _ = writeln!(out, "  {:<28}{} after expanding repeats", "steps", profile.steps.len());
             if capacity_ah.is_none() {
                 let _ = writeln!(
                     out,
@@ -139,12 +103,7 @@ pub fn duty_report(duty: &DutyCycle, start_soc: f64, capacity_ah: Option<f64>) -
             }
             let capacity_ah = capacity_ah.unwrap_or(1.0);
             for (index, step) in profile.steps.iter().enumerate() {
-                let _ = writeln!(
-                    out,
-                    "  {:>4}. {}",
-                    index + 1,
-                    describe_step(step, capacity_ah)
-                );
+                let _ = writeln!(out, "  {:>4}. {}", index + 1, describe_step(step, capacity_ah));
             }
         }
         DutyCycle::Series(series) => out.push_str(&series_report(series)),
@@ -163,11 +122,7 @@ pub struct SeriesTotals {
 }
 
 pub fn series_totals(series: &TimeSeries) -> SeriesTotals {
-    let mut totals = SeriesTotals {
-        duration_s: 0.0,
-        discharged: 0.0,
-        charged: 0.0,
-    };
+    let mut totals = SeriesTotals { duration_s: 0.0, discharged: 0.0, charged: 0.0 };
     for (window, &value) in series.time_s.windows(2).zip(&series.value) {
         let held = value * (window[1] - window[0]);
         if held > 0.0 {
@@ -189,36 +144,18 @@ fn series_report(series: &TimeSeries) -> String {
         SeriesSignal::CurrentA => ("current", "Ah"),
         SeriesSignal::PowerW => ("power", "Wh"),
     };
-    let _ = writeln!(
-        out,
-        "  {:<28}{} samples of {signal}",
-        "series",
-        series.time_s.len()
-    );
-    let _ = writeln!(
-        out,
-        "  {:<28}{:.3} h",
-        "duration",
-        totals.duration_s / SECONDS_PER_HOUR
-    );
+    let _ = writeln!(out, "  {:<28}{} samples of {signal}", "series", series.time_s.len());
+    let _ = writeln!(out, "  {:<28}{:.3} h", "duration", totals.duration_s / SECONDS_PER_HOUR);
     let per_hour = |x: f64| x / SECONDS_PER_HOUR;
     let _ = writeln!(
         out,
         "  {:<28}{:.3} {unit} discharged, {:.3} {unit} charged",
-        if unit == "Ah" {
-            "charge throughput"
-        } else {
-            "energy throughput"
-        },
+        if unit == "Ah" { "charge throughput" } else { "energy throughput" },
         per_hour(totals.discharged),
         per_hour(totals.charged)
     );
     if let Some(ambient_k) = &series.ambient_k {
-        let (lo, hi) = ambient_k
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &t| {
-                (lo.min(t), hi.max(t))
-            });
+        let (lo, hi) = ambient_k.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &t| (lo.min(t), hi.max(t)));
         let _ = writeln!(
             out,
             "  {:<28}{:.1} – {:.1} °C (from the file; replaces the scenario's ambient)",
@@ -233,25 +170,13 @@ fn series_report(series: &TimeSeries) -> String {
 /// One step in words, e.g. "charge: charge at 5 A (1 C) until the voltage rises to 4.2 V".
 pub fn describe_step(step: &Step, capacity_ah: f64) -> String {
     let drive = describe_drive(step.drive, capacity_ah);
-    let ends: Vec<String> = step
-        .ends
-        .iter()
-        .map(|end| describe_end(*end, step.drive, capacity_ah))
-        .collect();
-    let ends = if ends.is_empty() {
-        String::new()
-    } else {
-        format!(" until {}", ends.join(", or "))
-    };
+    let ends: Vec<String> = step.ends.iter().map(|end| describe_end(*end, step.drive, capacity_ah)).collect();
+    let ends = if ends.is_empty() { String::new() } else { format!(" until {}", ends.join(", or ")) };
     format!("{}: {drive}{ends}", step.label)
 }
 
 fn with_c_rate(amps: f64, capacity_ah: f64) -> String {
-    format!(
-        "{} A ({} C)",
-        sig(amps.abs(), 4),
-        sig(amps.abs() / capacity_ah, 3)
-    )
+    format!("{} A ({} C)", sig(amps.abs(), 4), sig(amps.abs() / capacity_ah, 3))
 }
 
 /// +1 for a discharging drive, −1 for a charging one, 0 when the drive does not fix a sign.
@@ -263,11 +188,7 @@ fn direction(drive: Drive) -> f64 {
 }
 
 fn describe_drive(drive: Drive, capacity_ah: f64) -> String {
-    let verb = if direction(drive) > 0.0 {
-        "discharge"
-    } else {
-        "charge"
-    };
+    let verb = if direction(drive) > 0.0 { "discharge" } else { "charge" };
     match drive {
         Drive::Current(amps) => format!("{verb} at {}", with_c_rate(amps, capacity_ah)),
         Drive::Power(watts) => format!("{verb} at {} W", sig(watts.abs(), 4)),
@@ -312,15 +233,8 @@ mod tests {
             describe_step(&charge, 5.0),
             "charge: charge at 5 A (1 C) until the voltage rises to 4.2 V, or 90.0 min have passed"
         );
-        let hold = Step {
-            label: "cv".into(),
-            drive: Drive::Voltage(4.2),
-            ends: vec![StepEnd::CurrentBelow(0.25)],
-        };
-        assert_eq!(
-            describe_step(&hold, 5.0),
-            "cv: hold 4.2 V until the current falls to 0.25 A (0.05 C)"
-        );
+        let hold = Step { label: "cv".into(), drive: Drive::Voltage(4.2), ends: vec![StepEnd::CurrentBelow(0.25)] };
+        assert_eq!(describe_step(&hold, 5.0), "cv: hold 4.2 V until the current falls to 0.25 A (0.05 C)");
     }
 
     #[test]

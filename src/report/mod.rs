@@ -25,8 +25,5 @@ pub enum ReportError {
     #[error("could not draw the plot: {0}")]
     Plot(String),
     #[error("{}: could not write: {source}", path.display())]
-    Io {
-        path: PathBuf,
-        source: std::io::Error,
-    },
+    Io { path: PathBuf, source: std::io::Error },
 }

@@ -20,14 +20,7 @@ pub fn cycle_summary(record: &CycleRecord) -> String {
         let _ = writeln!(out, "  {label:<32}{value}");
     };
     line("duration", duration(record.duration_s));
-    line(
-        "charge out / in",
-        format!(
-            "{:.3} / {:.3} Ah",
-            ah(record.charge_out_coulomb),
-            ah(record.charge_in_coulomb)
-        ),
-    );
+    line("charge out / in", format!("{:.3} / {:.3} Ah", ah(record.charge_out_coulomb), ah(record.charge_in_coulomb)));
     line(
         "energy out / in",
         format!(
@@ -61,10 +54,7 @@ pub fn cycle_summary(record: &CycleRecord) -> String {
             sig(mpa(record.pos_stress_max_pa), 3)
         ),
     );
-    line(
-        "lowest negative potential",
-        format!("{:.4} V vs Li/Li⁺", record.neg_potential_min_v),
-    );
+    line("lowest negative potential", format!("{:.4} V vs Li/Li⁺", record.neg_potential_min_v));
     line(
         "peak current",
         format!(
@@ -74,20 +64,13 @@ pub fn cycle_summary(record: &CycleRecord) -> String {
         ),
     );
     line(
-        "warm-up to periodic state",
-        format!(
-            "{} cycles (last start-state change {:.1e})",
-            record.warmup_cycles, record.periodic_residual
-        ),
+        "warm-up cycles to periodic",
+        format!("{} (start state changed {:.1e} over the last)", record.warmup_cycles, record.periodic_residual),
     );
     line("time steps", record.time_steps.to_string());
 
     let _ = writeln!(out, "\n  Steps (charge positive out of the cell)");
-    let _ = writeln!(
-        out,
-        "  {:>4}  {:<24}{:>12}{:>12}  ended by",
-        "#", "label", "duration", "charge, Ah"
-    );
+    let _ = writeln!(out, "  {:>4}  {:<24}{:>12}{:>12}  ended by", "#", "label", "duration", "charge, Ah");
     for step in &record.steps {
         let _ = writeln!(
             out,
@@ -127,10 +110,7 @@ pub fn cycle_cautions(record: &CycleRecord, cell: &Cell) -> Vec<String> {
             sig(cell.max_charge_current_a, 4)
         ));
     }
-    if over(
-        record.peak_discharge_current_a,
-        cell.max_discharge_current_a,
-    ) {
+    if over(record.peak_discharge_current_a, cell.max_discharge_current_a) {
         cautions.push(format!(
             "WARNING: peak discharge current {} A exceeds the cell's limit of {} A. \
              {outside_limits}",

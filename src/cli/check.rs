@@ -1,0 +1,95 @@
+//! `fadecast check FILE...`: load each file, whatever its kind, and print what it describes
+//! with the quantities derived from it.
+
+use super::{caution_lines, print_caution, scenario_header, CliError};
+use crate::cycle::{balance_cell, simulate_periodic_cycle, Cell, Health, SolverSettings};
+use crate::input::{self, InputKind, Override};
+use crate::material::constants::SECONDS_PER_HOUR;
+use crate::report;
+use std::fmt::Write as _;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+/// C-rates in a profile checked on its own are taken relative to a 1 Ah cell.
+const ONE_AH_COULOMB: f64 = SECONDS_PER_HOUR;
+
+pub struct CheckConfig {
+    pub files: Vec<PathBuf>,
+    pub overrides: Vec<Override>,
+}
+
+/// Checks every file, even after one fails, so one run lists every bad file.
+pub fn run(config: &CheckConfig, out: &mut impl Write) -> Result<(), CliError> {
+    let mut failures = Vec::new();
+    let mut reported = 0;
+    for path in &config.files {
+        // Each file's report is built in full first, so a failure prints no partial report.
+        match check_file(path, &config.overrides) {
+            Ok(text) => {
+                if reported > 0 {
+                    writeln!(out)?;
+                }
+                out.write_all(text.as_bytes())?;
+                reported += 1;
+            }
+            Err(error) => failures.push(error),
+        }
+    }
+    if reported > 0 {
+        print_caution(out)?;
+    }
+    match failures.len() {
+        0 => Ok(()),
+        1 => Err(failures.remove(0)),
+        _ => Err(CliError::Several(failures)),
+    }
+}
+
+fn check_file(path: &Path, overrides: &[Override]) -> Result<String, CliError> {
+    let text = match input::detect_kind(path)? {
+        InputKind::Cell => {
+            let cell = input::load_cell(path, overrides)?;
+            format!("{}: cell \"{}\"\n{}", path.display(), cell.name, cell_section(&cell))
+        }
+        kind @ (InputKind::Profile | InputKind::Series) => {
+            let (duty, start_soc) = input::load_duty(path, ONE_AH_COULOMB, overrides)?;
+            let what = if matches!(kind, InputKind::Profile) { "step profile" } else { "measured time series" };
+            format!("{}: {what} \"{}\"\n{}", path.display(), duty.name(), report::duty_report(&duty, start_soc, None))
+        }
+        InputKind::Scenario => check_scenario(path, overrides)?,
+    };
+    Ok(text)
+}
+
+fn cell_section(cell: &Cell) -> String {
+    let balance = balance_cell(cell, &Health::fresh(cell));
+    report::cell_report(cell, balance.as_ref())
+}
+
+/// The scenario, its cell and duty cycle, and one simulated periodic cycle.
+fn check_scenario(path: &Path, overrides: &[Override]) -> Result<String, CliError> {
+    let loaded = input::load_scenario(path, overrides)?;
+    let scenario = &loaded.scenario;
+    let record = simulate_periodic_cycle(scenario, &Health::fresh(&scenario.cell), &SolverSettings::default())?;
+    let capacity_ah = scenario.cell.nominal_capacity_coulomb / SECONDS_PER_HOUR;
+    let mut text = scenario_header(path, &loaded);
+    let _ = write!(text, "\nCell \"{}\"\n{}", scenario.cell.name, cell_section(&scenario.cell));
+    let _ = write!(
+        text,
+        "\nDuty cycle \"{}\" (C-rates relative to this cell's {} Ah)\n{}",
+        scenario.duty.name(),
+        report::text::sig(capacity_ah, 4),
+        report::duty_report(&scenario.duty, scenario.start_soc, Some(capacity_ah))
+    );
+    let _ = writeln!(text, "\nOne periodic cycle at beginning of life");
+    let _ = writeln!(text, "  {:<28}{}", "duration", report::text::duration(record.duration_s));
+    let _ = writeln!(
+        text,
+        "  {:<28}{:.3} Ah out, {:.3} Ah in",
+        "charge throughput",
+        record.charge_out_coulomb / SECONDS_PER_HOUR,
+        record.charge_in_coulomb / SECONDS_PER_HOUR
+    );
+    text.push_str(&caution_lines(&report::cycle_cautions(&record, &scenario.cell)));
+    Ok(text)
+}

@@ -1,0 +1,96 @@
+//! `fadecast cycle` on the demo scenario: the files it writes, its summary, and `--set`.
+
+use assert_cmd::Command;
+use predicates::prelude::*;
+use std::path::Path;
+
+const SCENARIO: &str = "examples/van-fleet-overnight.toml";
+
+fn fadecast() -> Command {
+    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
+    command.current_dir(env!("CARGO_MANIFEST_DIR"));
+    command
+}
+
+/// Runs `cycle` on the demo scenario with extra arguments, writing into `out`; returns stdout.
+fn run_cycle(out: &Path, extra: &[&str]) -> String {
+    let output = fadecast()
+        .args(["cycle", SCENARIO, "--out"])
+        .arg(out)
+        .args(extra)
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    String::from_utf8(output).unwrap()
+}
+
+/// The largest value of `column` in a cycle.csv.
+fn column_max(csv_path: &Path, column: &str) -> f64 {
+    let mut reader = csv::Reader::from_path(csv_path).unwrap();
+    let index = reader.headers().unwrap().iter().position(|h| h == column).unwrap();
+    reader.records().map(|row| row.unwrap()[index].parse::<f64>().unwrap()).fold(f64::NEG_INFINITY, f64::max)
+}
+
+#[test]
+fn writes_trace_and_plot_and_summarises() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("new-dir");
+    let stdout = run_cycle(&out, &[]);
+
+    let csv = std::fs::read_to_string(out.join("cycle.csv")).unwrap();
+    assert_eq!(csv.lines().next(), Some(fadecast::report::CYCLE_CSV_HEADER));
+    assert!(csv.lines().count() > 10, "a cycle has many time steps");
+    let svg = std::fs::read_to_string(out.join("cycle.svg")).unwrap();
+    assert!(svg.starts_with("<svg") && svg.contains("surface stress, MPa"));
+    let names: Vec<_> =
+        std::fs::read_dir(&out).unwrap().map(|e| e.unwrap().file_name().into_string().unwrap()).collect();
+    assert_eq!(names.len(), 2, "no temporary file left behind: {names:?}");
+
+    for expected in [
+        "charge out / in",
+        "round-trip efficiency",
+        "peak",
+        "negative surface stress",
+        "lowest negative potential",
+        "warm-up cycles to periodic",
+        "time steps",
+        "ended by",
+    ] {
+        assert!(stdout.contains(expected), "summary lacks {expected:?}:\n{stdout}");
+    }
+    assert!(stdout.trim_end().ends_with(fadecast::CAUTION));
+}
+
+#[test]
+fn warmer_ambient_raises_peak_temperature() {
+    let dir = tempfile::tempdir().unwrap();
+    let (base, warm) = (dir.path().join("base"), dir.path().join("warm"));
+    run_cycle(&base, &["--set", "ambient_c=25"]);
+    run_cycle(&warm, &["--set", "ambient_c=40"]);
+    let peak_base = column_max(&base.join("cycle.csv"), "temperature_c");
+    let peak_warm = column_max(&warm.join("cycle.csv"), "temperature_c");
+    // The cell self-heats above ambient, so each peak sits at or above its ambient.
+    assert!(peak_base >= 25.0 - 1e-9 && peak_warm >= 40.0 - 1e-9);
+    assert!(peak_warm > peak_base + 10.0, "{peak_base} → {peak_warm}");
+}
+
+#[test]
+fn current_over_the_cell_limit_is_warned_about() {
+    let dir = tempfile::tempdir().unwrap();
+    let stdout = run_cycle(dir.path(), &["--set", "cell.limits.max_charge_current_a=0.5"]);
+    assert!(stdout.contains("WARNING: peak charge current"), "no limit warning:\n{stdout}");
+}
+
+#[test]
+fn temperature_outside_the_window_is_warned_about() {
+    let dir = tempfile::tempdir().unwrap();
+    fadecast()
+        .args(["cycle", SCENARIO, "--out"])
+        .arg(dir.path())
+        .args(["--set", "ambient_c=35", "--set", "cell.limits.max_temperature_c=30"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("WARNING: peak temperature"));
+}

@@ -1,0 +1,129 @@
+//! Bad input exits with code 2 and one line naming the file, and leaves no output behind.
+
+use assert_cmd::Command;
+use predicates::prelude::*;
+use std::path::{Path, PathBuf};
+
+fn fadecast() -> Command {
+    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
+    command.current_dir(env!("CARGO_MANIFEST_DIR"));
+    command
+}
+
+fn repo(path: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join(path)
+}
+
+/// Exactly one non-empty line on stderr, containing every piece of `expected`.
+fn one_line_naming(expected: &'static [&'static str]) -> impl Predicate<str> {
+    predicate::function(move |err: &str| {
+        err.trim_end().lines().count() == 1 && expected.iter().all(|piece| err.contains(piece))
+    })
+}
+
+/// A copy of the demo scenario in `dir` with absolute paths to its inputs, plus `extra` lines
+/// at the top (where top-level keys go).
+fn scenario_copy(dir: &Path, extra: &str) -> PathBuf {
+    let text = format!(
+        "{extra}\nname = \"copy\"\ncell = {:?}\nprofile = {:?}\nambient_c = 25.0\n",
+        repo("examples/cells/van-pouch-5ah.toml"),
+        repo("profiles/overnight-charge-1c-drive.toml"),
+    );
+    let path = dir.join("scenario.toml");
+    std::fs::write(&path, text).unwrap();
+    path
+}
+
+#[test]
+fn the_copied_scenario_is_itself_valid() {
+    // Guards the tests below: they must fail for the reason they plant, not another.
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = scenario_copy(dir.path(), "");
+    fadecast().arg("check").arg(&scenario).assert().success();
+}
+
+#[test]
+fn missing_file_exits_2_naming_it() {
+    fadecast()
+        .args(["check", "examples/no-such-cell.toml"])
+        .assert()
+        .code(2)
+        .stdout("")
+        .stderr(one_line_naming(&["examples/no-such-cell.toml"]));
+}
+
+#[test]
+fn missing_scenario_writes_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    fadecast()
+        .args(["cycle", "examples/no-such-scenario.toml", "--out"])
+        .arg(&out)
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["no-such-scenario.toml"]));
+    assert!(!out.exists(), "the output directory must not be created");
+}
+
+#[test]
+fn unknown_key_in_a_file_exits_2_and_writes_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = scenario_copy(dir.path(), "ambiant_c = 30");
+    let out = dir.path().join("out");
+    fadecast()
+        .arg("cycle")
+        .arg(&scenario)
+        .arg("--out")
+        .arg(&out)
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["scenario.toml", "ambiant_c"]));
+    assert!(!out.exists());
+}
+
+#[test]
+fn unknown_key_in_a_cell_file_names_file_and_key() {
+    let dir = tempfile::tempdir().unwrap();
+    let cell = dir.path().join("cell.toml");
+    let original = std::fs::read_to_string(repo("examples/cells/van-pouch-5ah.toml")).unwrap();
+    std::fs::write(&cell, format!("capacity_typo_ah = 5.0\n{original}")).unwrap();
+    fadecast().arg("check").arg(&cell).assert().code(2).stderr(one_line_naming(&["cell.toml", "capacity_typo_ah"]));
+}
+
+#[test]
+fn unknown_override_key_exits_2() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    fadecast()
+        .args(["cycle", "examples/van-fleet-overnight.toml", "--set", "ambiant_c=30", "--out"])
+        .arg(&out)
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["ambiant_c"]));
+    assert!(!out.exists());
+}
+
+#[test]
+fn malformed_override_exits_2() {
+    fadecast()
+        .args(["check", "examples/van-fleet-overnight.toml", "--set", "ambient_c"])
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["--set"]));
+}
+
+#[test]
+fn bad_arguments_exit_2() {
+    fadecast().arg("cycle").assert().code(2);
+    fadecast().arg("no-such-command").assert().code(2);
+}
+
+#[test]
+fn one_bad_file_among_good_ones_still_reports_the_good_ones() {
+    fadecast()
+        .args(["check", "examples/cells/van-pouch-5ah.toml", "examples/no-such-cell.toml"])
+        .assert()
+        .code(2)
+        .stdout(predicate::str::contains("balanced capacity"))
+        .stderr(one_line_naming(&["no-such-cell.toml"]));
+}
