@@ -7,8 +7,10 @@
 use std::path::{Path, PathBuf};
 
 use fadecast::cycle::{Drive, DutyCycle, SeriesSignal, StepEnd};
+use fadecast::forecast::{Ambient, EndOfLife, Horizon};
 use fadecast::input::{
-    detect_kind, load_cell, load_duty, load_scenario, load_series, parse_override, InputError, InputKind, Override,
+    detect_kind, load_cell, load_duty, load_scenario, load_series, parse_horizon, parse_override, InputError,
+    InputKind, Override,
 };
 use fadecast::material::constants::{FARADAY, SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use fadecast::material::{BuiltinOcp, OpenCircuit};
@@ -105,6 +107,70 @@ const SCENARIO: &str = r#"name = "test scenario"
 cell = "../cells/cell.toml"
 profile = "../profiles/profile.toml"
 ambient_c = 25.0
+"#;
+
+/// Aging-mechanism tables to append to [`CELL`]: every mechanism, one switched off.
+const MECHANISMS: &str = r#"
+[negative.film]
+reaction_rate_m_s = 1.0e-15
+reaction_activation_kj_mol = 50.0
+solvent_diffusivity_m2_s = 2.0e-21
+solvent_diffusivity_activation_kj_mol = 30.0
+solvent_concentration_mol_m3 = 5000.0
+molar_volume_cm3_mol = 50.0
+conductivity_s_m = 1.0e-5
+initial_thickness_nm = 2.0
+reference_temperature_c = 30
+
+[negative.cracking]
+paris_coefficient = 1.0e-18
+paris_exponent = 2.0
+threshold_kpa_sqrt_m = 2.0
+initial_length_nm = 10.0
+density_per_um2 = 3.0
+width_nm = 100.0
+activation_kj_mol = 25.0
+
+[positive.cracking]
+enabled = false
+
+[negative.plating]
+exchange_current_a_m2 = 0.01
+activation_kj_mol = 40.0
+irreversible_fraction = 0.5
+
+[negative.active_loss]
+rate_per_cycle = 1.0e-5
+critical_stress_mpa = 20.0
+exponent = 3.0
+activation_kj_mol = 10.0
+
+[positive.active_loss]
+rate_per_cycle = 2.0e-5
+critical_stress_mpa = 5.0
+exponent = 1.0
+activation_kj_mol = 0.0
+reference_temperature_c = 40
+
+[calibration]
+cycles = 1000
+days = 365
+"#;
+
+/// Forecast sections to append to [`SCENARIO`].
+const PLAN: &str = r#"
+[usage]
+cycles_per_day = 2.5
+rest_soc_pct = 40
+monthly_ambient_c = [1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12.5]
+start_month = 4
+
+[horizon]
+years = 2.5
+
+[end_of_life]
+capacity_pct = 70
+resistance_pct = 150
 "#;
 
 /// The nominal capacity of [`CELL`], for loading profiles on their own.
@@ -306,6 +372,207 @@ fn both_ocp_forms_is_an_error() {
     assert_error(&error, &path, Some(line_of(&text, "ocp_table")), "positive.ocp_table", "not both");
 }
 
+fn cell_with_mechanisms() -> String {
+    format!("{CELL}{MECHANISMS}")
+}
+
+#[test]
+fn mechanism_tables_convert_to_si_units() {
+    let files = Files::new();
+    let cell = load_cell(&files.write("cell.toml", &cell_with_mechanisms()), &[]).expect("valid cell");
+    let aging = &cell.aging;
+
+    let film = aging.film.expect("film table present");
+    assert_close(film.reaction_rate_m_s, 1.0e-15);
+    assert_close(film.reaction_activation_j_mol, 50.0e3);
+    assert_close(film.solvent_diffusivity_activation_j_mol, 30.0e3);
+    assert_close(film.molar_volume_m3_mol, 50.0e-6);
+    assert_close(film.initial_thickness_m, 2.0e-9);
+    assert_close(film.reference_temperature_k, 30.0 + ZERO_CELSIUS_K);
+    assert_close(film.transfer_coefficient, 0.5);
+    assert_close(film.reference_potential_v, 0.4);
+
+    let cracking = aging.neg_cracking.expect("negative cracking table present");
+    assert_close(cracking.paris_coefficient, 1.0e-18);
+    assert_close(cracking.threshold_pa_sqrt_m, 2.0e3);
+    assert_close(cracking.initial_length_m, 10.0e-9);
+    assert_close(cracking.density_per_m2, 3.0e12);
+    assert_close(cracking.width_m, 100.0e-9);
+    assert_close(cracking.geometry_factor, 1.12);
+    assert_close(cracking.reference_temperature_k, 20.0 + ZERO_CELSIUS_K);
+
+    let plating = aging.plating.expect("plating table present");
+    assert_close(plating.exchange_current_a_m2, 0.01);
+    assert_close(plating.activation_j_mol, 40.0e3);
+    assert_close(plating.transfer_coefficient, 0.5);
+    assert_close(plating.irreversible_fraction, 0.5);
+
+    let negative_loss = aging.neg_active_loss.expect("negative active-loss table present");
+    assert_close(negative_loss.critical_stress_pa, 20.0e6);
+    assert_close(negative_loss.activation_j_mol, 10.0e3);
+    let positive_loss = aging.pos_active_loss.expect("positive active-loss table present");
+    assert_close(positive_loss.rate_per_cycle, 2.0e-5);
+    assert_close(positive_loss.critical_stress_pa, 5.0e6);
+    assert_close(positive_loss.reference_temperature_k, 40.0 + ZERO_CELSIUS_K);
+
+    assert_eq!(aging.pos_cracking, None, "`enabled = false` switches the mechanism off");
+    let calibration = cell.calibration.expect("calibration table present");
+    assert_eq!((calibration.cycles, calibration.days), (Some(1000.0), Some(365.0)));
+}
+
+#[test]
+fn absent_mechanism_tables_are_off() {
+    let files = Files::new();
+    let cell = load_cell(&files.write("cell.toml", CELL), &[]).expect("valid cell");
+    assert_eq!(cell.aging, fadecast::aging::AgingParams::default());
+    assert_eq!(cell.calibration, None);
+}
+
+#[test]
+fn overrides_switch_and_change_mechanisms() {
+    let files = Files::new();
+    let path = files.write("cell.toml", &cell_with_mechanisms());
+    let set = overrides(&[
+        "cell.negative.film.enabled=false",
+        "cell.negative.cracking.paris_coefficient=4e-18",
+        "cell.positive.active_loss.enabled=false",
+    ]);
+    let cell = load_cell(&path, &set).expect("overrides are valid");
+    assert_eq!(cell.aging.film, None);
+    assert_eq!(cell.aging.pos_active_loss, None);
+    assert_close(cell.aging.neg_cracking.map_or(f64::NAN, |c| c.paris_coefficient), 4e-18);
+
+    // A table the file lacks can be switched off too: it is created, then ignored.
+    let plain = files.write("plain.toml", CELL);
+    let cell = load_cell(&plain, &overrides(&["cell.negative.plating.enabled=false"])).expect("valid cell");
+    assert_eq!(cell.aging.plating, None);
+}
+
+#[test]
+fn mechanism_override_errors_name_set() {
+    let files = Files::new();
+    let path = files.write("cell.toml", CELL);
+    let cases = [
+        (
+            "cell.negative.cracking.paris_coefficient=-1",
+            "--set: cell.negative.cracking.paris_coefficient: must be positive, found -1",
+        ),
+        (
+            "cell.positive.cracking.enabled=true",
+            "--set: cell.positive.cracking.paris_coefficient: required key is missing",
+        ),
+        ("cell.positive.film.enabled=false", "--set: cell.positive.film: unknown key; film growth"),
+        ("cell.negative.film.enabled=no", "--set: cell.negative.film.enabled: expected `true` or `false`"),
+    ];
+    for (text, expected) in cases {
+        let error = load_cell(&path, &overrides(&[text])).expect_err(text);
+        assert!(error.to_string().starts_with(expected), "`{error}` should start with `{expected}`");
+    }
+}
+
+#[test]
+fn impossible_mechanism_values_name_key_rule_and_line() {
+    // (text to replace, replacement, key, rule fragment, text on the reported line)
+    let cases = [
+        (
+            "paris_coefficient = 1.0e-18",
+            "paris_coefficient = -1.0e-18",
+            "negative.cracking.paris_coefficient",
+            "must be positive, found -0.000000000000000001",
+            "-1.0e-18",
+        ),
+        (
+            "irreversible_fraction = 0.5",
+            "irreversible_fraction = 1.5",
+            "negative.plating.irreversible_fraction",
+            "must lie in 0–1, found 1.5",
+            "1.5",
+        ),
+        (
+            "initial_length_nm = 10.0",
+            "initial_length_nm = 6000.0",
+            "negative.cracking.initial_length_nm",
+            "must be below the particle radius (5 µm), found 6000 nm",
+            "6000.0",
+        ),
+        (
+            "exchange_current_a_m2 = 0.01",
+            "exchange_current_a_m2 = 0.01\ntransfer_coefficient = 1.0",
+            "negative.plating.transfer_coefficient",
+            "must lie strictly between 0 and 1, found 1",
+            "transfer_coefficient",
+        ),
+        (
+            "reaction_activation_kj_mol = 50.0",
+            "reaction_activation_kj_mol = -5.0",
+            "negative.film.reaction_activation_kj_mol",
+            "must be zero or positive",
+            "-5.0",
+        ),
+        (
+            "critical_stress_mpa = 20.0",
+            "critical_stress_mpa = inf",
+            "negative.active_loss.critical_stress_mpa",
+            "must be a finite number",
+            "inf",
+        ),
+        (
+            "[positive.cracking]\nenabled = false\n",
+            "[positive.film] # misplaced\nconductivity_s_m = 1.0\n",
+            "positive.film",
+            "unknown key; film growth is modelled on the negative electrode only",
+            "# misplaced",
+        ),
+        (
+            "[positive.cracking]\nenabled = false\n",
+            "[positive.plating] # misplaced\n",
+            "positive.plating",
+            "unknown key; lithium plating is modelled on the negative electrode only",
+            "# misplaced",
+        ),
+        (
+            "conductivity_s_m = 1.0e-5\n",
+            "",
+            "negative.film.conductivity_s_m",
+            "required key is missing; give it, or switch the mechanism off with `enabled = false`",
+            "[negative.film]",
+        ),
+        ("days = 365", "days = 0", "calibration.days", "must be positive, found 0", "days"),
+        ("cycles = 1000\ndays = 365\n", "", "calibration", "give `cycles`, `days` or both", "[calibration]"),
+    ];
+    for (from, to, key, rule, on_line) in cases {
+        let files = Files::new();
+        let text = edited(&cell_with_mechanisms(), from, to);
+        let (path, error) = cell_error(&files, &text);
+        assert_error(&error, &path, Some(line_of(&text, on_line)), key, rule);
+    }
+}
+
+#[test]
+fn unknown_mechanism_key_suggests_the_nearest_valid_key() {
+    let files = Files::new();
+    let text = edited(&cell_with_mechanisms(), "conductivity_s_m = 1.0e-5", "conductivity_sm = 1.0e-5");
+    let (path, error) = cell_error(&files, &text);
+    let line = line_of(&text, "conductivity_sm");
+    assert_eq!(
+        error.to_string(),
+        format!(
+            "{}:{line}: negative.film.conductivity_sm: unknown key; did you mean `conductivity_s_m`?",
+            path.display()
+        )
+    );
+}
+
+#[test]
+fn switched_off_mechanism_needs_no_values() {
+    let files = Files::new();
+    // The switched-off table keeps an out-of-range value and lacks required keys.
+    let text =
+        edited(&cell_with_mechanisms(), "irreversible_fraction = 0.5", "irreversible_fraction = 1.5\nenabled = false");
+    let cell = load_cell(&files.write("cell.toml", &text), &[]).expect("switched-off tables are not checked");
+    assert_eq!(cell.aging.plating, None);
+}
+
 #[test]
 fn valid_profile_expands_repeats_and_converts_units() {
     let files = Files::new();
@@ -502,6 +769,180 @@ fn scenario_errors_name_the_file_at_fault() {
     );
 }
 
+fn scenario_with_plan() -> String {
+    format!("{SCENARIO}{PLAN}")
+}
+
+#[test]
+fn scenario_plan_converts_to_fractions_and_kelvin() {
+    let (_files, path) = scenario_files(CELL, PROFILE, &scenario_with_plan());
+    let plan = load_scenario(&path, &[]).expect("valid scenario").plan;
+    assert_close(plan.usage.cycles_per_day, 2.5);
+    assert_close(plan.usage.rest_soc, 0.4);
+    assert_eq!(plan.usage.start_month, 4);
+    let Ambient::Monthly(monthly_k) = plan.usage.ambient_k else {
+        panic!("twelve monthly values give a monthly ambient")
+    };
+    assert_close(monthly_k[0], 1.0 + ZERO_CELSIUS_K);
+    assert_close(monthly_k[11], 12.5 + ZERO_CELSIUS_K);
+    assert_eq!(plan.horizon, Some(Horizon::Years(2.5)));
+    assert_close(plan.end_of_life.capacity_fraction, 0.7);
+    assert_close(plan.end_of_life.resistance_fraction, 1.5);
+}
+
+#[test]
+fn scenario_plan_defaults() {
+    let (_files, path) = scenario_files(CELL, PROFILE, SCENARIO);
+    let plan = load_scenario(&path, &[]).expect("valid scenario").plan;
+    assert_close(plan.usage.cycles_per_day, 1.0);
+    assert_close(plan.usage.rest_soc, 0.5);
+    assert_eq!(plan.usage.ambient_k, Ambient::Constant(25.0 + ZERO_CELSIUS_K));
+    assert_eq!(plan.usage.start_month, 1);
+    assert_eq!(plan.horizon, None);
+    assert_eq!(plan.end_of_life, EndOfLife::default());
+    assert_close(plan.end_of_life.capacity_fraction, 0.8);
+    assert_close(plan.end_of_life.resistance_fraction, 2.0);
+
+    let storage =
+        edited(SCENARIO, "ambient_c = 25.0", "ambient_c = 25.0\n[usage]\ncycles_per_day = 0\n[horizon]\nyears = 10");
+    let (_files, path) = scenario_files(CELL, PROFILE, &storage);
+    let plan = load_scenario(&path, &[]).expect("storage only is valid").plan;
+    assert_close(plan.usage.cycles_per_day, 0.0);
+    assert_eq!(plan.horizon, Some(Horizon::Years(10.0)));
+}
+
+#[test]
+fn impossible_plan_values_name_key_rule_and_line() {
+    // (text to replace, replacement, key, rule fragment, text on the reported line)
+    let cases = [
+        (
+            "[1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12.5]",
+            "[1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11]",
+            "usage.monthly_ambient_c",
+            "twelve monthly values expected, found 11",
+            "monthly_ambient_c",
+        ),
+        (
+            "[1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12.5]",
+            "[1, 2, -300, 4, 5, 6, 7, 8, 9, 10, 11, 12.5]",
+            "usage.monthly_ambient_c",
+            "March: must be above absolute zero",
+            "monthly_ambient_c",
+        ),
+        (
+            "cycles_per_day = 2.5",
+            "cycles_per_day = -1",
+            "usage.cycles_per_day",
+            "must be zero or positive, found -1",
+            "-1",
+        ),
+        (
+            "rest_soc_pct = 40",
+            "rest_soc_pct = 150",
+            "usage.rest_soc_pct",
+            "must lie in 0–100, found 150",
+            "rest_soc_pct",
+        ),
+        ("start_month = 4", "start_month = 13", "usage.start_month", "must lie in 1–12", "13"),
+        (
+            "capacity_pct = 70",
+            "capacity_pct = 120",
+            "end_of_life.capacity_pct",
+            "must lie strictly between 0 and 100, found 120",
+            "120",
+        ),
+        (
+            "resistance_pct = 150",
+            "resistance_pct = 90",
+            "end_of_life.resistance_pct",
+            "must be above 100 (the fresh cell's resistance), found 90",
+            "90",
+        ),
+        (
+            "years = 2.5",
+            "cycles = 500\nyears = 2.5",
+            "horizon.years",
+            "give either `cycles` or `years`, not both",
+            "years",
+        ),
+        ("years = 2.5", "years = 0", "horizon.years", "must be positive, found 0", "years"),
+        ("years = 2.5\n", "", "horizon", "needs `cycles` or `years`", "[horizon]"),
+    ];
+    for (from, to, key, rule, on_line) in cases {
+        let text = edited(&scenario_with_plan(), from, to);
+        let (_files, path) = scenario_files(CELL, PROFILE, &text);
+        let error = load_scenario(&path, &[]).expect_err(to);
+        assert_error(&error, &path, Some(line_of(&text, on_line)), key, rule);
+    }
+
+    let storage_in_cycles = edited(
+        &edited(&scenario_with_plan(), "cycles_per_day = 2.5", "cycles_per_day = 0"),
+        "years = 2.5",
+        "cycles = 100",
+    );
+    let (_files, path) = scenario_files(CELL, PROFILE, &storage_in_cycles);
+    let error = load_scenario(&path, &[]).expect_err("storage with a horizon in cycles");
+    assert_error(
+        &error,
+        &path,
+        Some(line_of(&storage_in_cycles, "cycles = 100")),
+        "horizon.cycles",
+        "storage only (`cycles_per_day = 0`) runs no cycles; give the horizon in `years`",
+    );
+
+    let text = edited(&scenario_with_plan(), "rest_soc_pct = 40", "rest_soc_pc = 40");
+    let (_files, path) = scenario_files(CELL, PROFILE, &text);
+    let error = load_scenario(&path, &[]).expect_err("unknown key");
+    assert_error(
+        &error,
+        &path,
+        Some(line_of(&text, "rest_soc_pc =")),
+        "usage.rest_soc_pc",
+        "did you mean `rest_soc_pct`?",
+    );
+}
+
+#[test]
+fn plan_overrides_and_their_errors() {
+    let (_files, path) = scenario_files(CELL, PROFILE, &scenario_with_plan());
+    let loaded = load_scenario(&path, &overrides(&["usage.cycles_per_day=0", "end_of_life.capacity_pct=60"]))
+        .expect("overrides are valid");
+    assert_close(loaded.plan.usage.cycles_per_day, 0.0);
+    assert_close(loaded.plan.end_of_life.capacity_fraction, 0.6);
+
+    let (_files, plain) = scenario_files(CELL, PROFILE, SCENARIO);
+    let loaded = load_scenario(&plain, &overrides(&["horizon.cycles=400"])).expect("override adds a horizon");
+    assert_eq!(loaded.plan.horizon, Some(Horizon::Cycles(400.0)));
+
+    for (text, expected) in [
+        ("usage.rest_soc_pct=101", "--set: usage.rest_soc_pct: must lie in 0–100, found 101"),
+        ("horizon.cycles=100", "--set: horizon.cycles: give either `cycles` or `years`, not both"),
+    ] {
+        let error = load_scenario(&path, &overrides(&[text])).expect_err(text);
+        assert!(error.to_string().starts_with(expected), "`{error}` should start with `{expected}`");
+    }
+}
+
+#[test]
+fn monthly_ambient_outside_the_cell_limits_is_a_warning() {
+    let text = edited(&scenario_with_plan(), "7, 8, 9", "55, 8, 9");
+    let (_files, path) = scenario_files(CELL, PROFILE, &text);
+    let loaded = load_scenario(&path, &[]).expect("warnings are not errors");
+    assert_eq!(loaded.warnings.len(), 1, "{:?}", loaded.warnings);
+    let warning = &loaded.warnings[0];
+    assert!(warning.contains("usage.monthly_ambient_c") && warning.contains("July (55.0 °C) is outside"), "{warning}");
+}
+
+#[test]
+fn command_line_horizon_flags() {
+    assert_eq!(parse_horizon(Some(100.0), None), Ok(Some(Horizon::Cycles(100.0))));
+    assert_eq!(parse_horizon(None, None), Ok(None));
+    let error = parse_horizon(Some(100.0), Some(2.0)).expect_err("both flags");
+    assert_eq!(error.to_string(), "command line: --years: give either --cycles or --years, not both");
+    let error = parse_horizon(Some(-5.0), None).expect_err("negative cycles");
+    assert_eq!(error.to_string(), "command line: --cycles: must be positive, found -5");
+}
+
 #[test]
 fn overrides_change_each_file() {
     let (_files, path) = scenario_files(CELL, PROFILE, SCENARIO);
@@ -566,7 +1007,9 @@ fn detects_file_kinds() {
 #[test]
 fn truncated_files_never_panic() {
     let files = Files::new();
-    for (name, text) in [("cell.toml", CELL), ("profile.toml", PROFILE), ("scenario.toml", SCENARIO)] {
+    let (cell, scenario) = (cell_with_mechanisms(), scenario_with_plan());
+    for (name, text) in [("cell.toml", cell.as_str()), ("profile.toml", PROFILE), ("scenario.toml", scenario.as_str())]
+    {
         for end in (0..=text.len()).filter(|&i| text.is_char_boundary(i)) {
             let path = files.write(name, &text[..end]);
             let _ = detect_kind(&path);
@@ -581,18 +1024,36 @@ fn truncated_files_never_panic() {
     }
 }
 
-/// The shipped demo scenarios must stay loadable as the formats evolve.
+/// The shipped demo scenarios must stay loadable as the formats evolve, each with a horizon and
+/// with aging mechanisms in its cell.
 #[test]
 fn demo_scenarios_load() {
     let examples = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
     let Ok(entries) = std::fs::read_dir(&examples) else {
         return;
     };
+    let mut loaded_names = Vec::new();
     for path in entries.filter_map(|e| e.ok()).map(|e| e.path()) {
         if path.extension().is_some_and(|e| e == "toml") && detect_kind(&path).ok() == Some(InputKind::Scenario) {
-            if let Err(error) = load_scenario(&path, &[]) {
-                panic!("{error}");
-            }
+            let loaded = load_scenario(&path, &[]).unwrap_or_else(|error| panic!("{error}"));
+            assert!(loaded.plan.horizon.is_some(), "{}: demo scenarios give a horizon", path.display());
+            let aging = &loaded.scenario.cell.aging;
+            assert!(aging.film.is_some() && aging.neg_cracking.is_some(), "{}: demo cell has aging", path.display());
+            assert_eq!(loaded.scenario.cell.calibration, None, "demo parameters are uncalibrated");
+            loaded_names.push((path.file_name().map(|n| n.to_string_lossy().into_owned()), loaded));
         }
     }
+    let storage = loaded_names
+        .iter()
+        .find(|(name, _)| name.as_deref() == Some("van-depot-storage.toml"))
+        .map(|(_, loaded)| loaded)
+        .expect("the storage demo is a scenario");
+    assert_eq!(storage.plan.usage.cycles_per_day, 0.0, "storage only");
+    let ferry = loaded_names
+        .iter()
+        .find(|(name, _)| name.as_deref() == Some("harbour-ferry.toml"))
+        .map(|(_, loaded)| loaded)
+        .expect("the ferry demo is a scenario");
+    assert!(matches!(ferry.plan.usage.ambient_k, Ambient::Monthly(_)));
+    assert_eq!(ferry.scenario.cell.aging.pos_cracking, None, "switched off for nano-particles");
 }

@@ -7,8 +7,14 @@ use serde::Deserialize;
 use super::checks::Checks;
 use super::document::TomlDocument;
 use super::error::{first_problem, InputError};
+use super::mechanisms::{
+    convert_active_loss, convert_calibration, convert_cracking, convert_film, convert_plating, reject_on_positive,
+    ActiveLossSection, CalibrationSection, CrackingSection, FilmSection, PlatingSection, Surroundings,
+};
 use super::overrides::{Override, OverrideTarget};
 use super::suggest;
+use super::units::{CUBIC_CENTIMETRE, GIGA, KILO, MICRO, MILLI};
+use crate::aging::AgingParams;
 use crate::cycle::{Cell, Electrode};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use crate::material::{BuiltinOcp, OpenCircuit};
@@ -16,13 +22,6 @@ use crate::material::{BuiltinOcp, OpenCircuit};
 const DEFAULT_REFERENCE_TEMPERATURE_C: f64 = 25.0;
 const DEFAULT_SHELLS: i64 = 16;
 const SHELL_RANGE: (i64, i64) = (4, 200);
-
-const MICRO: f64 = 1e-6;
-const MILLI: f64 = 1e-3;
-const KILO: f64 = 1e3;
-const GIGA: f64 = 1e9;
-/// cm³ → m³.
-const CUBIC_CENTIMETRE: f64 = 1e-6;
 
 /// The cell file as written (units as in the key suffixes).
 #[derive(Debug, Deserialize)]
@@ -41,6 +40,7 @@ struct CellFile {
     positive: ElectrodeSection,
     #[serde(default)]
     numerics: NumericsSection,
+    calibration: Option<CalibrationSection>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -96,6 +96,12 @@ struct ElectrodeSection {
     youngs_modulus_gpa: f64,
     poisson_ratio: f64,
     partial_molar_volume_cm3_mol: f64,
+    // Aging-mechanism tables; film growth and plating are read on the negative electrode
+    // only, and rejected under the positive one.
+    film: Option<FilmSection>,
+    cracking: Option<CrackingSection>,
+    plating: Option<PlatingSection>,
+    active_loss: Option<ActiveLossSection>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -194,6 +200,8 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<Inp
 
     let negative = convert_electrode(&mut checks, Side::Negative, &file.negative);
     let positive = convert_electrode(&mut checks, Side::Positive, &file.positive);
+    let aging = convert_aging(&mut checks, &file, reference_temperature_c);
+    let calibration = file.calibration.as_ref().map(|section| convert_calibration(&mut checks, section));
 
     let cell = Cell {
         name: file.name.trim().to_string(),
@@ -215,9 +223,8 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<Inp
         temperature_max_k: limits.max_temperature_c + ZERO_CELSIUS_K,
         reference_temperature_k: reference_temperature_c + ZERO_CELSIUS_K,
         shells: usize::try_from(shells).unwrap_or(0),
-        // Filled from the mechanism tables once the input layer reads them.
-        aging: crate::aging::AgingParams::default(),
-        calibration: None,
+        aging,
+        calibration,
     };
     checks.finish(cell)
 }
@@ -266,6 +273,40 @@ fn convert_electrode(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSec
         youngs_modulus_pa: section.youngs_modulus_gpa * GIGA,
         poisson_ratio: section.poisson_ratio,
         partial_molar_volume_m3_mol: section.partial_molar_volume_cm3_mol * CUBIC_CENTIMETRE,
+    }
+}
+
+/// The mechanism tables under both electrodes; absent or switched-off ones become `None`.
+fn convert_aging(checks: &mut Checks<'_>, file: &CellFile, reference_temperature_c: f64) -> AgingParams {
+    let (negative, positive) = (&file.negative, &file.positive);
+    let around = |section: &ElectrodeSection| Surroundings {
+        reference_temperature_c,
+        particle_radius_um: section.particle_radius_um,
+    };
+    reject_on_positive(checks, "film", positive.film.is_some(), "film growth");
+    reject_on_positive(checks, "plating", positive.plating.is_some(), "lithium plating");
+    AgingParams {
+        film: negative.film.as_ref().and_then(|s| convert_film(checks, "negative.film", s, around(negative))),
+        neg_cracking: negative
+            .cracking
+            .as_ref()
+            .and_then(|s| convert_cracking(checks, "negative.cracking", s, around(negative))),
+        pos_cracking: positive
+            .cracking
+            .as_ref()
+            .and_then(|s| convert_cracking(checks, "positive.cracking", s, around(positive))),
+        plating: negative
+            .plating
+            .as_ref()
+            .and_then(|s| convert_plating(checks, "negative.plating", s, around(negative))),
+        neg_active_loss: negative
+            .active_loss
+            .as_ref()
+            .and_then(|s| convert_active_loss(checks, "negative.active_loss", s, around(negative))),
+        pos_active_loss: positive
+            .active_loss
+            .as_ref()
+            .and_then(|s| convert_active_loss(checks, "positive.active_loss", s, around(positive))),
     }
 }
 

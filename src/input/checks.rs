@@ -19,6 +19,15 @@ impl<'d> Checks<'d> {
         self.problems.push(problem);
     }
 
+    /// Reports two keys that must not both be given against the one a `--set` value gave,
+    /// else against `second`.
+    pub fn report_conflict(&mut self, first: &str, second: &str, rule: impl Into<String>) {
+        let rule = rule.into();
+        let at_first = self.document.problem(first, rule.clone());
+        let problem = if at_first.is_from_command_line() { at_first } else { self.document.problem(second, rule) };
+        self.problems.push(problem);
+    }
+
     /// True (and nothing reported) when `value` is finite.
     pub fn finite(&mut self, key: &str, value: f64) -> bool {
         if !value.is_finite() {
@@ -28,8 +37,8 @@ impl<'d> Checks<'d> {
     }
 
     pub fn positive(&mut self, key: &str, value: f64) {
-        if self.finite(key, value) && value <= 0.0 {
-            self.report(key, format!("must be positive, found {value}"));
+        if let Some(rule) = positive_violation(value) {
+            self.report(key, rule);
         }
     }
 
@@ -43,6 +52,13 @@ impl<'d> Checks<'d> {
     pub fn within(&mut self, key: &str, value: f64, low: f64, high: f64) {
         if self.finite(key, value) && !(low..=high).contains(&value) {
             self.report(key, format!("must lie in {low}–{high}, found {value}"));
+        }
+    }
+
+    /// `low < value < high`.
+    pub fn strictly_between(&mut self, key: &str, value: f64, low: f64, high: f64) {
+        if self.finite(key, value) && !(value > low && value < high) {
+            self.report(key, format!("must lie strictly between {low} and {high}, found {value}"));
         }
     }
 
@@ -64,5 +80,17 @@ impl<'d> Checks<'d> {
         } else {
             Err(self.problems)
         }
+    }
+}
+
+/// The rule `value` breaks by not being a positive finite number, if it breaks one. Shared
+/// with checks that do not run against a file (command-line flags).
+pub(crate) fn positive_violation(value: f64) -> Option<String> {
+    if !value.is_finite() {
+        Some(format!("must be a finite number, found {value}"))
+    } else if value <= 0.0 {
+        Some(format!("must be positive, found {value}"))
+    } else {
+        None
     }
 }

@@ -104,13 +104,46 @@ impl TomlDocument {
     }
 
     /// An error about `key_path` (dotted, inside this file): placed on the `--set` value that
-    /// supplied it, or on its line in the file.
+    /// supplied it (or created the table it belongs to), or on its line in the file.
     pub fn problem(&self, key_path: &str, rule: impl Into<String>) -> InputError {
-        if self.applied.iter().any(|o| o.covers(key_path)) {
+        if self.applied.iter().any(|o| o.covers(key_path)) || self.added_by_override(key_path) {
             return InputError::command_line(format!("{}{key_path}", self.target.prefix()), rule);
         }
         InputError::new(&self.path, rule).with_line(self.index.line_of(key_path)).with_key(key_path)
     }
+
+    /// True when the outermost part of `key_path` missing from the file as written was
+    /// brought in by a `--set` value: a table the file lacks, created by setting a key in it,
+    /// has no line of its own to report.
+    fn added_by_override(&self, key_path: &str) -> bool {
+        let segments: Vec<&str> = key_path.split('.').collect();
+        let Some(present) = present_depth(&self.original, &segments) else {
+            return false;
+        };
+        let added = &segments[..=present];
+        self.applied.iter().any(|o| o.path.len() >= added.len() && o.path.iter().zip(added).all(|(a, b)| a == b))
+    }
+}
+
+/// How many leading segments of `segments` exist in `table`, or `None` when all do.
+fn present_depth(table: &toml::Table, segments: &[&str]) -> Option<usize> {
+    let (first, rest) = segments.split_first()?;
+    let mut node = match table.get(*first) {
+        Some(value) => value,
+        None => return Some(0),
+    };
+    for (depth, segment) in rest.iter().enumerate() {
+        let child = match node {
+            toml::Value::Table(table) => table.get(*segment),
+            toml::Value::Array(array) => segment.parse::<usize>().ok().and_then(|i| array.get(i)),
+            _ => None,
+        };
+        match child {
+            Some(child) => node = child,
+            None => return Some(depth + 1),
+        }
+    }
+    None
 }
 
 /// Reads a whole input file as UTF-8 text.

@@ -6,6 +6,10 @@ use std::path::{Path, PathBuf};
 /// Where a value came from when it was given on the command line instead of in a file.
 pub const COMMAND_LINE_SOURCE: &str = "--set";
 
+/// Where a value came from when it was given as a command-line flag (`--cycles`), whose name
+/// is then the error's key.
+pub const COMMAND_LINE_FLAG_SOURCE: &str = "command line";
+
 /// A problem with an input file (or a `--set` value), displayed on one line as
 /// `file:line: key: rule`; parts that are unknown are left out.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -30,6 +34,11 @@ impl InputError {
         Self::new(COMMAND_LINE_SOURCE, rule).with_key(key)
     }
 
+    /// An error about the value of a command-line flag such as `--cycles`.
+    pub fn command_line_flag(flag: impl Into<String>, rule: impl Into<String>) -> Self {
+        Self::new(COMMAND_LINE_FLAG_SOURCE, rule).with_key(flag)
+    }
+
     /// A file that could not be read at all.
     pub fn unreadable(path: &Path, error: &std::io::Error) -> Self {
         let rule = match error.kind() {
@@ -49,9 +58,9 @@ impl InputError {
         self
     }
 
-    /// True when the value at fault was given on the command line.
+    /// True when the value at fault was given on the command line (`--set` or a flag).
     pub fn is_from_command_line(&self) -> bool {
-        self.file.as_os_str() == COMMAND_LINE_SOURCE
+        self.file.as_os_str() == COMMAND_LINE_SOURCE || self.file.as_os_str() == COMMAND_LINE_FLAG_SOURCE
     }
 }
 
@@ -93,6 +102,9 @@ mod tests {
         let cli = InputError::command_line("cell.x", "unknown key");
         assert_eq!(cli.to_string(), "--set: cell.x: unknown key");
         assert!(cli.is_from_command_line());
+        let flag = InputError::command_line_flag("--cycles", "must be positive, found 0");
+        assert_eq!(flag.to_string(), "command line: --cycles: must be positive, found 0");
+        assert!(flag.is_from_command_line());
     }
 
     #[test]

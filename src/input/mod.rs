@@ -11,18 +11,22 @@ mod document;
 mod duty;
 mod error;
 pub mod locate;
+mod mechanisms;
 mod overrides;
+mod plan;
 mod profile;
 mod scenario;
 mod series;
 mod suggest;
+mod units;
 
 use std::path::Path;
 
 pub use cell::{check_cell, load_cell};
 pub use duty::load_duty;
-pub use error::{InputError, COMMAND_LINE_SOURCE};
+pub use error::{InputError, COMMAND_LINE_FLAG_SOURCE, COMMAND_LINE_SOURCE};
 pub use overrides::{apply_overrides, parse_override, Override, OverrideTarget};
+pub use plan::parse_horizon;
 pub use profile::load_profile;
 pub use scenario::{check_scenario, load_scenario, LoadedScenario};
 pub use series::load_series;

@@ -13,8 +13,10 @@ use super::document::TomlDocument;
 use super::duty::check_duty;
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
+use super::plan::{convert_plan, EndOfLifeSection, HorizonSection, PlanSections, UsageSection, MONTH_NAMES};
 use super::profile::VoltageWindow;
 use crate::cycle::{Cell, Scenario};
+use crate::forecast::{Ambient, Plan};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 
 /// Electrode windows further apart than this (relative to the smaller) draw a warning.
@@ -32,12 +34,17 @@ struct ScenarioFile {
     ambient_c: f64,
     /// Overrides the profile's own start, when given.
     start_soc_pct: Option<f64>,
+    usage: Option<UsageSection>,
+    horizon: Option<HorizonSection>,
+    end_of_life: Option<EndOfLifeSection>,
 }
 
 /// A scenario with everything it names loaded and checked.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LoadedScenario {
     pub scenario: Scenario,
+    /// Use in calendar time, horizon and end of life, for the forecast.
+    pub plan: Plan,
     /// The cell and duty-cycle files as resolved against the scenario's directory.
     pub cell_path: PathBuf,
     pub profile_path: PathBuf,
@@ -68,6 +75,15 @@ pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScena
     let directory = path.parent().unwrap_or(Path::new(""));
     let cell_path = referenced_file(&mut checks, directory, "cell", &file.cell);
     let profile_path = referenced_file(&mut checks, directory, "profile", &file.profile);
+    let plan = convert_plan(
+        &mut checks,
+        PlanSections {
+            usage: file.usage.as_ref(),
+            horizon: file.horizon.as_ref(),
+            end_of_life: file.end_of_life.as_ref(),
+            ambient_c: file.ambient_c,
+        },
+    );
     let mut problems = checks.finish(()).err().unwrap_or_default();
 
     let cell = match &cell_path {
@@ -107,10 +123,14 @@ pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScena
         );
         warnings.push(document.problem("ambient_c", rule).to_string());
     }
+    if let Some(warning) = monthly_ambient_warning(&cell, &plan) {
+        warnings.push(document.problem("usage.monthly_ambient_c", warning).to_string());
+    }
 
     let start_soc = file.start_soc_pct.map_or(profile_start_soc, |pct| pct / 100.0);
     Ok(LoadedScenario {
         scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc },
+        plan,
         cell_path,
         profile_path,
         warnings,
@@ -150,6 +170,28 @@ fn window_mismatch_warning(cell: &Cell, cell_path: &Path) -> Option<String> {
             negative / SECONDS_PER_HOUR,
             positive / SECONDS_PER_HOUR,
             mismatch * 100.0
+        )
+    })
+}
+
+/// Months whose ambient lies outside the cell's temperature limits, as a warning rule.
+fn monthly_ambient_warning(cell: &Cell, plan: &Plan) -> Option<String> {
+    let Ambient::Monthly(monthly_k) = &plan.usage.ambient_k else {
+        return None;
+    };
+    let outside: Vec<String> = monthly_k
+        .iter()
+        .zip(MONTH_NAMES)
+        .filter(|(&k, _)| !(cell.temperature_min_k..=cell.temperature_max_k).contains(&k))
+        .map(|(&k, name)| format!("{name} ({:.1} °C)", k - ZERO_CELSIUS_K))
+        .collect();
+    (!outside.is_empty()).then(|| {
+        format!(
+            "warning: {} {} outside the cell's temperature limits {:.1}–{:.1} °C",
+            outside.join(", "),
+            if outside.len() == 1 { "is" } else { "are" },
+            cell.temperature_min_k - ZERO_CELSIUS_K,
+            cell.temperature_max_k - ZERO_CELSIUS_K
         )
     })
 }
