@@ -4,6 +4,7 @@
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use fadecast::cycle::{
+    CycleRun,
     balance_cell, simulate_cycle, simulate_periodic_with, CellModel, CycleRecord, Health, SolverSettings,
 };
 use std::hint::black_box;
@@ -24,10 +25,11 @@ fn one_cycle(c: &mut Criterion) {
         first.steps.iter().map(|s| s.end.describe()).collect::<Vec<_>>()
     );
     let mut record = CycleRecord::default();
+    let run = CycleRun { duty: &scenario.duty, ambient_k: scenario.ambient_k, health: &health, balance: &balance };
     c.bench_function("cycle_1c_cccv_5ah", |b| {
         b.iter(|| {
             let mut state = periodic.clone();
-            simulate_cycle(&model, &scenario, &health, &balance, &mut state, &settings, &mut record)
+            simulate_cycle(&model, &run, &mut state, &settings, &mut record)
                 .expect("cycle runs");
             black_box(record.charge_out_coulomb)
         })

@@ -43,17 +43,13 @@ pub fn balance_cell(cell: &Cell, health: &Health) -> Option<Balance> {
     if x_hi <= x_lo {
         return None;
     }
-    // OCV rises with x (charging fills the negative); each end is held at its bound when the
-    // window is not reached inside it.
-    let solve = |target: f64| -> f64 {
-        if ocv(x_lo) >= target {
-            return x_lo;
-        }
-        if ocv(x_hi) <= target {
-            return x_hi;
-        }
-        let (mut a, mut b) = (x_lo, x_hi);
-        for _ in 0..80 {
+    // OCV rises with x (charging fills the negative). Scan upward for the first crossing of
+    // each window end, so a fit misbehaving beyond the window cannot mislead the search; an
+    // end not reached inside the feasible range is held at its bound.
+    const SCAN: usize = 200;
+    let grid = |i: usize| x_lo + (x_hi - x_lo) * i as f64 / SCAN as f64;
+    let bisect = |mut a: f64, mut b: f64, target: f64| {
+        for _ in 0..60 {
             let m = 0.5 * (a + b);
             if ocv(m) < target {
                 a = m;
@@ -63,11 +59,18 @@ pub fn balance_cell(cell: &Cell, health: &Health) -> Option<Balance> {
         }
         0.5 * (a + b)
     };
-    let x_full = solve(cell.voltage_max_v);
-    let x_empty = solve(cell.voltage_min_v);
-    if x_full <= x_empty {
-        return None;
-    }
+    let top = (1..=SCAN).find(|&i| ocv(grid(i)) >= cell.voltage_max_v);
+    let x_full = match top {
+        Some(i) if ocv(grid(i - 1)) < cell.voltage_max_v => bisect(grid(i - 1), grid(i), cell.voltage_max_v),
+        Some(_) => x_lo,
+        None => x_hi,
+    };
+    let top_index = top.unwrap_or(SCAN);
+    let bottom = (0..top_index).rev().find(|&i| ocv(grid(i)) <= cell.voltage_min_v);
+    let x_empty = match bottom {
+        Some(i) => bisect(grid(i), grid(i + 1), cell.voltage_min_v).min(x_full),
+        None => x_lo,
+    };
     // Energy = Q_neg ∫ OCV dx over the window (Simpson's rule).
     let intervals = 400;
     let h = (x_full - x_empty) / intervals as f64;

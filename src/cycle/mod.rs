@@ -22,6 +22,6 @@ pub use cell::{Cell, Electrode};
 pub use protocol::{Drive, DutyCycle, Scenario, SeriesSignal, Step, StepEnd, StepProfile, TimeSeries};
 pub use record::{CycleRecord, EndReason, StepSummary, TracePoint};
 pub use simulate::{
-    simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CellModel, CellState, CycleError, Health,
-    SolverSettings,
+    simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CellModel, CellState, CycleError, CycleRun,
+    Health, SolverSettings,
 };

@@ -16,6 +16,9 @@ pub struct TracePoint {
     pub pos_surface_stoich: f64,
     /// Negative electrode potential against Li/Li⁺ at its surface, U_n + η_n, V.
     pub neg_potential_v: f64,
+    /// Mean stoichiometry of each particle.
+    pub neg_mean_stoich: f64,
+    pub pos_mean_stoich: f64,
     pub neg_surface_stress_pa: f64,
     pub pos_surface_stress_pa: f64,
     /// Index of the step (0-based, into the expanded step list; 0 for a time series).

@@ -207,6 +207,42 @@ impl CellModel {
             + self.pos.modes.mean(&state.pos_modes) * balance.pos_capacity_coulomb
     }
 
+    /// Shifts the negative particle's concentration uniformly so the state holds exactly the
+    /// health's lithium inventory (the slow state moves lithium into films and plating between
+    /// cycles; the fast state must follow). Returns false when no shift keeps it inside 0–1.
+    pub fn align_lithium(&self, state: &mut CellState, balance: &Balance, health: &Health) -> bool {
+        let held = self.lithium_coulomb(state, balance);
+        let shift = (health.lithium_inventory_coulomb - held) / balance.neg_capacity_coulomb;
+        let mean = self.neg.modes.mean(&state.neg_modes);
+        if !(0.0..=1.0).contains(&(mean + shift)) {
+            return false;
+        }
+        let uniform = self.neg.modes.uniform(shift);
+        for (q, u) in state.neg_modes.iter_mut().zip(uniform) {
+            *q += u;
+        }
+        true
+    }
+
+    /// DC resistance from a current pulse applied to a rested cell, Ω: the voltage drop after
+    /// `duration_s` over the current (ohmic, film, kinetic and early diffusion polarisation).
+    pub fn pulse_resistance(
+        &self,
+        health: &Health,
+        balance: &Balance,
+        soc: f64,
+        temperature_k: f64,
+        current_a: f64,
+        duration_s: f64,
+    ) -> Option<f64> {
+        let state = self.rest_state(balance, health, soc, temperature_k);
+        let cond = self.conditions(health, temperature_k, temperature_k);
+        let mut scratch = Scratch::default();
+        let rest = self.trial(&state, &cond, Control::Current(0.0), 0.0, 0.0, &mut scratch)?;
+        let loaded = self.trial(&state, &cond, Control::Current(current_a), duration_s, current_a, &mut scratch)?;
+        Some((rest.voltage - loaded.voltage) / current_a)
+    }
+
     /// Shell stoichiometries of each particle, centre outwards (for inspection and tests).
     pub fn shell_stoichiometries(&self, state: &CellState) -> (Vec<f64>, Vec<f64>) {
         (self.neg.modes.shells(&state.neg_modes), self.pos.modes.shells(&state.pos_modes))
@@ -349,6 +385,8 @@ impl CellModel {
             neg_surface_stoich: trial.neg_surface,
             pos_surface_stoich: trial.pos_surface,
             neg_potential_v: trial.neg_potential,
+            neg_mean_stoich: trial.neg_mean,
+            pos_mean_stoich: trial.pos_mean,
             neg_surface_stress_pa: surface_hoop_stress(
                 self.neg.stress_coefficient * self.neg.max_concentration,
                 trial.neg_mean,
@@ -481,22 +519,31 @@ fn ends_reached(margins: &[(EndReason, f64)]) -> (bool, bool) {
     (reached(false), reached(true))
 }
 
-/// Runs one cycle of the scenario's duty from `state`, filling `record`.
+/// What one cycle runs: the duty, the ambient it runs in, and the cell's health with the
+/// balance that goes with it.
+#[derive(Debug, Clone, Copy)]
+pub struct CycleRun<'a> {
+    pub duty: &'a DutyCycle,
+    pub ambient_k: f64,
+    pub health: &'a Health,
+    pub balance: &'a Balance,
+}
+
+/// Runs one cycle of the duty from `state`, filling `record`.
 pub fn simulate_cycle(
     model: &CellModel,
-    scenario: &Scenario,
-    health: &Health,
-    balance: &Balance,
+    run: &CycleRun,
     state: &mut CellState,
     settings: &SolverSettings,
     record: &mut CycleRecord,
 ) -> Result<(), CycleError> {
+    let (health, balance) = (run.health, run.balance);
     let mut stepper = Stepper {
         model,
         health,
         balance,
         settings,
-        scenario,
+        ambient_k: run.ambient_k,
         scratch: Scratch::default(),
         margins: Vec::new(),
         time_s: 0.0,
@@ -504,7 +551,7 @@ pub fn simulate_cycle(
     };
     record.trace.clear();
     record.steps.clear();
-    let cond = model.conditions(health, state.temperature_k, scenario.ambient_k);
+    let cond = model.conditions(health, state.temperature_k, run.ambient_k);
     let start = model.trial(state, &cond, Control::Current(0.0), 0.0, 0.0, &mut stepper.scratch).ok_or_else(|| {
         CycleError::Failed {
             step: 0,
@@ -515,7 +562,7 @@ pub fn simulate_cycle(
     })?;
     record.trace.push(model.trace_point(0.0, &start, balance, 0));
     let mut voltage_limited_s = 0.0;
-    match &scenario.duty {
+    match run.duty {
         DutyCycle::Steps(profile) => {
             for (index, step) in profile.steps.iter().enumerate() {
                 let summary = stepper.run_step(index, step, state, record)?;
@@ -555,7 +602,8 @@ pub fn simulate_periodic_with(
     let mut warmups = 0;
     loop {
         let start = state.clone();
-        simulate_cycle(model, scenario, health, &balance, &mut state, settings, &mut record)?;
+        let run = CycleRun { duty: &scenario.duty, ambient_k: scenario.ambient_k, health, balance: &balance };
+        simulate_cycle(model, &run, &mut state, settings, &mut record)?;
         residual = state_change(model, &start, &state);
         if residual <= settings.periodic_tolerance || warmups >= settings.max_warmup_cycles {
             break;
@@ -624,7 +672,7 @@ struct Stepper<'a> {
     health: &'a Health,
     balance: &'a Balance,
     settings: &'a SolverSettings,
-    scenario: &'a Scenario,
+    ambient_k: f64,
     scratch: Scratch,
     margins: Vec<(EndReason, f64)>,
     time_s: f64,
@@ -756,7 +804,7 @@ impl Stepper<'_> {
     }
 
     fn ambient_at(&self, series_value: Option<f64>) -> f64 {
-        series_value.unwrap_or(self.scenario.ambient_k)
+        series_value.unwrap_or(self.ambient_k)
     }
 
     fn accept(

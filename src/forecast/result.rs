@@ -70,7 +70,10 @@ pub struct LifeAt {
 pub enum StopReason {
     Horizon,
     /// The cycle model or the integrator failed; the detail says where and why.
-    Failed { cycle: f64, detail: String },
+    Failed {
+        cycle: f64,
+        detail: String,
+    },
 }
 
 /// Share of the capacity lost at the horizon attributed to each mechanism, % of fresh

@@ -65,13 +65,15 @@ impl BuiltinOcp {
                     - 0.0175 * ((x - 0.5692) / 0.0875).tanh()
             }
             BuiltinOcp::CobaltOxide1996 => {
-                let y2 = x * x;
-                let y4 = y2 * y2;
-                let y6 = y4 * y2;
-                let y8 = y4 * y4;
-                let y10 = y8 * y2;
-                (-4.656 + 88.669 * y2 - 401.119 * y4 + 342.909 * y6 - 462.471 * y8 + 433.434 * y10)
-                    / (-1.0 + 18.933 * y2 - 79.532 * y4 + 37.311 * y6 - 73.083 * y8 + 95.96 * y10)
+                // The rational fit has a pole near y ≈ 0.43, below the range it was fitted on;
+                // continue it linearly from y = 0.48 so it stays finite and falling.
+                if x < COBALT_OXIDE_FIT_MIN {
+                    let h = 1e-6;
+                    let at = cobalt_oxide_fit(COBALT_OXIDE_FIT_MIN);
+                    let slope = (cobalt_oxide_fit(COBALT_OXIDE_FIT_MIN + h) - at) / h;
+                    return at + slope * (x - COBALT_OXIDE_FIT_MIN);
+                }
+                cobalt_oxide_fit(x)
             }
             BuiltinOcp::IronPhosphate2011 => {
                 let v = 1.0 - x;
@@ -80,6 +82,20 @@ impl BuiltinOcp {
             }
         }
     }
+}
+
+/// Lowest stoichiometry at which the cobalt-oxide fit is used as published.
+const COBALT_OXIDE_FIT_MIN: f64 = 0.48;
+
+/// The published cobalt-oxide rational fit (Doyle et al. 1996).
+fn cobalt_oxide_fit(x: f64) -> f64 {
+    let y2 = x * x;
+    let y4 = y2 * y2;
+    let y6 = y4 * y2;
+    let y8 = y4 * y4;
+    let y10 = y8 * y2;
+    (-4.656 + 88.669 * y2 - 401.119 * y4 + 342.909 * y6 - 462.471 * y8 + 433.434 * y10)
+        / (-1.0 + 18.933 * y2 - 79.532 * y4 + 37.311 * y6 - 73.083 * y8 + 95.96 * y10)
 }
 
 /// An electrode's open-circuit potential: a published form or a table from the cell file.
@@ -144,7 +160,7 @@ mod tests {
         let cases = [
             (BuiltinOcp::GraphiteMcmb1996, 0.05, 0.95, 0.0, 1.0),
             (BuiltinOcp::Graphite2011, 0.02, 0.95, 0.0, 1.0),
-            (BuiltinOcp::CobaltOxide1996, 0.5, 0.98, 3.5, 4.3),
+            (BuiltinOcp::CobaltOxide1996, 0.3, 0.98, 3.5, 5.5),
             (BuiltinOcp::IronPhosphate2011, 0.02, 0.98, 2.8, 3.8),
         ];
         for (form, lo, hi, vmin, vmax) in cases {
