@@ -106,7 +106,9 @@ pub fn negative_surfaces(cell: &Cell, state: &AgingState) -> Surfaces {
     let remaining = 1.0 - state.neg_active_lost;
     let original = cell.negative.surface_area_m2() * remaining;
     let crack = cell.aging.neg_cracking.map_or(0.0, |c| {
-        let grown = (state.neg_crack_nm * 1e-9 - c.initial_length_m).max(0.0);
+        // A crack stops at the particle centre; the integrator may step slightly past it.
+        let length = (state.neg_crack_nm * 1e-9).min(cell.negative.particle_radius_m);
+        let grown = (length - c.initial_length_m).max(0.0);
         original * c.density_per_m2 * 2.0 * c.width_m * grown
     });
     Surfaces { original_m2: original, crack_m2: crack }

@@ -208,8 +208,9 @@ impl<'a> Forecaster<'a> {
             pos_active_lost_pct: 100.0 * state.pos_active_lost,
             film_original_nm: state.film_original_nm,
             film_crack_nm: crate::aging::state::crack_film_thickness_m(cell, state) * 1e9,
-            neg_crack_nm: state.neg_crack_nm,
-            pos_crack_nm: state.pos_crack_nm,
+            // Cracks stop at the particle centre (the integrator may step slightly past it).
+            neg_crack_nm: state.neg_crack_nm.min(cell.negative.particle_radius_m * 1e9),
+            pos_crack_nm: state.pos_crack_nm.min(cell.positive.particle_radius_m * 1e9),
             plated_total_pct: 100.0 * state.plated_total,
             peak_temperature_c: snapshot.map_or(self.ambient_k(self.day(x)), |s| s.peak_temperature_k) - ZERO_CELSIUS_K,
         })
@@ -291,6 +292,7 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         fresh_capacity_ah: 0.0,
         fresh_resistance_mohm: 0.0,
         warnings: Vec::new(),
+        final_state: None,
     };
     let fail = |mut f: Forecast, x: f64, detail: String| {
         f.stop = StopReason::Failed { cycle: x, detail };
@@ -327,7 +329,8 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
             }
         }
     }
-    if let Some(last) = ys.last() {
+    forecast.final_state = ys.get(forecast.points.len().saturating_sub(1)).copied();
+    if let Some(last) = forecast.final_state.as_ref() {
         forecast.loss_at_horizon = LossByMechanism {
             film_original_pct: 100.0 * last.lithium_film_original,
             film_crack_pct: 100.0 * last.lithium_film_crack,

@@ -104,4 +104,7 @@ pub struct Forecast {
     pub fresh_resistance_mohm: f64,
     /// Plain-language warnings (plating, limits, extrapolation).
     pub warnings: Vec<String>,
+    /// The slow state at the last reported point (for conservation checks and restarts).
+    #[serde(skip)]
+    pub final_state: Option<crate::aging::AgingState>,
 }
