@@ -22,6 +22,8 @@ use ode_solvers::{DVector, Dopri5, OutputType, System};
 use std::cell::RefCell;
 
 const SECONDS_PER_DAY: f64 = 86_400.0;
+/// The failure detail that means the cell is used up rather than the model failing.
+const EXHAUSTED: &str = "no charge can be cycled in the voltage window any more";
 const DAYS_PER_YEAR: f64 = 365.25;
 /// Length and C-rate of the resistance pulse.
 const PULSE_S: f64 = 10.0;
@@ -108,7 +110,7 @@ impl<'a> Forecaster<'a> {
     fn rates(&self, x: f64, state: &AgingState) -> Result<AgingState, String> {
         let cell = &self.scenario.cell;
         let health = health_of(cell, state);
-        let balance = balance_cell(cell, &health).ok_or("no charge can be cycled in the voltage window any more")?;
+        let balance = balance_cell(cell, &health).ok_or(EXHAUSTED)?;
         let ambient = self.ambient_k(self.day(x));
         let mut record = self.record.borrow_mut();
         let (cycle, idle_s) = if self.cycling() {
@@ -324,7 +326,7 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         match forecaster.point(*x, y, fresh) {
             Some(p) => forecast.points.push(p),
             None => {
-                forecaster.failure.borrow_mut().get_or_insert((*x, "the aged cell can no longer be balanced".into()));
+                forecaster.failure.borrow_mut().get_or_insert((*x, EXHAUSTED.into()));
                 break;
             }
         }
@@ -341,7 +343,11 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         };
     }
     if let Some((x, detail)) = forecaster.failure.borrow().clone() {
-        forecast.stop = StopReason::Failed { cycle: x, detail };
+        forecast.stop = if detail == EXHAUSTED {
+            StopReason::Exhausted { cycle: x }
+        } else {
+            StopReason::Failed { cycle: x, detail }
+        };
     }
     forecast.end_of_life = end_of_life(&forecast.points, plan, forecaster.cycling(), plan.usage.cycles_per_day);
     forecast.simulated_cycles = *forecaster.simulated.borrow();

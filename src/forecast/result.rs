@@ -69,6 +69,10 @@ pub struct LifeAt {
 #[serde(rename_all = "snake_case", tag = "kind")]
 pub enum StopReason {
     Horizon,
+    /// The cell has no charge left to cycle in its voltage window (far past any end of life).
+    Exhausted {
+        cycle: f64,
+    },
     /// The cycle model or the integrator failed; the detail says where and why.
     Failed {
         cycle: f64,
