@@ -94,3 +94,26 @@ fn temperature_outside_the_window_is_warned_about() {
         .success()
         .stdout(predicate::str::contains("WARNING: peak temperature"));
 }
+
+#[test]
+fn series_held_back_at_the_voltage_limit_is_warned_about() {
+    // Each day charges 10 Ah into a 5 Ah cell after taking 2.5 Ah out: most of the charge
+    // cannot go in, so the cycle model must derate it and the summary must say so.
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("series.csv"), "time_s,current_a\n0,2.5\n3600,-5.0\n10800,0.0\n").unwrap();
+    let cell = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/cells/van-pouch-5ah.toml");
+    let scenario = dir.path().join("scenario.toml");
+    let text = format!("name = \"overcharge\"\ncell = {cell:?}\nprofile = \"series.csv\"\nambient_c = 25.0\n");
+    std::fs::write(&scenario, text).unwrap();
+    let out = dir.path().join("out");
+    fadecast()
+        .arg("cycle")
+        .arg(&scenario)
+        .arg("--out")
+        .arg(&out)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("was derated there"));
+    let csv = std::fs::read_to_string(out.join("cycle.csv")).unwrap();
+    assert!(csv.lines().nth(1).unwrap().ends_with(",1,series"), "a series is step 1, labelled by its name");
+}

@@ -134,5 +134,12 @@ pub fn cycle_cautions(record: &CycleRecord, cell: &Cell) -> Vec<String> {
             celsius(cell.temperature_min_k)
         ));
     }
+    if record.voltage_limited_s > 0.0 {
+        cautions.push(format!(
+            "WARNING: for {} the measured series asked for more than the cell's voltage window allows; it \
+             was derated there (held at the voltage limit), so this cycle passes less charge than the file does.",
+            duration(record.voltage_limited_s)
+        ));
+    }
     cautions
 }
