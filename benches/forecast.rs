@@ -1,0 +1,62 @@
+//! Forecast of 5000 cycles of the 5 Ah demo scenario by cycle jumping (target: ≤ 0.1 s on one
+//! core), and the ratio of the every-cycle reference's time to the jumping time, both measured
+//! in this run (target ≥ 50×). Run: `cargo bench --bench forecast`.
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
+use std::hint::black_box;
+use std::path::Path;
+use std::time::Instant;
+
+const SCENARIO: &str = "examples/van-fleet-overnight.toml";
+const CYCLES: f64 = 5000.0;
+
+fn forecast(c: &mut Criterion) {
+    let loaded = fadecast::input::load_scenario(Path::new(SCENARIO), &[]).expect("demo scenario loads");
+    let (scenario, plan) = (loaded.scenario, loaded.plan);
+    let horizon = Horizon::Cycles(CYCLES);
+    let jumping = ForecastOptions::default();
+    let every = ForecastOptions { every_cycle: true, ..ForecastOptions::default() };
+
+    // The ratio, from medians of repeated runs in this process.
+    let time = |options: &ForecastOptions, runs: usize| {
+        let mut seconds: Vec<f64> = (0..runs)
+            .map(|_| {
+                let start = Instant::now();
+                black_box(run_forecast(&scenario, &plan, horizon, options));
+                start.elapsed().as_secs_f64()
+            })
+            .collect();
+        seconds.sort_by(f64::total_cmp);
+        seconds[runs / 2]
+    };
+    let probe = run_forecast(&scenario, &plan, horizon, &jumping);
+    let reference = run_forecast(&scenario, &plan, horizon, &every);
+    let worst =
+        probe.points.iter().zip(&reference.points).map(|(a, b)| (a.soh_pct - b.soh_pct).abs()).fold(0.0, f64::max);
+    let t_jump = time(&jumping, 15);
+    let t_every = time(&every, 3);
+    eprintln!(
+        "forecast {CYCLES} cycles: jumping {:.1} ms ({} simulated cycles, {} steps, {} rejected), every cycle {:.0} ms \
+         ({} simulated); ratio {:.0}×; worst |ΔSOH| {:.4} pp",
+        t_jump * 1e3,
+        probe.simulated_cycles,
+        probe.accepted_steps,
+        probe.rejected_steps,
+        t_every * 1e3,
+        reference.simulated_cycles,
+        t_every / t_jump,
+        worst
+    );
+
+    c.bench_function("forecast_5000_cycles_jumping", |b| {
+        b.iter(|| black_box(run_forecast(&scenario, &plan, horizon, &jumping)))
+    });
+}
+
+criterion_group! {
+    name = benches;
+    config = Criterion::default().sample_size(20);
+    targets = forecast
+}
+criterion_main!(benches);
