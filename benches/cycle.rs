@@ -4,8 +4,7 @@
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use fadecast::cycle::{
-    CycleRun,
-    balance_cell, simulate_cycle, simulate_periodic_with, CellModel, CycleRecord, Health, SolverSettings,
+    balance_cell, simulate_cycle, simulate_periodic_with, CellModel, CycleRecord, CycleRun, Health, SolverSettings,
 };
 use std::hint::black_box;
 use std::path::Path;
@@ -29,8 +28,7 @@ fn one_cycle(c: &mut Criterion) {
     c.bench_function("cycle_1c_cccv_5ah", |b| {
         b.iter(|| {
             let mut state = periodic.clone();
-            simulate_cycle(&model, &run, &mut state, &settings, &mut record)
-                .expect("cycle runs");
+            simulate_cycle(&model, &run, &mut state, &settings, &mut record).expect("cycle runs");
             black_box(record.charge_out_coulomb)
         })
     });

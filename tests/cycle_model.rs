@@ -42,7 +42,14 @@ fn run_once(
     let start = model.rest_state(&balance, &health, soc, s.ambient_k);
     let mut state = start.clone();
     let mut record = CycleRecord::default();
-    simulate_cycle(&model, &CycleRun { duty: &s.duty, ambient_k: s.ambient_k, health: &health, balance: &balance }, &mut state, settings, &mut record).unwrap_or_else(|e| panic!("{e}"));
+    simulate_cycle(
+        &model,
+        &CycleRun { duty: &s.duty, ambient_k: s.ambient_k, health: &health, balance: &balance },
+        &mut state,
+        settings,
+        &mut record,
+    )
+    .unwrap_or_else(|e| panic!("{e}"));
     (record, model, start, state, balance)
 }
 
@@ -219,7 +226,14 @@ fn rest_cools_with_the_lumped_time_constant() {
     let balance = balance_cell(&s.cell, &health).unwrap();
     let mut state = model.rest_state(&balance, &health, 0.5, s.ambient_k + 10.0);
     let mut record = CycleRecord::default();
-    simulate_cycle(&model, &CycleRun { duty: &s.duty, ambient_k: s.ambient_k, health: &health, balance: &balance }, &mut state, &SolverSettings::default(), &mut record).unwrap();
+    simulate_cycle(
+        &model,
+        &CycleRun { duty: &s.duty, ambient_k: s.ambient_k, health: &health, balance: &balance },
+        &mut state,
+        &SolverSettings::default(),
+        &mut record,
+    )
+    .unwrap();
     let excess = state.temperature_k - s.ambient_k;
     assert!((excess - 10.0 * (-1.0f64).exp()).abs() < 1e-6, "excess after τ: {excess}");
 }

@@ -4,6 +4,7 @@
 
 mod check;
 mod cycle;
+mod forecast;
 
 use crate::cycle::{CycleError, DutyCycle};
 use crate::input::{self, InputError, LoadedScenario, Override};
@@ -76,6 +77,31 @@ enum Command {
         #[command(flatten)]
         overrides: OverrideArgs,
     },
+    /// Forecast capacity fade and resistance growth over thousands of cycles or years
+    ///
+    /// Integrates the aging mechanisms over the horizon by cycle jumping (an adaptive
+    /// integrator that simulates only the cycles it needs), or every cycle with
+    /// --every-cycle. Writes DIR/fade.csv (one row per reported point), DIR/summary.json
+    /// (end of life per threshold, values at the horizon, loss by mechanism, warnings) and
+    /// DIR/fade.svg, and prints a summary.
+    Forecast {
+        /// Scenario file (TOML).
+        scenario: PathBuf,
+        /// Directory for the outputs; created if missing.
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        /// Horizon in cycles (overrides the scenario's).
+        #[arg(long, value_name = "N", conflicts_with = "years")]
+        cycles: Option<f64>,
+        /// Horizon in years (overrides the scenario's).
+        #[arg(long, value_name = "Y")]
+        years: Option<f64>,
+        /// Simulate every cycle (the reference the jumping is checked against).
+        #[arg(long)]
+        every_cycle: bool,
+        #[command(flatten)]
+        overrides: OverrideArgs,
+    },
 }
 
 /// Why a command failed. [`CliError::exit_code`] says which exit code it maps to.
@@ -88,6 +114,9 @@ pub enum CliError {
     Cycle(#[from] CycleError),
     #[error("{0}")]
     Report(#[from] ReportError),
+    /// The forecast stopped early; the message says where and why.
+    #[error("forecast failed {0}")]
+    Forecast(String),
     #[error("could not write to standard output: {0}")]
     Stdout(#[from] std::io::Error),
     /// Several files failed (`check` goes on past a bad file); one line each.
@@ -100,7 +129,7 @@ impl CliError {
     pub fn exit_code(&self) -> u8 {
         match self {
             CliError::Input(_) => 2,
-            CliError::Cycle(_) | CliError::Report(_) | CliError::Stdout(_) => 1,
+            CliError::Cycle(_) | CliError::Forecast(_) | CliError::Report(_) | CliError::Stdout(_) => 1,
             CliError::Several(errors) => errors.iter().map(CliError::exit_code).max().unwrap_or(1),
         }
     }
@@ -119,6 +148,12 @@ pub fn run() -> Result<(), CliError> {
         Command::Cycle { scenario, out, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
             cycle::run(&cycle::CycleConfig { scenario, out_dir: out, overrides }, &mut stdout)
+        }
+        Command::Forecast { scenario, out, cycles, years, every_cycle, overrides } => {
+            let overrides = parse_overrides(&before_command, &overrides)?;
+            let horizon = input::parse_horizon(cycles, years)?;
+            let config = forecast::ForecastConfig { scenario, out_dir: out, overrides, horizon, every_cycle };
+            forecast::run(&config, &mut stdout)
         }
     }
 }

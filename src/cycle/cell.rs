@@ -6,6 +6,11 @@
 use crate::material::constants::FARADAY;
 use crate::material::OpenCircuit;
 
+/// Relative slack before a peak current counts as over the cell's limit: a step driven at the
+/// limit is not flagged for round-off, nor a constant-voltage step that follows a
+/// constant-current step at the limit and starts a hair above it.
+pub const LIMIT_SLACK: f64 = 0.01;
+
 /// One porous electrode, described by its representative particle.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Electrode {

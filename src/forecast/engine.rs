@@ -12,6 +12,7 @@ use super::plan::{Ambient, Horizon, Plan};
 use super::result::*;
 use super::ForecastOptions;
 use crate::aging::{health_of, mechanisms_for, AgingContext, AgingState, Mechanism, STATE_LEN};
+use crate::cycle::cell::LIMIT_SLACK;
 use crate::cycle::{
     balance_cell, simulate_cycle, simulate_periodic_with, Balance, CellModel, CellState, CycleRecord, CycleRun, Health,
     Scenario, SolverSettings,
@@ -507,13 +508,13 @@ fn warnings(forecaster: &Forecaster, x_end: f64) -> Vec<String> {
     }
     let peak_charge = log.iter().map(|s| s.peak_charge_a).fold(0.0, f64::max);
     let peak_discharge = log.iter().map(|s| s.peak_discharge_a).fold(0.0, f64::max);
-    if peak_charge > cell.max_charge_current_a * (1.0 + 1e-6) {
+    if peak_charge > cell.max_charge_current_a * (1.0 + LIMIT_SLACK) {
         out.push(format!(
             "the profile charges at {peak_charge:.1} A, above the cell's limit of {:.1} A",
             cell.max_charge_current_a
         ));
     }
-    if peak_discharge > cell.max_discharge_current_a * (1.0 + 1e-6) {
+    if peak_discharge > cell.max_discharge_current_a * (1.0 + LIMIT_SLACK) {
         out.push(format!(
             "the profile discharges at {peak_discharge:.1} A, above the cell's limit of {:.1} A",
             cell.max_discharge_current_a

@@ -99,7 +99,7 @@ fn draw_panel<DB: DrawingBackend>(
 
 /// The span of `values` widened by `margin` of itself on each side. A flat or empty series gets
 /// a unit-wide span so the axis can still be drawn.
-fn padded_range(values: impl Iterator<Item = f64>, margin: f64) -> Range<f64> {
+pub(super) fn padded_range(values: impl Iterator<Item = f64>, margin: f64) -> Range<f64> {
     let (lo, hi) =
         values.filter(|v| v.is_finite()).fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(v), hi.max(v)));
     if lo > hi {
@@ -112,7 +112,7 @@ fn padded_range(values: impl Iterator<Item = f64>, margin: f64) -> Range<f64> {
     lo - margin * span..hi + margin * span
 }
 
-fn plot_error(err: impl std::fmt::Display) -> ReportError {
+pub(super) fn plot_error(err: impl std::fmt::Display) -> ReportError {
     ReportError::Plot(err.to_string())
 }
 

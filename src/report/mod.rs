@@ -5,6 +5,9 @@
 mod atomic;
 mod cycle_csv;
 mod cycle_svg;
+mod fade_csv;
+mod fade_svg;
+mod forecast_json;
 mod inputs;
 mod summary;
 pub mod text;
@@ -12,6 +15,9 @@ pub mod text;
 pub use atomic::{write_all_atomic, write_atomic};
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
 pub use cycle_svg::cycle_svg;
+pub use fade_csv::fade_csv;
+pub use fade_svg::fade_svg;
+pub use forecast_json::forecast_json;
 pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
 pub use summary::{cycle_cautions, cycle_summary};
 
@@ -24,6 +30,8 @@ pub enum ReportError {
     Csv(#[from] csv::Error),
     #[error("could not draw the plot: {0}")]
     Plot(String),
+    #[error("could not format JSON: {0}")]
+    Json(#[from] serde_json::Error),
     #[error("{}: could not write: {source}", path.display())]
     Io { path: PathBuf, source: std::io::Error },
 }

@@ -5,9 +5,7 @@ use crate::cycle::{Cell, CycleRecord};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use std::fmt::Write;
 
-/// Relative slack before a peak counts as over a limit, so a step driven exactly at the limit
-/// is not flagged for round-off.
-const LIMIT_SLACK: f64 = 1e-6;
+use crate::cycle::cell::LIMIT_SLACK;
 
 /// Totals, extremes and the step table of `record`.
 pub fn cycle_summary(record: &CycleRecord) -> String {
