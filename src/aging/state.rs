@@ -133,14 +133,15 @@ pub fn crack_film_thickness_m(cell: &Cell, state: &AgingState) -> f64 {
     }
 }
 
-/// Series resistance of the negative's film, Ω: the area-weighted mean thickness over the
-/// film's conductivity and the whole filmed area.
+/// Series resistance of the negative's film, Ω: all film volume, on the original and on crack
+/// surface, over the film's conductivity and the original (still connected) surface squared.
+/// Fresh crack faces are not counted as extra reaction area: they sit deep in the particle,
+/// poorly reached, so their film adds resistance rather than opening a parallel path.
 pub fn film_resistance_ohm(cell: &Cell, state: &AgingState) -> f64 {
     let Some(film) = cell.aging.film else { return 0.0 };
-    let s = negative_surfaces(cell, state);
-    let area = s.original_m2 + s.crack_m2;
-    let volume = state.film_original_nm * 1e-9 * s.original_m2 + crack_film_volume_m3(cell, state);
-    volume / area / (film.conductivity_s_m * area)
+    let area = negative_surfaces(cell, state).original_m2;
+    let volume = state.film_original_nm * 1e-9 * area + crack_film_volume_m3(cell, state);
+    volume / (film.conductivity_s_m * area * area)
 }
 
 /// The slow state as the cycle model sees it.
