@@ -119,6 +119,19 @@ mod tests {
     }
 
     #[test]
+    fn each_limit_scales_with_its_own_arrhenius_factor() {
+        // VALIDATION.md §5: a thin film grows at the reaction rate (activation of k), a thick one
+        // at the solvent-diffusion rate (activation of D_sol).
+        let p = params();
+        let (cold, hot, phi) = (298.15, 318.15, 0.4);
+        // At the reference potential the exponential potential term is 1 at any temperature.
+        let thin = flux(&p, 0.0, phi, hot) / flux(&p, 0.0, phi, cold);
+        assert!((thin - arrhenius_factor(50e3, hot, cold)).abs() < 1e-12 * thin);
+        let thick = flux(&p, 1.0, phi, hot) / flux(&p, 1.0, phi, cold);
+        assert!((thick - arrhenius_factor(30e3, hot, cold)).abs() < 1e-6 * thick);
+    }
+
+    #[test]
     fn closed_form_growth_matches_small_steps_of_the_flux() {
         // The Deal–Grove increment must equal the integral of dδ/dt = V̄ N(δ) (derived).
         let p = params();

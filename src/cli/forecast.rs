@@ -56,11 +56,16 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
     out.write_all(text.as_bytes())?;
     print_caution(out)?;
     match &forecast.stop {
-        StopReason::Failed { cycle, detail } => Err(CliError::Forecast(format!(
-            "at {} {cycle:.0}: {detail} (the {} rows computed so far were written)",
-            if cycling { "cycle" } else { "day" },
-            forecast.points.len()
-        ))),
+        StopReason::Failed { cycle, detail } => {
+            let reached = forecast.points.last().map_or(String::new(), |p| {
+                format!("; last reported state: {:.2} % state of health, {:.2} mΩ", p.soh_pct, p.resistance_mohm)
+            });
+            Err(CliError::Forecast(format!(
+                "at {} {cycle:.0}: {detail}{reached} (the {} rows computed so far were written)",
+                if cycling { "cycle" } else { "day" },
+                forecast.points.len()
+            )))
+        }
         _ => Ok(()),
     }
 }
