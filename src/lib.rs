@@ -7,6 +7,7 @@
 pub mod aging;
 pub mod cli;
 pub mod cycle;
+pub mod ensemble;
 pub mod forecast;
 pub mod input;
 pub mod material;
