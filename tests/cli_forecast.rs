@@ -326,7 +326,6 @@ fn horizon_flags_refused_by_the_argument_parser_write_nothing() {
 
 // ...but print a multi-line usage message instead of the one-line rule.
 #[test]
-#[ignore = "clap rejects `--cycles -5` and `--cycles N --years Y` itself, with a multi-line usage message"]
 fn horizon_flag_errors_are_one_line_naming_the_flag() {
     assert_rejected(OVERNIGHT, &["--cycles", "-5"], &["--cycles", "must be positive"]);
     assert_rejected(OVERNIGHT, &["--cycles", "10", "--years", "1"], &["--cycles", "--years", "not both"]);

@@ -91,10 +91,10 @@ enum Command {
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
         /// Horizon in cycles (overrides the scenario's).
-        #[arg(long, value_name = "N", conflicts_with = "years")]
+        #[arg(long, value_name = "N", allow_negative_numbers = true)]
         cycles: Option<f64>,
         /// Horizon in years (overrides the scenario's).
-        #[arg(long, value_name = "Y")]
+        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
         years: Option<f64>,
         /// Simulate every cycle (the reference the jumping is checked against).
         #[arg(long)]

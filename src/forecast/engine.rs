@@ -159,15 +159,14 @@ impl<'a> Forecaster<'a> {
                 // First cycle (or the last end state no longer fits): reach the periodic state.
                 let mut start = scenario.clone();
                 start.ambient_k = ambient_k;
-                let (first, end) = simulate_periodic_with(&self.model, &start, health, &self.settings)
-                    .map_err(|e| format!("cycle {:.0}: {e}", x))?;
+                let (first, end) =
+                    simulate_periodic_with(&self.model, &start, health, &self.settings).map_err(|e| e.to_string())?;
                 *self.simulated.borrow_mut() += first.warmup_cycles;
                 end
             }
         };
         let run = CycleRun { duty: &scenario.duty, ambient_k, health, balance };
-        simulate_cycle(&self.model, &run, &mut state, &self.settings, record)
-            .map_err(|e| format!("cycle {:.0}: {e}", x))?;
+        simulate_cycle(&self.model, &run, &mut state, &self.settings, record).map_err(|e| e.to_string())?;
         *self.simulated.borrow_mut() += 1;
         self.log.borrow_mut().push(CycleSnapshot {
             x,
@@ -274,6 +273,26 @@ fn horizon_end(plan: &Plan, horizon: Horizon) -> Result<f64, String> {
         Horizon::Years(y) if cpd > 0.0 => Ok(y * DAYS_PER_YEAR * cpd),
         Horizon::Years(y) => Ok(y * DAYS_PER_YEAR),
     }
+}
+
+/// The reported points of a forecast as (cycle, day) pairs: the same for every sample of an
+/// ensemble that shares the plan's usage. Err when the horizon does not suit the usage.
+pub fn report_grid(plan: &Plan, horizon: Horizon, options: &ForecastOptions) -> Result<Vec<(f64, f64)>, String> {
+    let x_end = horizon_end(plan, horizon)?;
+    let points = options.report_points.max(1);
+    let spacing = x_end / points as f64;
+    let cpd = plan.usage.cycles_per_day;
+    Ok((0..=points)
+        .map(|k| {
+            // The same arithmetic as the integrators' report points.
+            let x = (k as f64 * spacing).min(x_end);
+            if cpd > 0.0 {
+                (x, x / cpd)
+            } else {
+                (0.0, x)
+            }
+        })
+        .collect())
 }
 
 /// Forecasts the scenario's fade over the horizon. Failures do not discard work: the result

@@ -5,7 +5,7 @@ pub mod engine;
 pub mod plan;
 pub mod result;
 
-pub use engine::run_forecast;
+pub use engine::{report_grid, run_forecast};
 pub use plan::{Ambient, EndOfLife, Horizon, Plan, Usage};
 pub use result::{EndOfLifePoint, FadePoint, Forecast, LifeAt, LossByMechanism, StopReason, Threshold};
 
