@@ -7,6 +7,7 @@
 use std::path::{Path, PathBuf};
 
 use fadecast::cycle::{Drive, DutyCycle, SeriesSignal, StepEnd};
+use fadecast::ensemble::{CorrelationGroup, Distribution, Sampling, UncertainParameter, UncertaintySpec};
 use fadecast::forecast::{Ambient, EndOfLife, Horizon};
 use fadecast::input::{
     detect_kind, load_cell, load_duty, load_scenario, load_series, parse_horizon, parse_override, InputError,
@@ -171,6 +172,55 @@ years = 2.5
 [end_of_life]
 capacity_pct = 70
 resistance_pct = 150
+"#;
+
+/// An uncertainty section to append to [`SCENARIO`], for a cell with [`MECHANISMS`]: one
+/// parameter of each distribution, in each of the three files, and one correlation group.
+const UNCERTAINTY: &str = r#"
+[uncertainty]
+sampling = "latin-hypercube"
+
+[[uncertainty.parameter]]
+path = "cell.negative.film.solvent_diffusivity_m2_s"
+distribution = "log-normal"
+median = 2.0e-21
+sigma_ln = 0.5
+
+[[uncertainty.parameter]]
+path = "cell.negative.particle_radius_um"
+distribution = "truncated-normal"
+mean = 5.0
+sd = 0.5
+low = 4.0
+high = 6.0
+
+[[uncertainty.parameter]]
+path = "ambient_c"
+distribution = "uniform"
+low = 20.0
+high = 30.0
+
+[[uncertainty.parameter]]
+path = "cell.resistance.ohmic_mohm"
+distribution = "normal"
+mean = 10.0
+sd = 1.0
+
+[[uncertainty.parameter]]
+path = "cell.negative.film.reaction_rate_m_s"
+distribution = "log-normal"
+median = 1.0e-15
+sigma_ln = 0.25
+
+[[uncertainty.parameter]]
+path = "profile.block.1.step.0.charge_c"
+distribution = "normal"
+mean = 0.5
+sd = 0.05
+
+[[uncertainty.correlation]]
+parameters = ["cell.negative.film.solvent_diffusivity_m2_s", "cell.negative.film.reaction_rate_m_s"]
+matrix = [[1.0, 0.5], [0.5, 1.0]]
 "#;
 
 /// The nominal capacity of [`CELL`], for loading profiles on their own.
@@ -991,6 +1041,346 @@ fn override_errors_name_set() {
     assert!(malformed.to_string().starts_with("--set: "), "{malformed}");
 }
 
+fn scenario_with_uncertainty() -> String {
+    format!("{SCENARIO}{UNCERTAINTY}")
+}
+
+/// A scenario with [`UNCERTAINTY`] (as edited) over a cell with aging mechanisms.
+fn uncertainty_files(scenario: &str) -> (Files, PathBuf) {
+    scenario_files(&cell_with_mechanisms(), PROFILE, scenario)
+}
+
+fn numbers(draws: &[(&str, f64)]) -> Vec<Override> {
+    draws.iter().map(|&(path, value)| Override::number(path, value).expect("well-formed path")).collect()
+}
+
+#[test]
+fn uncertainty_section_converts_to_the_ensemble_spec() {
+    let (_files, path) = uncertainty_files(&scenario_with_uncertainty());
+    let loaded = load_scenario(&path, &[]).expect("valid uncertainty section");
+    let parameter = |path: &str, distribution| UncertainParameter { path: path.to_string(), distribution };
+    let expected = UncertaintySpec {
+        parameters: vec![
+            parameter(
+                "cell.negative.film.solvent_diffusivity_m2_s",
+                Distribution::LogNormal { median: 2.0e-21, sigma_ln: 0.5 },
+            ),
+            parameter(
+                "cell.negative.particle_radius_um",
+                Distribution::TruncatedNormal { mean: 5.0, sd: 0.5, low: 4.0, high: 6.0 },
+            ),
+            parameter("ambient_c", Distribution::Uniform { low: 20.0, high: 30.0 }),
+            parameter("cell.resistance.ohmic_mohm", Distribution::Normal { mean: 10.0, sd: 1.0 }),
+            parameter(
+                "cell.negative.film.reaction_rate_m_s",
+                Distribution::LogNormal { median: 1.0e-15, sigma_ln: 0.25 },
+            ),
+            parameter("profile.block.1.step.0.charge_c", Distribution::Normal { mean: 0.5, sd: 0.05 }),
+        ],
+        groups: vec![CorrelationGroup { members: vec![0, 4], matrix: vec![1.0, 0.5, 0.5, 1.0] }],
+        sampling: Sampling::LatinHypercube,
+    };
+    assert_eq!(loaded.uncertainty, expected);
+
+    // Trying the paths leaves the loaded files as written.
+    let (_files, plain) = uncertainty_files(SCENARIO);
+    let without = load_scenario(&plain, &[]).expect("valid scenario");
+    assert_eq!(without.uncertainty, UncertaintySpec::default(), "no section, empty spec");
+    assert_eq!(loaded.scenario, without.scenario);
+
+    let monte_carlo = edited(&scenario_with_uncertainty(), "sampling = \"latin-hypercube\"\n", "");
+    let (_files, path) = uncertainty_files(&monte_carlo);
+    assert_eq!(load_scenario(&path, &[]).expect("valid").uncertainty.sampling, Sampling::MonteCarlo, "default");
+
+    // A truncated normal's mean may lie outside its bounds.
+    let outside = edited(&scenario_with_uncertainty(), "mean = 5.0", "mean = 9.0");
+    let (_files, path) = uncertainty_files(&outside);
+    load_scenario(&path, &[]).expect("a mean outside the bounds is allowed");
+}
+
+#[test]
+fn impossible_uncertainty_entries_name_key_rule_and_line() {
+    // (text to replace, replacement, key, rule fragment, text on the reported line)
+    let cases = [
+        (
+            "distribution = \"uniform\"",
+            "distribution = \"uniforn\"",
+            "uncertainty.parameter.2.distribution",
+            "unknown distribution `uniforn`; did you mean `uniform`? distributions: normal, log-normal, uniform, \
+             truncated-normal",
+            "uniforn",
+        ),
+        (
+            "path = \"cell.negative.particle_radius_um\"",
+            "path = \"cell.negative.partical_radius_um\"",
+            "uncertainty.parameter.1.path",
+            "`cell.negative.partical_radius_um` is not a numeric input: unknown key; did you mean \
+             `particle_radius_um`?",
+            "partical",
+        ),
+        (
+            "path = \"ambient_c\"",
+            "path = \"name\"",
+            "uncertainty.parameter.2.path",
+            "`name` is not a numeric input: it takes text in quotes",
+            "\"name\"",
+        ),
+        (
+            "path = \"profile.block.1.step.0.charge_c\"",
+            "path = \"profile.block.7.step.0.charge_c\"",
+            "uncertainty.parameter.5.path",
+            "is not a numeric input: index 7 is out of range",
+            "block.7",
+        ),
+        (
+            "path = \"ambient_c\"",
+            "path = \"uncertainty.parameter.0.median\"",
+            "uncertainty.parameter.2.path",
+            "lies inside the uncertainty section",
+            "parameter.0.median",
+        ),
+        (
+            "path = \"cell.resistance.ohmic_mohm\"",
+            "path = \" ambient_c\" # again",
+            "uncertainty.parameter.3.path",
+            "`ambient_c` is already sampled by uncertainty.parameter.2",
+            "# again",
+        ),
+        ("sd = 1.0", "sd = -1.0", "uncertainty.parameter.3.sd", "must be positive, found -1", "-1.0"),
+        (
+            "sigma_ln = 0.25",
+            "sigma_ln = -0.25",
+            "uncertainty.parameter.4.sigma_ln",
+            "must be positive, found -0.25",
+            "-0.25",
+        ),
+        (
+            "median = 2.0e-21",
+            "median = 0.0",
+            "uncertainty.parameter.0.median",
+            "must be positive, found 0",
+            "median = 0.0",
+        ),
+        (
+            "low = 4.0\nhigh = 6.0",
+            "low = 6.0\nhigh = 4.0",
+            "uncertainty.parameter.1.low",
+            "bounds in the wrong order: low 6 must be below high 4",
+            "low = 6.0",
+        ),
+        (
+            "low = 20.0",
+            "mean = 25.0\nlow = 20.0",
+            "uncertainty.parameter.2.mean",
+            "does not apply to a uniform distribution, which takes `low` and `high`",
+            "mean = 25.0",
+        ),
+        (
+            "sigma_ln = 0.25",
+            "sigma_lm = 0.25",
+            "uncertainty.parameter.4.sigma_lm",
+            "unknown key; did you mean `sigma_ln`?",
+            "sigma_lm",
+        ),
+        (
+            "mean = 10.0",
+            "mean = -10.0",
+            "uncertainty.parameter.3.mean",
+            "the central value -10 (the mean) is not a valid `cell.resistance.ohmic_mohm`: must be zero or \
+             positive, found -10",
+            "-10.0",
+        ),
+        (
+            "sampling = \"latin-hypercube\"",
+            "sampling = \"latin_hypercube\"",
+            "uncertainty.sampling",
+            "unknown sampling `latin_hypercube`; did you mean `latin-hypercube`?",
+            "latin_hypercube",
+        ),
+        (
+            "\"cell.negative.film.reaction_rate_m_s\"]",
+            "\"cell.negative.film.reaction_rate\"]",
+            "uncertainty.correlation.0.parameters",
+            "`cell.negative.film.reaction_rate` is not declared in an [[uncertainty.parameter]] entry; did you \
+             mean `cell.negative.film.reaction_rate_m_s`?",
+            "parameters =",
+        ),
+        (
+            "matrix = [[1.0, 0.5], [0.5, 1.0]]",
+            "matrix = [[1.0, 0.5], [0.5, 1.0]]\n[[uncertainty.correlation]]\n\
+             parameters = [\"ambient_c\", \"cell.negative.film.reaction_rate_m_s\"] # second\n\
+             matrix = [[1.0, 0.1], [0.1, 1.0]]",
+            "uncertainty.correlation.1.parameters",
+            "`cell.negative.film.reaction_rate_m_s` is already in uncertainty.correlation.0; a parameter belongs \
+             to at most one correlation group",
+            "# second",
+        ),
+        (
+            "matrix = [[1.0, 0.5], [0.5, 1.0]]",
+            "matrix = [[1.0, 0.5]]",
+            "uncertainty.correlation.0.matrix",
+            "must be 2 × 2, a row and a column per listed parameter; found 1 row of 2 entries",
+            "matrix =",
+        ),
+        (
+            "matrix = [[1.0, 0.5], [0.5, 1.0]]",
+            "matrix = [[1.0, 0.5], [0.4, 1.0]]",
+            "uncertainty.correlation.0.matrix",
+            "not symmetric: row 1, column 2 is 0.5 but row 2, column 1 is 0.4",
+            "matrix =",
+        ),
+        (
+            "matrix = [[1.0, 0.5], [0.5, 1.0]]",
+            "matrix = [[1.0, 0.5], [0.5, 0.9]]",
+            "uncertainty.correlation.0.matrix",
+            "row 2, column 2: the diagonal must be 1",
+            "matrix =",
+        ),
+        (
+            "matrix = [[1.0, 0.5], [0.5, 1.0]]",
+            "matrix = [[1.0, 1.5], [1.5, 1.0]]",
+            "uncertainty.correlation.0.matrix",
+            "row 1, column 2: a correlation must lie in −1–1, found 1.5",
+            "matrix =",
+        ),
+    ];
+    for (from, to, key, rule, on_line) in cases {
+        let text = edited(&scenario_with_uncertainty(), from, to);
+        let (_files, path) = uncertainty_files(&text);
+        let error = load_scenario(&path, &[]).expect_err(to);
+        assert_error(&error, &path, Some(line_of(&text, on_line)), key, rule);
+    }
+
+    // A missing value key is reported at its entry's header.
+    let text = edited(&scenario_with_uncertainty(), "sd = 1.0\n", "");
+    let (_files, path) = uncertainty_files(&text);
+    let error = load_scenario(&path, &[]).expect_err("normal without sd");
+    let header = line_of(&text, "\"cell.resistance.ohmic_mohm\"") - 1;
+    assert_error(
+        &error,
+        &path,
+        Some(header),
+        "uncertainty.parameter.3.sd",
+        "required key is missing: a normal distribution takes `mean` and `sd`",
+    );
+}
+
+#[test]
+fn central_values_valid_only_one_at_a_time_are_an_error() {
+    // Each central temperature limit is fine beside the file's other limit, but the pair
+    // puts the minimum above the maximum.
+    let section = "\n[uncertainty]\n\
+                   [[uncertainty.parameter]]\npath = \"cell.limits.min_temperature_c\"\n\
+                   distribution = \"uniform\"\nlow = 20.0\nhigh = 40.0\n\
+                   [[uncertainty.parameter]]\npath = \"cell.limits.max_temperature_c\"\n\
+                   distribution = \"uniform\"\nlow = 0.0\nhigh = 40.0\n";
+    let text = format!("{SCENARIO}{section}");
+    let (_files, path) = uncertainty_files(&text);
+    let error = load_scenario(&path, &[]).expect_err("jointly invalid central values");
+    assert_error(
+        &error,
+        &path,
+        Some(line_of(&text, "[uncertainty]")),
+        "uncertainty",
+        "the central values are valid one at a time but not together: --set: cell.limits.min_temperature_c: \
+         must be below max_temperature_c",
+    );
+}
+
+#[test]
+fn uncertainty_overrides_and_their_errors() {
+    let (_files, path) = uncertainty_files(&scenario_with_uncertainty());
+    let loaded =
+        load_scenario(&path, &overrides(&["uncertainty.sampling=monte-carlo", "uncertainty.parameter.1.sd=0.25"]))
+            .expect("overrides are valid");
+    assert_eq!(loaded.uncertainty.sampling, Sampling::MonteCarlo);
+    assert_eq!(
+        loaded.uncertainty.parameters[1].distribution,
+        Distribution::TruncatedNormal { mean: 5.0, sd: 0.25, low: 4.0, high: 6.0 }
+    );
+
+    // A sampled path takes `--set` like any other: the scenario as loaded has the value, and
+    // the distribution is unchanged.
+    let loaded =
+        load_scenario(&path, &overrides(&["cell.negative.particle_radius_um=5.5", "ambient_c=21"])).expect("valid");
+    assert_close(loaded.scenario.cell.negative.particle_radius_m, 5.5e-6);
+    assert_close(loaded.scenario.ambient_k, 21.0 + ZERO_CELSIUS_K);
+    assert_eq!(
+        loaded.uncertainty.parameters[1].distribution,
+        Distribution::TruncatedNormal { mean: 5.0, sd: 0.5, low: 4.0, high: 6.0 }
+    );
+
+    let (_files, plain) = uncertainty_files(SCENARIO);
+    let added = load_scenario(
+        &plain,
+        &overrides(&["uncertainty.sampling=latin-hypercube", "uncertainty.parameter.0.path=ambient_c"]),
+    );
+    let error = added.expect_err("an entry created by --set still needs its keys");
+    assert!(error.to_string().starts_with("--set: uncertainty.parameter"), "{error}");
+    let loaded = load_scenario(&plain, &overrides(&["uncertainty.sampling=latin-hypercube"])).expect("valid");
+    assert_eq!(loaded.uncertainty.sampling, Sampling::LatinHypercube);
+    assert!(loaded.uncertainty.parameters.is_empty());
+
+    for (text, expected) in [
+        ("uncertainty.parameter.3.sd=-1", "--set: uncertainty.parameter.3.sd: must be positive, found -1"),
+        (
+            "uncertainty.parameter.1.path=cell.negative.partical_radius_um",
+            "--set: uncertainty.parameter.1.path: `cell.negative.partical_radius_um` is not a numeric input: \
+             unknown key; did you mean `particle_radius_um`?",
+        ),
+        ("uncertainty.sampling=stratified", "--set: uncertainty.sampling: unknown sampling `stratified`"),
+        ("uncertainty.parameter.9.sd=1", "--set: uncertainty.parameter.9.sd: index 9 is out of range"),
+    ] {
+        let error = load_scenario(&path, &overrides(&[text])).expect_err(text);
+        assert!(error.to_string().starts_with(expected), "`{error}` should start with `{expected}`");
+    }
+}
+
+/// An ensemble sample is the scenario loaded with its drawn values as extra overrides.
+#[test]
+fn drawn_values_reach_the_files_they_address() {
+    let (_files, path) = uncertainty_files(&scenario_with_uncertainty());
+    let base = load_scenario(&path, &[]).expect("valid scenario");
+    let draws = numbers(&[
+        ("cell.negative.film.solvent_diffusivity_m2_s", 3.0e-21),
+        ("cell.negative.particle_radius_um", 4.5),
+        ("ambient_c", 27.5),
+        ("cell.resistance.ohmic_mohm", 11.0),
+        ("cell.negative.film.reaction_rate_m_s", 2.0e-15),
+        ("profile.block.1.step.0.charge_c", 0.6),
+    ]);
+    let sample = load_scenario(&path, &draws).expect("drawn values are valid");
+    let cell = &sample.scenario.cell;
+    assert_close(cell.negative.particle_radius_m, 4.5e-6);
+    assert_close(cell.ohmic_resistance_ohm, 11.0e-3);
+    let film = cell.aging.film.expect("film table present");
+    assert_close(film.solvent_diffusivity_m2_s, 3.0e-21);
+    assert_close(film.reaction_rate_m_s, 2.0e-15);
+    assert_close(sample.scenario.ambient_k, 27.5 + ZERO_CELSIUS_K);
+    let DutyCycle::Steps(profile) = &sample.scenario.duty else { panic!("step profile") };
+    assert_eq!(profile.steps[2].drive, Drive::Current(-0.6 * CELL_CAPACITY_COULOMB / 3600.0));
+
+    // Nothing else moves, and the spec is the file's.
+    assert_eq!(sample.uncertainty, base.uncertainty);
+    assert_eq!(cell.positive, base.scenario.cell.positive);
+    assert_eq!(cell.negative.thickness_m, base.scenario.cell.negative.thickness_m);
+    assert_eq!(sample.plan.usage.ambient_k, Ambient::Constant(27.5 + ZERO_CELSIUS_K), "the plan follows ambient_c");
+    assert_eq!((sample.plan.horizon, sample.plan.end_of_life), (base.plan.horizon, base.plan.end_of_life));
+
+    // The text form gives the same values, and a draw after a `--set` value for the same path wins.
+    let text_form = load_scenario(&path, &overrides(&["cell.negative.particle_radius_um=4.5"])).expect("valid");
+    let after_set =
+        [overrides(&["cell.negative.particle_radius_um=5.5"]), numbers(&[("cell.negative.particle_radius_um", 4.5)])]
+            .concat();
+    let drawn_last = load_scenario(&path, &after_set).expect("valid");
+    assert_eq!(text_form.scenario.cell, drawn_last.scenario.cell);
+    assert_close(drawn_last.scenario.cell.negative.particle_radius_m, 4.5e-6);
+
+    // A draw the cell rejects comes back against the path it set.
+    let error = load_scenario(&path, &numbers(&[("cell.resistance.ohmic_mohm", -1.0)])).expect_err("negative draw");
+    assert_eq!(error.to_string(), "--set: cell.resistance.ohmic_mohm: must be zero or positive, found -1");
+}
+
 #[test]
 fn detects_file_kinds() {
     let files = Files::new();
@@ -1007,7 +1397,7 @@ fn detects_file_kinds() {
 #[test]
 fn truncated_files_never_panic() {
     let files = Files::new();
-    let (cell, scenario) = (cell_with_mechanisms(), scenario_with_plan());
+    let (cell, scenario) = (cell_with_mechanisms(), format!("{}{UNCERTAINTY}", scenario_with_plan()));
     for (name, text) in [("cell.toml", cell.as_str()), ("profile.toml", PROFILE), ("scenario.toml", scenario.as_str())]
     {
         for end in (0..=text.len()).filter(|&i| text.is_char_boundary(i)) {
@@ -1056,4 +1446,28 @@ fn demo_scenarios_load() {
         .expect("the ferry demo is a scenario");
     assert!(matches!(ferry.plan.usage.ambient_k, Ambient::Monthly(_)));
     assert_eq!(ferry.scenario.cell.aging.pos_cracking, None, "switched off for nano-particles");
+
+    // The bands demo is the overnight van scenario plus an uncertainty section.
+    let find = |wanted: &str| {
+        loaded_names
+            .iter()
+            .find(|(name, _)| name.as_deref() == Some(wanted))
+            .map(|(_, loaded)| loaded)
+            .unwrap_or_else(|| panic!("{wanted} is a scenario"))
+    };
+    let (bands, overnight) = (find("van-fleet-bands.toml"), find("van-fleet-overnight.toml"));
+    assert_eq!(bands.scenario.cell, overnight.scenario.cell);
+    assert_eq!(bands.scenario.duty, overnight.scenario.duty);
+    assert_eq!(bands.scenario.ambient_k, overnight.scenario.ambient_k);
+    assert_eq!(bands.plan, overnight.plan);
+    let spread = &bands.uncertainty;
+    assert!((4..=6).contains(&spread.parameters.len()), "{spread:?}");
+    assert_eq!(spread.sampling, Sampling::LatinHypercube);
+    assert_eq!(spread.groups.len(), 1);
+    assert!(overnight.uncertainty.parameters.is_empty());
+    for (name, loaded) in &loaded_names {
+        if name.as_deref() != Some("van-fleet-bands.toml") {
+            assert_eq!(loaded.uncertainty, UncertaintySpec::default(), "{name:?}");
+        }
+    }
 }

@@ -5,7 +5,7 @@ use std::path::Path;
 use serde::Deserialize;
 
 use super::checks::Checks;
-use super::document::TomlDocument;
+use super::document::{check_shape, TomlDocument};
 use super::error::{first_problem, InputError};
 use super::mechanisms::{
     convert_active_loss, convert_calibration, convert_cracking, convert_film, convert_plating, reject_on_positive,
@@ -148,6 +148,12 @@ pub fn check_cell(path: &Path, overrides: &[Override]) -> Result<Cell, Vec<Input
     document.apply_overrides(overrides).map_err(|e| vec![e])?;
     let file: CellFile = document.deserialize().map_err(|e| vec![e])?;
     convert_cell(&document, file)
+}
+
+/// Whether `overrides` leave the cell file well-formed (known keys, values of the right
+/// type); no value is checked against its rules.
+pub(super) fn check_cell_shape(path: &Path, overrides: &[Override]) -> Result<(), InputError> {
+    check_shape::<CellFile>(path, OverrideTarget::Cell, overrides)
 }
 
 fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<InputError>> {

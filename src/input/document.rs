@@ -146,6 +146,18 @@ fn present_depth(table: &toml::Table, segments: &[&str]) -> Option<usize> {
     None
 }
 
+/// Whether the file at `path`, with `overrides` applied, has the shape `T` expects (every key
+/// known, every value of the right type), without checking any value against its rules.
+pub(crate) fn check_shape<T: DeserializeOwned>(
+    path: &Path,
+    target: OverrideTarget,
+    overrides: &[Override],
+) -> Result<(), InputError> {
+    let mut document = TomlDocument::read(path, target)?;
+    document.apply_overrides(overrides)?;
+    document.deserialize::<T>().map(drop)
+}
+
 /// Reads a whole input file as UTF-8 text.
 pub(crate) fn read_text(path: &Path) -> Result<String, InputError> {
     let bytes = std::fs::read(path).map_err(|error| InputError::unreadable(path, &error))?;

@@ -4,7 +4,7 @@ use std::path::Path;
 
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
-use super::profile::{check_profile, VoltageWindow};
+use super::profile::{check_profile, check_profile_shape, VoltageWindow};
 use super::series::load_series;
 use crate::cycle::DutyCycle;
 
@@ -32,21 +32,39 @@ pub(crate) fn check_duty(
         Some("toml") => check_profile(path, nominal_capacity_coulomb, window, overrides)
             .map(|(profile, start_soc)| (DutyCycle::Steps(profile), start_soc)),
         Some("csv") => {
-            if let Some(item) = overrides.iter().find(|o| o.target == OverrideTarget::Profile) {
-                return Err(vec![InputError::command_line(
-                    item.key(),
-                    format!(
-                        "`{}` is a CSV time series; `--set profile.…` applies only to TOML step \
-                         profiles",
-                        path.display()
-                    ),
-                )]);
-            }
+            reject_profile_overrides(path, overrides).map_err(|e| vec![e])?;
             let series = load_series(path).map_err(|e| vec![e])?;
             Ok((DutyCycle::Series(series), SERIES_START_SOC))
         }
-        _ => Err(vec![InputError::new(path, "a duty cycle must be a `.toml` step profile or a `.csv` time series")]),
+        _ => Err(vec![not_a_duty_cycle(path)]),
     }
+}
+
+/// Whether `overrides` leave the duty-cycle file well-formed (known keys, values of the right
+/// type); no value is checked against its rules. A CSV series takes no `profile.…` keys.
+pub(crate) fn check_duty_shape(path: &Path, overrides: &[Override]) -> Result<(), InputError> {
+    match extension(path).as_deref() {
+        Some("toml") => check_profile_shape(path, overrides),
+        Some("csv") => reject_profile_overrides(path, overrides),
+        _ => Err(not_a_duty_cycle(path)),
+    }
+}
+
+fn reject_profile_overrides(series_path: &Path, overrides: &[Override]) -> Result<(), InputError> {
+    match overrides.iter().find(|o| o.target == OverrideTarget::Profile) {
+        Some(item) => Err(InputError::command_line(
+            item.key(),
+            format!(
+                "`{}` is a CSV time series; `--set profile.…` applies only to TOML step profiles",
+                series_path.display()
+            ),
+        )),
+        None => Ok(()),
+    }
+}
+
+fn not_a_duty_cycle(path: &Path) -> InputError {
+    InputError::new(path, "a duty cycle must be a `.toml` step profile or a `.csv` time series")
 }
 
 /// The lower-cased extension, if any.

@@ -3,7 +3,8 @@
 //! Each loader reads one file (formats in `FORMATS.md`), applies the `--set` overrides meant
 //! for it, checks every rule and converts to the SI structs of [`crate::cycle`]. Every problem
 //! is an [`InputError`] naming the file, line and key; the `check_*` variants return all
-//! problems, the `load_*` ones the first. Loaders only read their input files.
+//! problems, the `load_*` ones the first. Loaders only read their input files. A scenario's
+//! `[uncertainty]` section becomes the [`crate::ensemble::UncertaintySpec`] of its loaded form.
 
 mod cell;
 mod checks;
@@ -18,6 +19,7 @@ mod profile;
 mod scenario;
 mod series;
 mod suggest;
+mod uncertainty;
 mod units;
 
 use std::path::Path;

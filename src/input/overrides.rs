@@ -50,6 +50,17 @@ impl Override {
     }
 }
 
+impl Override {
+    /// `path=value` for a number, as an ensemble sets each drawn value. Every finite `f64`
+    /// arrives unchanged, which formatting it as text for [`parse_override`] cannot promise:
+    /// `1e20` prints as a whole number too large for TOML and would be read as text.
+    pub fn number(path: &str, value: f64) -> Result<Self, InputError> {
+        let path = path.trim();
+        let (target, segments) = split_key_path(path)?;
+        Ok(Override { target, path: segments, value: toml::Value::Float(value), text: format!("{path}={value}") })
+    }
+}
+
 /// Parses `path.to.key=value`. The value is read as a TOML value (number, boolean, quoted
 /// string, array, inline table) and otherwise taken as plain text.
 pub fn parse_override(s: &str) -> Result<Override, InputError> {
@@ -57,21 +68,25 @@ pub fn parse_override(s: &str) -> Result<Override, InputError> {
         return Err(InputError::command_line(s.trim(), format!("expected `path.to.key=value`, found `{s}`")));
     };
     let raw_path = raw_path.trim();
-    let segments: Vec<String> = raw_path.split('.').map(|p| p.trim().to_string()).collect();
-    if segments.iter().any(String::is_empty) {
-        return Err(InputError::command_line(raw_path, "key path has an empty segment; write it as `table.key=value`"));
-    }
+    let (target, path) = split_key_path(raw_path)?;
     let raw_value = raw_value.trim();
     if raw_value.is_empty() {
         return Err(InputError::command_line(raw_path, "expected a value after `=`"));
     }
+    Ok(Override { target, path, value: parse_value(raw_value), text: s.to_string() })
+}
 
-    let (target, path) = match segments.split_first() {
+/// `cell.negative.thickness_um` → the file it addresses and the path inside that file.
+fn split_key_path(raw_path: &str) -> Result<(OverrideTarget, Vec<String>), InputError> {
+    let segments: Vec<String> = raw_path.split('.').map(|p| p.trim().to_string()).collect();
+    if segments.iter().any(String::is_empty) {
+        return Err(InputError::command_line(raw_path, "key path has an empty segment; write it as `table.key=value`"));
+    }
+    Ok(match segments.split_first() {
         Some((first, rest)) if first == "cell" && !rest.is_empty() => (OverrideTarget::Cell, rest.to_vec()),
         Some((first, rest)) if first == "profile" && !rest.is_empty() => (OverrideTarget::Profile, rest.to_vec()),
         _ => (OverrideTarget::Scenario, segments),
-    };
-    Ok(Override { target, path, value: parse_value(raw_value), text: s.to_string() })
+    })
 }
 
 fn parse_value(raw: &str) -> toml::Value {
@@ -217,6 +232,21 @@ mod tests {
         let file_reference = parsed("cell=other.toml");
         assert_eq!(file_reference.target, OverrideTarget::Scenario);
         assert_eq!(file_reference.value, toml::Value::String("other.toml".into()));
+    }
+
+    #[test]
+    fn numbers_keep_every_digit() {
+        for value in [1e20, 4.0e-22, -0.5, 6.0] {
+            let Ok(number) = Override::number(" cell.negative.particle_radius_um ", value) else {
+                panic!("well-formed path")
+            };
+            assert_eq!(number.target, OverrideTarget::Cell);
+            assert_eq!(number.path, ["negative", "particle_radius_um"]);
+            assert_eq!(number.value, toml::Value::Float(value));
+        }
+        assert!(Override::number("a..b", 1.0).is_err_and(|e| e.is_from_command_line()));
+        // The text form of 1e20 reads as a whole number too large for TOML, hence as text.
+        assert!(matches!(parsed(&format!("a={}", 1e20)).value, toml::Value::String(_)));
     }
 
     #[test]

@@ -6,7 +6,7 @@ use std::path::Path;
 use serde::Deserialize;
 
 use super::checks::Checks;
-use super::document::TomlDocument;
+use super::document::{check_shape, TomlDocument};
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
 use crate::cycle::{Drive, Step, StepEnd, StepProfile};
@@ -121,6 +121,12 @@ pub(crate) fn check_profile(
     let file: ProfileFile = document.deserialize().map_err(|e| vec![e])?;
     let amps_per_c_rate = nominal_capacity_coulomb / SECONDS_PER_HOUR;
     convert_profile(&document, file, amps_per_c_rate, window)
+}
+
+/// Whether `overrides` leave the step profile well-formed (known keys, values of the right
+/// type); no value is checked against its rules.
+pub(super) fn check_profile_shape(path: &Path, overrides: &[Override]) -> Result<(), InputError> {
+    check_shape::<ProfileFile>(path, OverrideTarget::Profile, overrides)
 }
 
 fn convert_profile(

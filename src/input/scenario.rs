@@ -1,21 +1,26 @@
 //! Scenario files: which cell runs which duty cycle under which conditions.
 //!
 //! Each section of the file is one field of [`ScenarioFile`] plus one conversion step in
-//! [`check_scenario`]; later sections slot in the same way.
+//! [`check_scenario_files`]; later sections slot in the same way. The `[uncertainty]` section
+//! takes one more step once everything else has loaded: each sampled path is tried by loading
+//! the files again with the path set (see `uncertainty.rs`).
 
 use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
 
 use super::cell::check_cell;
+use super::cell::check_cell_shape;
 use super::checks::Checks;
-use super::document::TomlDocument;
-use super::duty::check_duty;
+use super::document::{check_shape, TomlDocument};
+use super::duty::{check_duty, check_duty_shape};
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
 use super::plan::{convert_plan, EndOfLifeSection, HorizonSection, PlanSections, UsageSection, MONTH_NAMES};
 use super::profile::VoltageWindow;
+use super::uncertainty::{check_sampled_paths, convert_uncertainty, ScenarioProbe, UncertaintySection};
 use crate::cycle::{Cell, Scenario};
+use crate::ensemble::UncertaintySpec;
 use crate::forecast::{Ambient, Plan};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 
@@ -37,6 +42,7 @@ struct ScenarioFile {
     usage: Option<UsageSection>,
     horizon: Option<HorizonSection>,
     end_of_life: Option<EndOfLifeSection>,
+    uncertainty: Option<UncertaintySection>,
 }
 
 /// A scenario with everything it names loaded and checked.
@@ -45,6 +51,8 @@ pub struct LoadedScenario {
     pub scenario: Scenario,
     /// Use in calendar time, horizon and end of life, for the forecast.
     pub plan: Plan,
+    /// The inputs an ensemble draws; empty when the file has no `[uncertainty]` section.
+    pub uncertainty: UncertaintySpec,
     /// The cell and duty-cycle files as resolved against the scenario's directory.
     pub cell_path: PathBuf,
     pub profile_path: PathBuf,
@@ -54,12 +62,34 @@ pub struct LoadedScenario {
 
 /// Reads a scenario and the cell and duty cycle it names; the first problem is the error.
 /// Problems inside the cell or profile name that file.
+///
+/// One ensemble sample is this call with the drawn values appended to `overrides`, each as
+/// [`Override::number`] of its parameter's path: later overrides win, so a draw replaces the
+/// file's value and any `--set` value for the same path.
 pub fn load_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScenario, InputError> {
     check_scenario(path, overrides).map_err(first_problem)
 }
 
 /// Like [`load_scenario`], but returns every problem found across the three files.
 pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScenario, Vec<InputError>> {
+    let (document, loaded) = check_scenario_files(path, overrides)?;
+    let probe =
+        FileProbe { scenario_path: path, cell_path: &loaded.cell_path, profile_path: &loaded.profile_path, overrides };
+    let problems = check_sampled_paths(&document, &loaded.uncertainty, &probe);
+    if problems.is_empty() {
+        Ok(loaded)
+    } else {
+        Err(problems)
+    }
+}
+
+/// Everything but trying the sampled paths: the scenario file (the uncertainty section's own
+/// rules included), the cell and the duty cycle. Returns the scenario's document for reporting
+/// against it later.
+fn check_scenario_files(
+    path: &Path,
+    overrides: &[Override],
+) -> Result<(TomlDocument, LoadedScenario), Vec<InputError>> {
     let mut document = TomlDocument::read(path, OverrideTarget::Scenario).map_err(|e| vec![e])?;
     document.apply_overrides(overrides).map_err(|e| vec![e])?;
     let file: ScenarioFile = document.deserialize().map_err(|e| vec![e])?;
@@ -84,6 +114,7 @@ pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScena
             ambient_c: file.ambient_c,
         },
     );
+    let uncertainty = convert_uncertainty(&mut checks, file.uncertainty.as_ref());
     let mut problems = checks.finish(()).err().unwrap_or_default();
 
     let cell = match &cell_path {
@@ -128,13 +159,44 @@ pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScena
     }
 
     let start_soc = file.start_soc_pct.map_or(profile_start_soc, |pct| pct / 100.0);
-    Ok(LoadedScenario {
+    let loaded = LoadedScenario {
         scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc },
         plan,
+        uncertainty,
         cell_path,
         profile_path,
         warnings,
-    })
+    };
+    Ok((document, loaded))
+}
+
+/// The files a scenario named, loaded again with extra overrides after the command line's.
+struct FileProbe<'a> {
+    scenario_path: &'a Path,
+    cell_path: &'a Path,
+    profile_path: &'a Path,
+    overrides: &'a [Override],
+}
+
+impl FileProbe<'_> {
+    fn with(&self, extra: &[Override]) -> Vec<Override> {
+        self.overrides.iter().chain(extra).cloned().collect()
+    }
+}
+
+impl ScenarioProbe for FileProbe<'_> {
+    fn shape(&self, extra: &Override) -> Result<(), InputError> {
+        let overrides = self.with(std::slice::from_ref(extra));
+        match extra.target {
+            OverrideTarget::Scenario => check_shape::<ScenarioFile>(self.scenario_path, extra.target, &overrides),
+            OverrideTarget::Cell => check_cell_shape(self.cell_path, &overrides),
+            OverrideTarget::Profile => check_duty_shape(self.profile_path, &overrides),
+        }
+    }
+
+    fn load(&self, extra: &[Override]) -> Result<(), Vec<InputError>> {
+        check_scenario_files(self.scenario_path, &self.with(extra)).map(drop)
+    }
 }
 
 /// `written` resolved against the scenario's directory, if that file exists.
