@@ -2,6 +2,7 @@
 //! command, and the mapping of failures to exit codes. Handlers load inputs, call the physics
 //! and hand results to [`crate::report`]; they do no physics themselves.
 
+mod bands;
 mod check;
 mod cycle;
 mod forecast;
@@ -102,6 +103,59 @@ enum Command {
         #[command(flatten)]
         overrides: OverrideArgs,
     },
+    /// Monte Carlo bands, end-of-life distribution and warranty odds
+    ///
+    /// Draws the scenario's [uncertainty] inputs, forecasts every sample in parallel and writes
+    /// DIR/bands.csv (quantiles per reported point), DIR/samples.csv (one row per sample),
+    /// DIR/summary.json (end-of-life quantiles with Monte Carlo errors, warranty odds with a
+    /// 95 % Clopper–Pearson interval, rank correlations), DIR/bands.svg and
+    /// DIR/sensitivity.svg. Sample i draws from a stream seeded by (seed, i): the numbers do
+    /// not depend on --jobs or on the split into shards.
+    Bands {
+        /// Scenario file (TOML) with an [uncertainty] section.
+        scenario: PathBuf,
+        /// Number of samples (all shards together), 1 to 1 000 000.
+        #[arg(long, value_name = "N")]
+        samples: u64,
+        #[arg(long, value_name = "S", default_value_t = 1)]
+        seed: u64,
+        /// Worker threads (default: the machine's cores).
+        #[arg(long, value_name = "J")]
+        jobs: Option<usize>,
+        /// Run only shard K of N (sample i belongs to shard i mod N + 1); merge with `fadecast merge`.
+        #[arg(long, value_name = "K/N")]
+        shard: Option<String>,
+        /// Quantiles in percent.
+        #[arg(long, value_name = "LIST", default_value = "5,50,95")]
+        quantiles: String,
+        /// Warranty point: state of health still at least SOH_PCT after YEARS.
+        #[arg(long, value_name = "YEARS:SOH_PCT")]
+        warranty: Option<String>,
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        /// Horizon in cycles (overrides the scenario's).
+        #[arg(long, value_name = "N", allow_negative_numbers = true)]
+        cycles: Option<f64>,
+        /// Horizon in years (overrides the scenario's).
+        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
+        years: Option<f64>,
+        /// Continue the interrupted run in DIR, keeping the samples it finished.
+        #[arg(long)]
+        resume: bool,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
+        #[command(flatten)]
+        overrides: OverrideArgs,
+    },
+    /// Combine the shards of one `bands` run into the outputs of a single run
+    Merge {
+        /// The shards' output directories.
+        #[arg(required = true, value_name = "DIR")]
+        shards: Vec<PathBuf>,
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+    },
 }
 
 /// Why a command failed. [`CliError::exit_code`] says which exit code it maps to.
@@ -155,6 +209,45 @@ pub fn run() -> Result<(), CliError> {
             let config = forecast::ForecastConfig { scenario, out_dir: out, overrides, horizon, every_cycle };
             forecast::run(&config, &mut stdout)
         }
+        Command::Bands {
+            scenario,
+            samples,
+            seed,
+            jobs,
+            shard,
+            quantiles,
+            warranty,
+            out,
+            cycles,
+            years,
+            resume,
+            quiet,
+            overrides,
+        } => {
+            let overrides_text: Vec<String> = before_command.set.iter().chain(&overrides.set).cloned().collect();
+            let overrides = parse_overrides(&before_command, &overrides)?;
+            let jobs = jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+            if jobs == 0 {
+                return Err(InputError::command_line_flag("--jobs", "must be at least 1").into());
+            }
+            let config = bands::BandsConfig {
+                scenario,
+                out_dir: out,
+                overrides,
+                overrides_text,
+                samples,
+                seed,
+                jobs,
+                shard: shard.as_deref().map(bands::parse_shard).transpose()?.unwrap_or(crate::ensemble::Shard::WHOLE),
+                quantiles: bands::parse_quantiles(&quantiles)?,
+                warranty: warranty.as_deref().map(bands::parse_warranty).transpose()?,
+                horizon: input::parse_horizon(cycles, years)?,
+                resume,
+                quiet,
+            };
+            bands::run(&config, &mut stdout)
+        }
+        Command::Merge { shards, out } => bands::merge(&shards, &out, &mut stdout),
     }
 }
 

@@ -3,12 +3,26 @@
 /// A marginal distribution of one uncertain input, in the input's own (file) units.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Distribution {
-    Normal { mean: f64, sd: f64 },
+    Normal {
+        mean: f64,
+        sd: f64,
+    },
     /// ln X ~ Normal(ln median, sigma_ln²).
-    LogNormal { median: f64, sigma_ln: f64 },
-    Uniform { low: f64, high: f64 },
+    LogNormal {
+        median: f64,
+        sigma_ln: f64,
+    },
+    Uniform {
+        low: f64,
+        high: f64,
+    },
     /// Normal(mean, sd²) restricted to [low, high].
-    TruncatedNormal { mean: f64, sd: f64, low: f64, high: f64 },
+    TruncatedNormal {
+        mean: f64,
+        sd: f64,
+        low: f64,
+        high: f64,
+    },
 }
 
 /// One uncertain input, addressed by the same path `--set` uses

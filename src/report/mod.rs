@@ -3,22 +3,28 @@
 //! a half-written file.
 
 mod atomic;
+mod bands_svg;
 mod cycle_csv;
 mod cycle_svg;
+mod ensemble;
 mod fade_csv;
 mod fade_svg;
 mod forecast_json;
 mod inputs;
+mod journal;
 mod summary;
 pub mod text;
 
 pub use atomic::{write_all_atomic, write_atomic};
+pub use bands_svg::{bands_svg, sensitivity_svg};
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
 pub use cycle_svg::cycle_svg;
+pub use ensemble::{bands_csv, ensemble_json, percent_label, samples_csv};
 pub use fade_csv::fade_csv;
 pub use fade_svg::fade_svg;
 pub use forecast_json::forecast_json;
 pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
+pub use journal::{decode_journal, encode_record};
 pub use summary::{cycle_cautions, cycle_summary};
 
 use std::path::PathBuf;

@@ -1,0 +1,455 @@
+//! `fadecast bands SCENARIO --samples N`: Monte Carlo over the scenario's `[uncertainty]`
+//! section. Samples run in parallel; each finished sample is appended to `DIR/samples.journal`
+//! at once, so an interrupted run keeps its work (`--resume` continues it) and shards can be
+//! merged exactly (`fadecast merge`). `fadecast merge DIR... --out DIR` lives here too: both
+//! end in the same [`finish`], so a merged set of shards writes the same bytes as one run.
+
+use super::{print_caution, CliError};
+use crate::ensemble::Sampler;
+use crate::ensemble::{run_ensemble, summarize, EnsembleConfig, SampleRecord, Shard, Warranty};
+use crate::forecast::{report_grid, ForecastOptions, Horizon};
+use crate::input::{self, InputError, Override};
+use crate::report;
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeSet;
+use std::fmt::Write as _;
+use std::fs::{self, OpenOptions};
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+use std::sync::Mutex;
+
+pub const JOURNAL_NAME: &str = "samples.journal";
+pub const RUN_NAME: &str = "run.json";
+/// Most samples one run may ask for: a million samples keep about 1.2 GB of curves in memory.
+pub const MAX_SAMPLES: u64 = 1_000_000;
+
+pub struct BandsConfig {
+    pub scenario: PathBuf,
+    pub out_dir: PathBuf,
+    pub overrides: Vec<Override>,
+    pub overrides_text: Vec<String>,
+    pub samples: u64,
+    pub seed: u64,
+    pub jobs: usize,
+    pub shard: Shard,
+    /// Fractions, ascending.
+    pub quantiles: Vec<f64>,
+    pub warranty: Option<Warranty>,
+    pub horizon: Option<Horizon>,
+    pub resume: bool,
+    pub quiet: bool,
+}
+
+/// What a run is, written to `DIR/run.json`: shards merge only when all of it but the shard
+/// index agrees, and `--resume` only continues a run with the same description.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RunDescription {
+    pub format: u32,
+    pub scenario: String,
+    pub overrides: Vec<String>,
+    pub samples: u64,
+    pub seed: u64,
+    pub shard_index: u64,
+    pub shard_count: u64,
+    pub horizon_cycles: Option<f64>,
+    pub horizon_years: Option<f64>,
+    pub quantiles: Vec<f64>,
+    pub warranty_years: Option<f64>,
+    pub warranty_soh_pct: Option<f64>,
+    pub parameters: Vec<String>,
+    /// The uncertainty section as understood, so a changed file is caught.
+    pub specification: String,
+    pub cycling: bool,
+    pub grid: Vec<(f64, f64)>,
+    pub scenario_name: String,
+    /// Warnings raised while loading the scenario, repeated in every summary of the run.
+    pub input_warnings: Vec<String>,
+}
+
+impl RunDescription {
+    fn same_run_as(&self, other: &RunDescription) -> bool {
+        RunDescription { shard_index: 0, ..self.clone() } == RunDescription { shard_index: 0, ..other.clone() }
+    }
+}
+
+/// Parses `K/N` (1 ≤ K ≤ N).
+pub fn parse_shard(text: &str) -> Result<Shard, InputError> {
+    let bad = |rule: &str| InputError::command_line_flag("--shard", format!("{rule}, found `{text}`"));
+    let (k, n) = text.split_once('/').ok_or_else(|| bad("expected K/N, such as 2/8"))?;
+    let k: u64 = k.trim().parse().map_err(|_| bad("K must be a whole number"))?;
+    let n: u64 = n.trim().parse().map_err(|_| bad("N must be a whole number"))?;
+    if n == 0 || k == 0 || k > n {
+        return Err(bad("K must be between 1 and N"));
+    }
+    Ok(Shard { index: k, count: n })
+}
+
+/// Parses `5,50,95` (percent, strictly between 0 and 100, increasing) into fractions.
+pub fn parse_quantiles(text: &str) -> Result<Vec<f64>, InputError> {
+    let bad = |rule: String| InputError::command_line_flag("--quantiles", rule);
+    let mut out: Vec<f64> = Vec::new();
+    for part in text.split(',') {
+        let pct: f64 = part.trim().parse().map_err(|_| bad(format!("`{}` is not a number", part.trim())))?;
+        if !(pct > 0.0 && pct < 100.0) {
+            return Err(bad(format!("quantiles are percents strictly between 0 and 100, found {pct}")));
+        }
+        if out.last().is_some_and(|&last| pct / 100.0 <= last) {
+            return Err(bad("quantiles must increase".into()));
+        }
+        out.push(pct / 100.0);
+    }
+    if out.is_empty() {
+        return Err(bad("give at least one quantile".into()));
+    }
+    Ok(out)
+}
+
+/// Parses `YEARS:SOH_PCT`, such as `8:70`.
+pub fn parse_warranty(text: &str) -> Result<Warranty, InputError> {
+    let bad = |rule: &str| InputError::command_line_flag("--warranty", format!("{rule}, found `{text}`"));
+    let (years, soh) = text.split_once(':').ok_or_else(|| bad("expected YEARS:SOH_PCT, such as 8:70"))?;
+    let years: f64 = years.trim().parse().map_err(|_| bad("YEARS must be a number"))?;
+    let soh_pct: f64 = soh.trim().parse().map_err(|_| bad("SOH_PCT must be a number"))?;
+    if !(years > 0.0 && years.is_finite()) {
+        return Err(bad("YEARS must be positive"));
+    }
+    if !(soh_pct > 0.0 && soh_pct < 100.0) {
+        return Err(bad("SOH_PCT must lie strictly between 0 and 100"));
+    }
+    Ok(Warranty { years, soh_pct })
+}
+
+pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
+    if config.samples == 0 || config.samples > MAX_SAMPLES {
+        return Err(InputError::command_line_flag(
+            "--samples",
+            format!("must be between 1 and {MAX_SAMPLES}, found {}", config.samples),
+        )
+        .into());
+    }
+    let loaded = input::load_scenario(&config.scenario, &config.overrides)?;
+    let spec = loaded.uncertainty.clone();
+    if spec.parameters.is_empty() {
+        return Err(
+            InputError::new(&config.scenario, "no [uncertainty] section: nothing to sample (see FORMATS.md)").into()
+        );
+    }
+    let horizon = config.horizon.or(loaded.plan.horizon).ok_or_else(|| {
+        InputError::new(&config.scenario, "no horizon: add a [horizon] section or give --cycles N or --years Y")
+    })?;
+    let options = ForecastOptions::default();
+    let grid =
+        report_grid(&loaded.plan, horizon, &options).map_err(|rule| InputError::command_line_flag("--cycles", rule))?;
+    let horizon_years = grid.last().map_or(0.0, |g| g.1 / 365.25);
+    if let Some(w) = config.warranty {
+        if w.years > horizon_years * (1.0 + 1e-9) {
+            return Err(InputError::command_line_flag(
+                "--warranty",
+                format!("the warranty point at {} years lies beyond the horizon of {horizon_years:.2} years", w.years),
+            )
+            .into());
+        }
+    }
+    let sampler = Sampler::new(&spec, config.seed, config.samples)
+        .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?;
+    let description = RunDescription {
+        format: 1,
+        scenario: config.scenario.display().to_string(),
+        overrides: config.overrides_text.clone(),
+        samples: config.samples,
+        seed: config.seed,
+        shard_index: config.shard.index,
+        shard_count: config.shard.count,
+        horizon_cycles: match horizon {
+            Horizon::Cycles(c) => Some(c),
+            Horizon::Years(_) => None,
+        },
+        horizon_years: match horizon {
+            Horizon::Years(y) => Some(y),
+            Horizon::Cycles(_) => None,
+        },
+        quantiles: config.quantiles.clone(),
+        warranty_years: config.warranty.map(|w| w.years),
+        warranty_soh_pct: config.warranty.map(|w| w.soh_pct),
+        parameters: spec.parameters.iter().map(|p| p.path.clone()).collect(),
+        specification: format!("{spec:?}"),
+        cycling: loaded.plan.usage.cycles_per_day > 0.0,
+        grid: grid.clone(),
+        scenario_name: loaded.scenario.name.clone(),
+        input_warnings: loaded.warnings.clone(),
+    };
+
+    let journal_path = config.out_dir.join(JOURNAL_NAME);
+    let mut previous = Vec::new();
+    if config.resume {
+        let earlier = read_description(&config.out_dir)?;
+        if !earlier.same_run_as(&description) || earlier.shard_index != description.shard_index {
+            return Err(InputError::command_line_flag(
+                "--resume",
+                format!(
+                    "{} holds a different run (scenario, options or uncertainty changed); start a new --out",
+                    config.out_dir.display()
+                ),
+            )
+            .into());
+        }
+        previous = report::decode_journal(&fs::read(&journal_path).unwrap_or_default());
+    }
+    fs::create_dir_all(&config.out_dir)
+        .map_err(|source| report::ReportError::Io { path: config.out_dir.clone(), source })?;
+    report::write_atomic(
+        &config.out_dir,
+        RUN_NAME,
+        &serde_json::to_vec_pretty(&description).map_err(report::ReportError::from)?,
+    )?;
+    // Rewrite the journal with only its whole records before appending to it.
+    let mut journal_bytes = Vec::new();
+    for record in &previous {
+        journal_bytes.extend(report::encode_record(record));
+    }
+    report::write_atomic(&config.out_dir, JOURNAL_NAME, &journal_bytes)?;
+    let journal = OpenOptions::new()
+        .append(true)
+        .open(&journal_path)
+        .map_err(|source| report::ReportError::Io { path: journal_path.clone(), source })?;
+    let journal = Mutex::new(journal);
+    let write_error = Mutex::new(None);
+
+    let done: BTreeSet<u64> = previous.iter().map(|r| r.index).collect();
+    let todo = (0..config.samples).filter(|&i| config.shard.contains(i) && !done.contains(&i)).count() as u64;
+    let progress = if config.quiet || !std::io::stderr().is_terminal() {
+        indicatif::ProgressBar::hidden()
+    } else {
+        let bar = indicatif::ProgressBar::new(todo);
+        if let Ok(style) =
+            indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} samples  {elapsed} elapsed, {eta} to go")
+        {
+            bar.set_style(style);
+        }
+        bar
+    };
+    let scenario_path = config.scenario.clone();
+    let base_overrides = config.overrides.clone();
+    let parameters = description.parameters.clone();
+    // One sample's inputs: the scenario files with the drawn values as overrides, so every
+    // input rule applies to drawn values too.
+    let build = |values: &[f64]| {
+        let mut overrides = base_overrides.clone();
+        for (path, value) in parameters.iter().zip(values) {
+            overrides.push(input::parse_override(&format!("{path}={value:e}")).map_err(|e| e.to_string())?);
+        }
+        let loaded = input::load_scenario(&scenario_path, &overrides).map_err(|e| e.to_string())?;
+        Ok((loaded.scenario, loaded.plan))
+    };
+    let ensemble = EnsembleConfig {
+        samples: config.samples,
+        seed: config.seed,
+        shard: config.shard,
+        horizon,
+        warranty: config.warranty,
+        options,
+    };
+    let observe = |record: &SampleRecord| {
+        let bytes = report::encode_record(record);
+        if let Ok(mut file) = journal.lock() {
+            if let Err(e) = file.write_all(&bytes) {
+                if let Ok(mut slot) = write_error.lock() {
+                    slot.get_or_insert(e);
+                }
+            }
+        }
+        progress.inc(1);
+    };
+    let fresh = run_ensemble(&sampler, &ensemble, &build, config.jobs, &done, &observe)
+        .map_err(|e| CliError::Forecast(format!("could not start {} worker threads: {e}", config.jobs)))?;
+    progress.finish_and_clear();
+    if let Some(e) = write_error.into_inner().ok().flatten() {
+        return Err(report::ReportError::Io { path: journal_path, source: e }.into());
+    }
+    let mut records = previous;
+    records.extend(fresh);
+    records.sort_by_key(|r| r.index);
+    finish(&description, &records, &config.out_dir, out)
+}
+
+fn read_description(dir: &Path) -> Result<RunDescription, CliError> {
+    let path = dir.join(RUN_NAME);
+    let text = fs::read_to_string(&path).map_err(|e| InputError::unreadable(&path, &e))?;
+    serde_json::from_str(&text)
+        .map_err(|e| InputError::new(&path, format!("not a fadecast run description: {e}")).into())
+}
+
+/// Writes every output of a run from its records (sorted by index): the same bytes whatever
+/// the thread count, shard split or interruptions that produced them.
+fn finish(
+    description: &RunDescription,
+    records: &[SampleRecord],
+    out_dir: &Path,
+    out: &mut impl Write,
+) -> Result<(), CliError> {
+    let quantiles = &description.quantiles;
+    let warranty = match (description.warranty_years, description.warranty_soh_pct) {
+        (Some(years), Some(soh_pct)) => Some(Warranty { years, soh_pct }),
+        _ => None,
+    };
+    let summary = summarize(records, &description.parameters, quantiles, &description.grid, warranty);
+    let mut warnings: Vec<String> = description.input_warnings.clone();
+    let complete = records.len() as u64
+        == (0..description.samples)
+            .filter(|&i| (Shard { index: description.shard_index, count: description.shard_count }).contains(i))
+            .count() as u64;
+    if description.shard_count > 1 {
+        warnings.push(format!(
+            "shard {}/{}: these outputs cover this shard's samples only; merge all shards with `fadecast merge`",
+            description.shard_index, description.shard_count
+        ));
+    }
+    if summary.invalid > 0 {
+        warnings.push(format!(
+            "{} samples drew inputs that break an input rule and were left out (see samples.csv)",
+            summary.invalid
+        ));
+    }
+    if summary.failed > 0 {
+        warnings.push(format!("{} samples stopped before the horizon (see samples.csv)", summary.failed));
+    }
+    if summary.plating_fraction > 0.0 {
+        warnings.push(format!(
+            "lithium plating predicted in {:.1} % of samples: a safety concern, not only a capacity loss; check the charge protocol against the cell maker's limits and the applicable standards",
+            100.0 * summary.plating_fraction
+        ));
+    }
+    if !complete {
+        warnings.push("the run is incomplete; continue it with --resume".into());
+    }
+    let run_value = serde_json::json!({
+        "scenario": description.scenario_name,
+        "samples": description.samples,
+        "seed": description.seed,
+        "shard": format!("{}/{}", description.shard_index, description.shard_count),
+        "parameters": description.parameters,
+    });
+    let bands = report::bands_csv(&summary)?;
+    let samples = report::samples_csv(records, &description.parameters, warranty.is_some())?;
+    let json = report::ensemble_json(&summary, &run_value, &warnings)?;
+    let bands_plot =
+        report::bands_svg(&summary, &format!("{}: fade bands", description.scenario_name), description.cycling)?;
+    let sensitivity = report::sensitivity_svg(&summary, &format!("{}: what drives life", description.scenario_name))?;
+    let mut journal = Vec::new();
+    for record in records {
+        journal.extend(report::encode_record(record));
+    }
+    let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
+    let written = report::write_all_atomic(
+        out_dir,
+        &[
+            ("bands.csv", bands.as_slice()),
+            ("samples.csv", samples.as_slice()),
+            ("summary.json", json.as_slice()),
+            ("bands.svg", bands_plot.as_bytes()),
+            ("sensitivity.svg", sensitivity.as_bytes()),
+            (RUN_NAME, description_bytes.as_slice()),
+            (JOURNAL_NAME, journal.as_slice()),
+        ],
+    )?;
+
+    let mut text = format!("{}: {} samples (seed {})\n", description.scenario, summary.samples, description.seed);
+    let _ = writeln!(
+        text,
+        "  counted {}, invalid draws {}, stopped early {}",
+        summary.counted, summary.invalid, summary.failed
+    );
+    for life in &summary.life {
+        let _ = write!(text, "  end of life ({}), reached by {:.1} %:", life.threshold, 100.0 * life.reached_fraction);
+        for (c, y) in life.cycles.iter().zip(&life.years) {
+            let p = report::percent_label(c.p);
+            match (c.value, y.value) {
+                (Some(cv), Some(yv)) => {
+                    let _ =
+                        write!(text, "  P{p} {cv:.0} cycles ({yv:.2} y ± {:.2})", y.standard_error.unwrap_or(f64::NAN));
+                }
+                _ => {
+                    let _ = write!(text, "  P{p} not reached");
+                }
+            }
+        }
+        text.push('\n');
+    }
+    if let Some(w) = &summary.warranty {
+        let _ = writeln!(
+            text,
+            "  warranty {} years at {} %: met by {:.1} % of samples (95 % interval {:.1}–{:.1} %, {} of {})",
+            w.years,
+            w.soh_pct,
+            100.0 * w.probability,
+            100.0 * w.interval_95.0,
+            100.0 * w.interval_95.1,
+            w.met,
+            w.trials
+        );
+    }
+    let _ = writeln!(text, "  strongest influence on {}:", summary.sensitivity_measure);
+    for s in summary.sensitivity.iter().take(5) {
+        let _ = writeln!(text, "    {:+.2}  {}", s.rank_correlation, s.path);
+    }
+    for w in &warnings {
+        let _ = writeln!(text, "\n{w}");
+    }
+    let names: Vec<String> = written.iter().take(5).map(|p| p.display().to_string()).collect();
+    let _ = writeln!(text, "\nWrote {}", names.join(", "));
+    out.write_all(text.as_bytes())?;
+    print_caution(out)?;
+    Ok(())
+}
+
+/// `fadecast merge DIR... --out DIR`: combines the shards of one run exactly.
+pub fn merge(dirs: &[PathBuf], out_dir: &Path, out: &mut impl Write) -> Result<(), CliError> {
+    let mut descriptions = Vec::new();
+    let mut records = Vec::new();
+    for dir in dirs {
+        let d = read_description(dir)?;
+        let journal = dir.join(JOURNAL_NAME);
+        let shard_records =
+            report::decode_journal(&fs::read(&journal).map_err(|e| InputError::unreadable(&journal, &e))?);
+        let shard = Shard { index: d.shard_index, count: d.shard_count };
+        let expected = (0..d.samples).filter(|&i| shard.contains(i)).count();
+        if shard_records.len() != expected || shard_records.iter().any(|r| !shard.contains(r.index)) {
+            return Err(InputError::new(
+                &journal,
+                format!(
+                    "shard {}/{} holds {} of its {expected} samples; finish it with --resume first",
+                    d.shard_index,
+                    d.shard_count,
+                    shard_records.len()
+                ),
+            )
+            .into());
+        }
+        records.extend(shard_records);
+        descriptions.push((dir.clone(), d));
+    }
+    let Some((_, first)) = descriptions.first() else {
+        return Err(InputError::command_line_flag("merge", "give the shard directories to merge").into());
+    };
+    let first = first.clone();
+    for (dir, d) in &descriptions {
+        if !d.same_run_as(&first) {
+            return Err(InputError::new(
+                dir.join(RUN_NAME),
+                "not a shard of the same run (scenario, samples, seed or options differ)",
+            )
+            .into());
+        }
+    }
+    let indices: BTreeSet<u64> = descriptions.iter().map(|(_, d)| d.shard_index).collect();
+    if indices.len() != descriptions.len() || indices.len() as u64 != first.shard_count {
+        return Err(InputError::command_line_flag(
+            "merge",
+            format!("need each of the {} shards exactly once, found shards {:?}", first.shard_count, indices),
+        )
+        .into());
+    }
+    records.sort_by_key(|r| r.index);
+    let whole = RunDescription { shard_index: 1, shard_count: 1, ..first };
+    finish(&whole, &records, out_dir, out)
+}
