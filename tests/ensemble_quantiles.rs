@@ -1,0 +1,76 @@
+//! Quantile equivariance: with one uncertain input that moves end of life monotonically, the
+//! Monte Carlo end-of-life quantiles equal the deterministic forecast at that input's own
+//! quantiles, within their Monte Carlo standard errors. The input's quantiles come from statrs'
+//! inverse distribution function (a general-purpose reference library).
+
+use fadecast::ensemble::{run_ensemble, summarize, Distribution, EnsembleConfig, Sampler, Sampling, Shard};
+use fadecast::ensemble::{UncertainParameter, UncertaintySpec};
+use fadecast::forecast::{run_forecast, ForecastOptions, Horizon, Threshold};
+use fadecast::input::{load_scenario, parse_override, Override};
+use statrs::distribution::{ContinuousCDF, LogNormal};
+use std::collections::BTreeSet;
+use std::path::Path;
+
+const SCENARIO: &str = "examples/lab-cccv-1c.toml";
+const PATH: &str = "cell.negative.film.solvent_diffusivity_m2_s";
+/// A threshold the lab cell reaches well inside 3000 cycles.
+const THRESHOLD: &str = "end_of_life.capacity_pct=97";
+const MEDIAN: f64 = 4.0e-22;
+const SIGMA_LN: f64 = 0.3;
+
+fn load_with(diffusivity: f64) -> Result<(fadecast::cycle::Scenario, fadecast::forecast::Plan), String> {
+    let overrides: Vec<Override> =
+        [THRESHOLD.to_string(), format!("{PATH}={diffusivity:e}")].iter().map(|o| parse_override(o).unwrap()).collect();
+    let loaded = load_scenario(Path::new(SCENARIO), &overrides).map_err(|e| e.to_string())?;
+    Ok((loaded.scenario, loaded.plan))
+}
+
+fn deterministic_life(diffusivity: f64, horizon: Horizon) -> f64 {
+    let (scenario, plan) = load_with(diffusivity).unwrap();
+    let f = run_forecast(&scenario, &plan, horizon, &ForecastOptions::default());
+    f.end_of_life.iter().find(|e| e.threshold == Threshold::Capacity).and_then(|e| e.reached).expect("end of life reached").cycles
+}
+
+#[test]
+fn end_of_life_quantiles_match_the_forecast_at_the_input_quantiles() {
+    let spec = UncertaintySpec {
+        parameters: vec![UncertainParameter {
+            path: PATH.into(),
+            distribution: Distribution::LogNormal { median: MEDIAN, sigma_ln: SIGMA_LN },
+        }],
+        groups: Vec::new(),
+        sampling: Sampling::MonteCarlo,
+    };
+    let samples = 240;
+    let horizon = Horizon::Cycles(3000.0);
+    let sampler = Sampler::new(&spec, 11, samples).unwrap();
+    let config = EnsembleConfig {
+        samples,
+        seed: 11,
+        shard: Shard::WHOLE,
+        horizon,
+        warranty: None,
+        options: ForecastOptions::default(),
+    };
+    let build = |values: &[f64]| load_with(values[0]);
+    let records = run_ensemble(&sampler, &config, &build, 2, &BTreeSet::new(), &|_| {}).unwrap();
+    let quantiles = [0.1, 0.5, 0.9];
+    let summary = summarize(&records, &[PATH.to_string()], &quantiles, &[], None);
+    let life = summary.life.iter().find(|l| l.threshold == "capacity").unwrap();
+    assert_eq!(life.reached_fraction, 1.0, "every sample must reach end of life for the check");
+    let input = LogNormal::new(MEDIAN.ln(), SIGMA_LN).unwrap();
+    for estimate in &life.cycles {
+        // Faster solvent diffusion ages faster: life quantile p sits at input quantile 1 − p.
+        let at = input.inverse_cdf(1.0 - estimate.p);
+        let expected = deterministic_life(at, horizon);
+        let value = estimate.value.unwrap();
+        let error = estimate.standard_error.unwrap();
+        assert!(
+            (value - expected).abs() <= 3.0 * error + 2.0,
+            "P{}: Monte Carlo {value:.1} ± {error:.1} cycles, forecast at the input quantile {expected:.1}",
+            estimate.p * 100.0
+        );
+    }
+    // The sensitivity sees the one input, pointing the right way.
+    assert!(summary.sensitivity[0].rank_correlation < -0.99, "{:?}", summary.sensitivity);
+}
