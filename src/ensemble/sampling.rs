@@ -9,6 +9,8 @@
 //! order samples are drawn in, or on how the index range is split into shards. (For Latin
 //! hypercube sampling they also depend on the total sample count, which fixes the strata;
 //! every shard must therefore build its [`Sampler`] with the run's total, not its share.)
+//! Draws are bit-identical for a given `Cargo.lock`; a rand release that changed how
+//! `Open01` or `random_range` turn generator output into numbers would change them.
 //!
 //! # Method
 //!
@@ -235,15 +237,16 @@ impl Sampler {
         assert!(index < self.samples, "sample index {index} is out of range: the sampler has {} samples", self.samples);
         assert_eq!(values.len(), self.marginals.len(), "the buffer must hold one value per uncertain parameter");
 
-        // One uniform per parameter, always in spec order, so a parameter's draw does not
-        // depend on how the parameters are grouped.
+        // One uniform per parameter, always in spec order: the independent uniforms do not
+        // depend on how parameters are grouped, only on (seed, index).
         let mut rng = sample_stream(self.seed, index);
         for (parameter, value) in values.iter_mut().enumerate() {
-            let jitter: f64 = rng.sample(Open01);
+            let uniform: f64 = rng.sample(Open01);
             let u = match &self.design {
-                Design::MonteCarlo => jitter,
+                Design::MonteCarlo => uniform,
+                // The uniform places the sample at random within its stratum.
                 Design::LatinHypercube { strata } => {
-                    (f64::from(strata[parameter][index as usize]) + jitter) / self.samples as f64
+                    (f64::from(strata[parameter][index as usize]) + uniform) / self.samples as f64
                 }
             };
             *value = clamp_probability(u);

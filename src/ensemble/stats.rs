@@ -85,10 +85,11 @@ pub fn quantile_standard_error(sorted: &[f64], p: f64) -> f64 {
     }
 }
 
-/// Sortedness is the caller's promise; checking it costs O(n), so only debug builds do.
+/// Sortedness is the caller's promise; checking it costs O(n), so only debug builds do. NaN
+/// pairs are not judged (`f64::total_cmp` puts negative NaN first, positive NaN last).
 fn debug_assert_sorted(sorted: &[f64]) {
     debug_assert!(
-        sorted.windows(2).all(|pair| rank_order(pair[0], pair[1]) != Ordering::Greater),
+        sorted.windows(2).all(|pair| pair[0].partial_cmp(&pair[1]) != Some(Ordering::Greater)),
         "the samples must be sorted ascending"
     );
 }
@@ -160,7 +161,7 @@ fn beta_tail_quantile(beta: &Beta, tail: Tail, probability: f64) -> f64 {
         Tail::Upper => probability - beta.sf(x),
     };
     let (mut below, mut above) = (0.0_f64, 1.0_f64);
-    // Start at the mean; Newton gets close from there in a few steps for any shapes.
+    // Start at the mean, inside the bulk of the distribution where the density is not tiny.
     let mut x = beta.shape_a() / (beta.shape_a() + beta.shape_b());
     let mut last_step = f64::INFINITY;
     for _ in 0..MAX_ROOT_STEPS {
@@ -191,8 +192,8 @@ fn beta_tail_quantile(beta: &Beta, tail: Tail, probability: f64) -> f64 {
 }
 
 /// Bisection alone resolves any double in (0, 1) to full precision within about 1100 halvings
-/// (down to the smallest subnormal); Newton normally finishes in under 20. The cap only
-/// bounds a pathological case.
+/// (down to the smallest subnormal); with Newton steps the tested cases take 10 to 75. The
+/// cap only bounds a pathological case.
 const MAX_ROOT_STEPS: usize = 1200;
 
 /// Spearman's rank correlation of paired samples: the Pearson correlation of their ranks,
