@@ -335,10 +335,13 @@ fn finish(
     let bands_plot =
         report::bands_svg(&summary, &format!("{}: fade bands", description.scenario_name), description.cycling)?;
     let sensitivity = report::sensitivity_svg(&summary, &format!("{}: what drives life", description.scenario_name))?;
-    let mut journal = Vec::new();
-    for record in records {
-        journal.extend(report::encode_record(record));
-    }
+    // The journal, sorted by sample, streamed: at 100 000 samples it is as large as the records.
+    report::write_atomic_streamed(out_dir, JOURNAL_NAME, |w| {
+        for record in records {
+            w.write_all(&report::encode_record(record))?;
+        }
+        Ok(())
+    })?;
     let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
     let written = report::write_all_atomic(
         out_dir,
@@ -349,7 +352,6 @@ fn finish(
             ("bands.svg", bands_plot.as_bytes()),
             ("sensitivity.svg", sensitivity.as_bytes()),
             (RUN_NAME, description_bytes.as_slice()),
-            (JOURNAL_NAME, journal.as_slice()),
         ],
     )?;
 

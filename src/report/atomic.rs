@@ -41,6 +41,30 @@ pub fn write_all_atomic(dir: &Path, files: &[(&str, &[u8])]) -> Result<Vec<PathB
     Ok(staged.into_iter().map(|(_, final_path)| final_path).collect())
 }
 
+/// Writes one file atomically by streaming it through `fill` (for outputs too large to hold
+/// twice in memory); the file appears under its name only once `fill` has succeeded.
+pub fn write_atomic_streamed(
+    dir: &Path,
+    name: &str,
+    fill: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+) -> Result<PathBuf, ReportError> {
+    fs::create_dir_all(dir).map_err(|source| ReportError::Io { path: dir.to_path_buf(), source })?;
+    let final_path = dir.join(name);
+    let temp_path = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let result = (|| {
+        let mut writer = std::io::BufWriter::new(File::create(&temp_path)?);
+        fill(&mut writer)?;
+        let file = writer.into_inner().map_err(|e| e.into_error())?;
+        file.sync_all()?;
+        fs::rename(&temp_path, &final_path)
+    })();
+    result.map_err(|source| {
+        let _ = fs::remove_file(&temp_path);
+        ReportError::Io { path: final_path.clone(), source }
+    })?;
+    Ok(final_path)
+}
+
 fn write_synced(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let mut file = File::create(path)?;
     file.write_all(bytes)?;

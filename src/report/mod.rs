@@ -15,7 +15,7 @@ mod journal;
 mod summary;
 pub mod text;
 
-pub use atomic::{write_all_atomic, write_atomic};
+pub use atomic::{write_all_atomic, write_atomic, write_atomic_streamed};
 pub use bands_svg::{bands_svg, sensitivity_svg};
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
 pub use cycle_svg::cycle_svg;
