@@ -29,10 +29,12 @@ pub struct AgingState {
     pub pos_active_lost: f64,
     /// Charge delivered on discharge so far, Ah (gives equivalent full cycles).
     pub throughput_ah: f64,
+    /// Energy delivered on discharge so far, Wh.
+    pub energy_wh: f64,
 }
 
 /// Number of components of [`AgingState`] as a vector.
-pub const STATE_LEN: usize = 12;
+pub const STATE_LEN: usize = 13;
 
 impl AgingState {
     /// The fresh cell.
@@ -61,6 +63,7 @@ impl AgingState {
             self.neg_active_lost,
             self.pos_active_lost,
             self.throughput_ah,
+            self.energy_wh,
         ]
     }
 
@@ -78,6 +81,7 @@ impl AgingState {
             neg_active_lost: v[9],
             pos_active_lost: v[10],
             throughput_ah: v[11],
+            energy_wh: v[12],
         }
     }
 

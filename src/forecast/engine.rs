@@ -138,6 +138,7 @@ impl<'a> Forecaster<'a> {
             mechanism.add_rates(&context, state, &mut rate);
         }
         rate.throughput_ah = cycle.map_or(0.0, |r| r.charge_out_coulomb / SECONDS_PER_HOUR);
+        rate.energy_wh = cycle.map_or(0.0, |r| r.energy_out_j / SECONDS_PER_HOUR);
         Ok(rate)
     }
 
@@ -197,6 +198,7 @@ impl<'a> Forecaster<'a> {
             day: self.day(x),
             efc: state.throughput_ah / fresh_capacity_ah,
             throughput_ah: state.throughput_ah,
+            energy_wh: state.energy_wh,
             capacity_ah,
             duty_capacity_ah: snapshot.map_or(0.0, |s| s.duty_capacity_ah),
             soh_pct: 100.0 * capacity_ah / fresh_capacity_ah,

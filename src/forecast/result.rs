@@ -12,6 +12,8 @@ pub struct FadePoint {
     pub efc: f64,
     /// Discharge throughput, Ah.
     pub throughput_ah: f64,
+    /// Energy delivered on discharge, Wh.
+    pub energy_wh: f64,
     /// Capacity at reference conditions (low rate, reference temperature, voltage window), Ah.
     pub capacity_ah: f64,
     /// Capacity delivered under the duty cycle itself (last simulated cycle at or before this
