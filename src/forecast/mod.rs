@@ -22,6 +22,6 @@ pub struct ForecastOptions {
 
 impl Default for ForecastOptions {
     fn default() -> Self {
-        ForecastOptions { every_cycle: false, report_points: 100, relative_tolerance: 1e-3 }
+        ForecastOptions { every_cycle: false, report_points: 100, relative_tolerance: 3e-4 }
     }
 }
