@@ -41,8 +41,11 @@ fn timed_run(samples: u64, jobs: usize) -> (f64, Vec<SampleRecord>) {
     };
     let paths: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
     let build = |values: &[f64]| {
-        let overrides: Vec<_> =
-            paths.iter().zip(values).map(|(p, v)| parse_override(&format!("{p}={v:e}")).map_err(|e| e.to_string())).collect::<Result<_, _>>()?;
+        let overrides: Vec<_> = paths
+            .iter()
+            .zip(values)
+            .map(|(p, v)| parse_override(&format!("{p}={v:e}")).map_err(|e| e.to_string()))
+            .collect::<Result<_, _>>()?;
         let loaded = load_scenario(Path::new(SCENARIO), &overrides).map_err(|e| e.to_string())?;
         Ok((loaded.scenario, loaded.plan))
     };
@@ -58,10 +61,14 @@ fn main() {
     let (two, records_two) = timed_run(1000, 2);
     let (one, records_one) = timed_run(1000, 1);
     // Compared as journal bytes: NaN fields (no warranty point) never compare equal as floats.
-    let bytes = |records: &[SampleRecord]| records.iter().flat_map(fadecast::report::encode_record).collect::<Vec<u8>>();
+    let bytes =
+        |records: &[SampleRecord]| records.iter().flat_map(fadecast::report::encode_record).collect::<Vec<u8>>();
     assert!(bytes(&records_one) == bytes(&records_two), "records must not depend on the thread count");
     let ok = records_two.iter().filter(|r| r.status == SampleStatus::Ok).count();
-    println!("1000 samples × 5000 cycles: 2 jobs {two:.1} s, 1 job {one:.1} s, speed-up {:.2}× ({ok} samples ok)", one / two);
+    println!(
+        "1000 samples × 5000 cycles: 2 jobs {two:.1} s, 1 job {one:.1} s, speed-up {:.2}× ({ok} samples ok)",
+        one / two
+    );
 
     // Synthetic records of the real size: 101 reported points, six drawn values.
     let loaded = load_scenario(Path::new(SCENARIO), &[]).unwrap();
@@ -81,7 +88,11 @@ fn main() {
                 resistance_growth_at_horizon_pct: 30.0,
                 soh_at_warranty_pct: 80.0,
                 plating: false,
-                curves: (0..grid.len()).map(|k| [5.0 - k as f32 * 0.01, 100.0 - k as f32 * 0.2 * (1.0 + wobble as f32), 16.0 + k as f32 * 0.05]).collect(),
+                curves: (0..grid.len())
+                    .map(|k| {
+                        [5.0 - k as f32 * 0.01, 100.0 - k as f32 * 0.2 * (1.0 + wobble as f32), 16.0 + k as f32 * 0.05]
+                    })
+                    .collect(),
             }
         })
         .collect();

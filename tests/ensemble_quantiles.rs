@@ -28,7 +28,12 @@ fn load_with(diffusivity: f64) -> Result<(fadecast::cycle::Scenario, fadecast::f
 fn deterministic_life(diffusivity: f64, horizon: Horizon) -> f64 {
     let (scenario, plan) = load_with(diffusivity).unwrap();
     let f = run_forecast(&scenario, &plan, horizon, &ForecastOptions::default());
-    f.end_of_life.iter().find(|e| e.threshold == Threshold::Capacity).and_then(|e| e.reached).expect("end of life reached").cycles
+    f.end_of_life
+        .iter()
+        .find(|e| e.threshold == Threshold::Capacity)
+        .and_then(|e| e.reached)
+        .expect("end of life reached")
+        .cycles
 }
 
 #[test]

@@ -49,6 +49,24 @@ struct OverrideArgs {
     set: Vec<String>,
 }
 
+/// `--cycles N | --years Y`: a horizon that overrides the scenario's. Checked by fadecast
+/// itself (not clap), so a negative or doubled horizon gets the one-line input error.
+#[derive(Debug, Args)]
+struct HorizonArgs {
+    /// Horizon in cycles (overrides the scenario's).
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
+    cycles: Option<f64>,
+    /// Horizon in years (overrides the scenario's).
+    #[arg(long, value_name = "Y", allow_negative_numbers = true)]
+    years: Option<f64>,
+}
+
+impl HorizonArgs {
+    fn parse(&self) -> Result<Option<crate::forecast::Horizon>, InputError> {
+        input::parse_horizon(self.cycles, self.years)
+    }
+}
+
 #[derive(Debug, Subcommand)]
 enum Command {
     /// Load input files and print what they describe
@@ -91,12 +109,8 @@ enum Command {
         /// Directory for the outputs; created if missing.
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
-        /// Horizon in cycles (overrides the scenario's).
-        #[arg(long, value_name = "N", allow_negative_numbers = true)]
-        cycles: Option<f64>,
-        /// Horizon in years (overrides the scenario's).
-        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
-        years: Option<f64>,
+        #[command(flatten)]
+        horizon: HorizonArgs,
         /// Simulate every cycle (the reference the jumping is checked against).
         #[arg(long)]
         every_cycle: bool,
@@ -133,12 +147,8 @@ enum Command {
         warranty: Option<String>,
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
-        /// Horizon in cycles (overrides the scenario's).
-        #[arg(long, value_name = "N", allow_negative_numbers = true)]
-        cycles: Option<f64>,
-        /// Horizon in years (overrides the scenario's).
-        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
-        years: Option<f64>,
+        #[command(flatten)]
+        horizon: HorizonArgs,
         /// Continue the interrupted run in DIR, keeping the samples it finished.
         #[arg(long)]
         resume: bool,
@@ -203,9 +213,9 @@ pub fn run() -> Result<(), CliError> {
             let overrides = parse_overrides(&before_command, &overrides)?;
             cycle::run(&cycle::CycleConfig { scenario, out_dir: out, overrides }, &mut stdout)
         }
-        Command::Forecast { scenario, out, cycles, years, every_cycle, overrides } => {
+        Command::Forecast { scenario, out, horizon, every_cycle, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
-            let horizon = input::parse_horizon(cycles, years)?;
+            let horizon = horizon.parse()?;
             let config = forecast::ForecastConfig { scenario, out_dir: out, overrides, horizon, every_cycle };
             forecast::run(&config, &mut stdout)
         }
@@ -218,8 +228,7 @@ pub fn run() -> Result<(), CliError> {
             quantiles,
             warranty,
             out,
-            cycles,
-            years,
+            horizon,
             resume,
             quiet,
             overrides,
@@ -241,7 +250,7 @@ pub fn run() -> Result<(), CliError> {
                 shard: shard.as_deref().map(bands::parse_shard).transpose()?.unwrap_or(crate::ensemble::Shard::WHOLE),
                 quantiles: bands::parse_quantiles(&quantiles)?,
                 warranty: warranty.as_deref().map(bands::parse_warranty).transpose()?,
-                horizon: input::parse_horizon(cycles, years)?,
+                horizon: horizon.parse()?,
                 resume,
                 quiet,
             };

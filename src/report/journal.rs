@@ -156,7 +156,11 @@ mod tests {
         SampleRecord {
             index,
             values: vec![1.5, -2.25e-16],
-            status: if index.is_multiple_of(2) { SampleStatus::Ok } else { SampleStatus::Failed("at cycle 3: x".into()) },
+            status: if index.is_multiple_of(2) {
+                SampleStatus::Ok
+            } else {
+                SampleStatus::Failed("at cycle 3: x".into())
+            },
             capacity_end: Some(LifeAt { cycles: 1234.5, efc: 1000.25, years: 3.5 }),
             resistance_end: None,
             soh_at_horizon_pct: 71.125,
