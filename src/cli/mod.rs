@@ -131,6 +131,7 @@ enum Command {
         /// Number of samples (all shards together), 1 to 1 000 000.
         #[arg(long, value_name = "N")]
         samples: u64,
+        /// Random seed: the same seed gives the same numbers, bit for bit.
         #[arg(long, value_name = "S", default_value_t = 1)]
         seed: u64,
         /// Worker threads (default: the machine's cores).
@@ -145,6 +146,7 @@ enum Command {
         /// Warranty point: state of health still at least SOH_PCT after YEARS.
         #[arg(long, value_name = "YEARS:SOH_PCT")]
         warranty: Option<String>,
+        /// Directory for the outputs and the run's journal; created if missing.
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
         #[command(flatten)]
@@ -163,6 +165,7 @@ enum Command {
         /// The shards' output directories.
         #[arg(required = true, value_name = "DIR")]
         shards: Vec<PathBuf>,
+        /// Directory for the merged outputs; created if missing.
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
     },
