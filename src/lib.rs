@@ -6,6 +6,7 @@
 
 pub mod aging;
 pub mod cli;
+pub mod compare;
 pub mod cycle;
 pub mod ensemble;
 pub mod forecast;

@@ -4,8 +4,10 @@
 
 mod bands;
 mod check;
+mod compare;
 mod cycle;
 mod forecast;
+mod table;
 
 use crate::cycle::{CycleError, DutyCycle};
 use crate::input::{self, InputError, LoadedScenario, Override};
@@ -160,6 +162,78 @@ enum Command {
         #[command(flatten)]
         overrides: OverrideArgs,
     },
+    /// Compare charge protocols, limits or windows on the same drawn samples
+    ///
+    /// Alternatives: each --profile (the scenario with that step profile), then each --variant
+    /// (the scenario with the variant's overrides); without --profile the scenario itself is the
+    /// first. Every alternative runs on the same samples of the scenario's [uncertainty] section
+    /// (common random numbers), so differences against the first are paired; without samples
+    /// each runs once. Prints the comparison and writes DIR/compare.csv and DIR/compare.svg.
+    Compare {
+        /// Scenario file (TOML).
+        scenario: PathBuf,
+        /// A step profile to compare (repeatable); its file name names the alternative.
+        #[arg(long = "profile", value_name = "FILE")]
+        profiles: Vec<PathBuf>,
+        /// An alternative given by overrides (repeatable), e.g. 'hot depot: ambient_c=40'.
+        #[arg(long = "variant", value_name = "'NAME: KEY=VALUE ...'")]
+        variants: Vec<String>,
+        /// Samples per alternative (0: one deterministic run each).
+        #[arg(long, value_name = "N", default_value_t = 0)]
+        samples: u64,
+        #[arg(long, value_name = "S", default_value_t = 1)]
+        seed: u64,
+        /// Worker threads (default: the machine's cores).
+        #[arg(long, value_name = "J")]
+        jobs: Option<usize>,
+        /// Horizon in cycles (overrides the scenario's).
+        #[arg(long, value_name = "N", allow_negative_numbers = true)]
+        cycles: Option<f64>,
+        /// Horizon in years (overrides the scenario's).
+        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
+        years: Option<f64>,
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        #[command(flatten)]
+        overrides: OverrideArgs,
+    },
+    /// Fade table over a grid of ambient, C-rate and state-of-charge window, for system models
+    ///
+    /// Runs the scenario's cell under a standard cycle (constant-current discharge and charge
+    /// at the C-rate within the window and the cell's voltage limits, 10 min rests) at each
+    /// condition and writes DIR/table.csv: one row per condition and reported point; with
+    /// --samples, quantile columns (p5, p50, p95) of state of health and resistance growth.
+    Table {
+        /// Scenario file (TOML): its cell, usage, horizon and end of life are used.
+        scenario: PathBuf,
+        /// Ambient temperatures, °C, comma-separated.
+        #[arg(long = "ambient-c", value_name = "LIST", allow_hyphen_values = true)]
+        ambient_c: String,
+        /// C-rates of charge and discharge, comma-separated.
+        #[arg(long = "c-rate", value_name = "LIST", allow_hyphen_values = true)]
+        c_rate: String,
+        /// State-of-charge windows in percent, LOW-HIGH, comma-separated.
+        #[arg(long = "soc-window", value_name = "LIST", allow_hyphen_values = true)]
+        soc_window: String,
+        /// Samples per condition (0: the nominal inputs only).
+        #[arg(long, value_name = "N", default_value_t = 0)]
+        samples: u64,
+        #[arg(long, value_name = "S", default_value_t = 1)]
+        seed: u64,
+        /// Worker threads (default: the machine's cores).
+        #[arg(long, value_name = "J")]
+        jobs: Option<usize>,
+        /// Horizon in cycles (overrides the scenario's).
+        #[arg(long, value_name = "N", allow_negative_numbers = true)]
+        cycles: Option<f64>,
+        /// Horizon in years (overrides the scenario's).
+        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
+        years: Option<f64>,
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        #[command(flatten)]
+        overrides: OverrideArgs,
+    },
     /// Combine the shards of one `bands` run into the outputs of a single run
     Merge {
         /// The shards' output directories.
@@ -259,8 +333,60 @@ pub fn run() -> Result<(), CliError> {
             };
             bands::run(&config, &mut stdout)
         }
+        Command::Compare { scenario, profiles, variants, samples, seed, jobs, cycles, years, out, overrides } => {
+            let overrides = parse_overrides(&before_command, &overrides)?;
+            let config = compare::CompareCommandConfig {
+                scenario,
+                profiles,
+                variants,
+                overrides,
+                samples,
+                seed,
+                jobs: parse_jobs(jobs)?,
+                horizon: input::parse_horizon(cycles, years)?,
+                out_dir: out,
+            };
+            compare::run(&config, &mut stdout)
+        }
+        Command::Table {
+            scenario,
+            ambient_c,
+            c_rate,
+            soc_window,
+            samples,
+            seed,
+            jobs,
+            cycles,
+            years,
+            out,
+            overrides,
+        } => {
+            let overrides = parse_overrides(&before_command, &overrides)?;
+            let config = table::TableCommandConfig {
+                scenario,
+                ambient_c,
+                c_rate,
+                soc_window,
+                overrides,
+                samples,
+                seed,
+                jobs: parse_jobs(jobs)?,
+                horizon: input::parse_horizon(cycles, years)?,
+                out_dir: out,
+            };
+            table::run(&config, &mut stdout)
+        }
         Command::Merge { shards, out } => bands::merge(&shards, &out, &mut stdout),
     }
+}
+
+/// `--jobs`, defaulting to the machine's cores; 0 is refused.
+fn parse_jobs(jobs: Option<usize>) -> Result<usize, InputError> {
+    let jobs = jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    if jobs == 0 {
+        return Err(InputError::command_line_flag("--jobs", "must be at least 1"));
+    }
+    Ok(jobs)
 }
 
 /// The `--set` values given before and after the command name, in that order.

@@ -1,0 +1,257 @@
+//! `fadecast compare SCENARIO --profile A.toml --profile B.toml [--variant 'NAME: k=v ...']`:
+//! alternatives forecast on the same drawn samples, compared pairwise against the first.
+//!
+//! The alternatives, in order: each `--profile` (the scenario with its profile replaced), then
+//! each `--variant` (the scenario with the variant's overrides). Without any `--profile` the
+//! scenario itself, as given, is the first alternative ("scenario"), so
+//! `--variant 'hot: ambient_c=40'` compares the scenario with a hotter version of itself.
+
+use super::{caution_lines, print_caution, CliError};
+use crate::compare::{self, summarize_comparison, Alternative, CompareConfig, CompareError};
+use crate::ensemble::Sampler;
+use crate::forecast::{ForecastOptions, Horizon};
+use crate::input::{self, InputError, Override, OverrideTarget};
+use crate::report;
+use std::fmt::Write as _;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+pub const CSV_NAME: &str = "compare.csv";
+pub const SVG_NAME: &str = "compare.svg";
+/// Most samples a comparison may ask for, per alternative.
+pub const MAX_SAMPLES: u64 = 100_000;
+
+pub struct CompareCommandConfig {
+    pub scenario: PathBuf,
+    pub profiles: Vec<PathBuf>,
+    /// `NAME: key=value key=value`, as given.
+    pub variants: Vec<String>,
+    pub overrides: Vec<Override>,
+    /// 0: each alternative once, deterministically.
+    pub samples: u64,
+    pub seed: u64,
+    pub jobs: usize,
+    pub horizon: Option<Horizon>,
+    pub out_dir: PathBuf,
+}
+
+/// Where an alternative came from, to name it in errors.
+struct AlternativeSource {
+    name: String,
+    flag: &'static str,
+    given: String,
+    overrides: Vec<Override>,
+}
+
+/// Parses `NAME: key=value key=value` into the name and its overrides.
+pub fn parse_variant(text: &str) -> Result<(String, Vec<Override>), InputError> {
+    let bad = |rule: &str| InputError::command_line_flag("--variant", format!("{rule}, found `{text}`"));
+    let (name, settings) = text.split_once(':').ok_or_else(|| bad("expected `NAME: key=value ...`"))?;
+    let name = name.trim();
+    if name.is_empty() {
+        return Err(bad("the variant needs a name before `:`"));
+    }
+    let overrides = settings
+        .split_whitespace()
+        .map(|s| input::parse_override(s).map_err(|e| InputError::command_line_flag("--variant", e.to_string())))
+        .collect::<Result<Vec<_>, _>>()?;
+    if overrides.is_empty() {
+        return Err(bad("give at least one key=value after the name"));
+    }
+    Ok((name.to_string(), overrides))
+}
+
+/// The scenario's `profile` replaced by a file given on the command line (made absolute, as the
+/// scenario resolves its own paths against its directory).
+fn profile_override(path: &Path) -> Result<Override, InputError> {
+    let absolute = std::fs::canonicalize(path).map_err(|e| InputError::unreadable(path, &e))?;
+    let text = absolute.display().to_string();
+    Ok(Override {
+        target: OverrideTarget::Scenario,
+        path: vec!["profile".into()],
+        value: toml::Value::String(text.clone()),
+        text: format!("profile={text}"),
+    })
+}
+
+fn alternative_sources(config: &CompareCommandConfig) -> Result<Vec<AlternativeSource>, InputError> {
+    let mut sources = Vec::new();
+    if config.profiles.is_empty() {
+        sources.push(AlternativeSource {
+            name: "scenario".into(),
+            flag: "SCENARIO",
+            given: config.scenario.display().to_string(),
+            overrides: Vec::new(),
+        });
+    }
+    for path in &config.profiles {
+        let name = path.file_stem().map_or_else(|| path.display().to_string(), |s| s.to_string_lossy().into_owned());
+        sources.push(AlternativeSource {
+            name,
+            flag: "--profile",
+            given: path.display().to_string(),
+            overrides: vec![profile_override(path)?],
+        });
+    }
+    for text in &config.variants {
+        let (name, overrides) = parse_variant(text)?;
+        sources.push(AlternativeSource { name, flag: "--variant", given: text.clone(), overrides });
+    }
+    if sources.len() < 2 {
+        return Err(InputError::command_line_flag(
+            "--profile",
+            "give at least two alternatives: two --profile files, or --variant settings to compare with the scenario",
+        ));
+    }
+    for (i, s) in sources.iter().enumerate() {
+        if sources[..i].iter().any(|other| other.name == s.name) {
+            return Err(InputError::command_line_flag(
+                s.flag,
+                format!("two alternatives are named \"{}\"; give each a distinct name", s.name),
+            ));
+        }
+    }
+    Ok(sources)
+}
+
+pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), CliError> {
+    if config.samples > MAX_SAMPLES {
+        return Err(InputError::command_line_flag(
+            "--samples",
+            format!("must be at most {MAX_SAMPLES}, found {}", config.samples),
+        )
+        .into());
+    }
+    let sources = alternative_sources(config)?;
+    let overrides_of = |source: &AlternativeSource| -> Vec<Override> {
+        config.overrides.iter().chain(&source.overrides).cloned().collect()
+    };
+    let mut alternatives = Vec::new();
+    let mut loaded_first = None;
+    for source in &sources {
+        let loaded = input::load_scenario(&config.scenario, &overrides_of(source))?;
+        alternatives.push(Alternative {
+            name: source.name.clone(),
+            scenario: loaded.scenario.clone(),
+            plan: loaded.plan.clone(),
+        });
+        loaded_first.get_or_insert(loaded);
+    }
+    let Some(first) = loaded_first else { unreachable!("at least two alternatives") };
+    let horizon = config.horizon.or(first.plan.horizon).ok_or_else(|| {
+        InputError::new(&config.scenario, "no horizon: add a [horizon] section or give --cycles N or --years Y")
+    })?;
+    let cycling = first.plan.usage.cycles_per_day > 0.0;
+    if !cycling && matches!(horizon, Horizon::Cycles(_)) {
+        return Err(InputError::command_line_flag(
+            "--cycles",
+            "a storage-only scenario (0 cycles per day) needs --years",
+        )
+        .into());
+    }
+    let mut notes: Vec<String> = first.warnings.clone();
+    let spec = &first.uncertainty;
+    let sampler = if config.samples > 0 && !spec.parameters.is_empty() {
+        Some(
+            Sampler::new(spec, config.seed, config.samples)
+                .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?,
+        )
+    } else {
+        if config.samples > 0 {
+            notes.push(format!(
+                "--samples {} ignored: the scenario has no [uncertainty] section, so each alternative ran once",
+                config.samples
+            ));
+        }
+        None
+    };
+    let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
+    // One sample of one alternative: the scenario files with the alternative's overrides and
+    // the drawn values appended, so every input rule applies to the draws too.
+    let build = |alternative: usize, values: &[f64]| {
+        let mut overrides = overrides_of(&sources[alternative]);
+        for (path, value) in parameters.iter().zip(values) {
+            overrides.push(input::parse_override(&format!("{path}={value:e}")).map_err(|e| e.to_string())?);
+        }
+        let loaded = input::load_scenario(&config.scenario, &overrides).map_err(|e| e.to_string())?;
+        Ok((loaded.scenario, loaded.plan))
+    };
+    let compare_config =
+        CompareConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
+    let comparison =
+        compare::run_comparison(&alternatives, sampler.as_ref(), &compare_config, &build).map_err(|e| -> CliError {
+            match e {
+                CompareError::Unrunnable { index, detail, .. } => {
+                    let s = &sources[index];
+                    InputError::command_line_flag(
+                        s.flag,
+                        format!("{}: cannot run on the cell at beginning of life: {detail}", s.given),
+                    )
+                    .into()
+                }
+                CompareError::Threads { .. } => CliError::Forecast(e.to_string()),
+            }
+        })?;
+    let summaries = summarize_comparison(&comparison);
+
+    let csv = report::compare_csv(&summaries)?;
+    let svg = report::compare_svg(&summaries, &format!("{}: compared", first.scenario.name), cycling)?;
+    let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice()), (SVG_NAME, svg.as_bytes())])?;
+
+    let mut text = format!("{}: scenario \"{}\"\n", config.scenario.display(), first.scenario.name);
+    if let Some(sampler) = &sampler {
+        let _ = writeln!(
+            text,
+            "  {} samples of {} uncertain inputs (seed {}), the same draws for every alternative",
+            sampler.samples(),
+            sampler.parameter_count(),
+            config.seed
+        );
+    }
+    text.push_str(&report::compare_text(&summaries, comparison.sampled));
+    let mut cautions = notes;
+    for s in &summaries {
+        if s.plating_fraction > 0.0 {
+            cautions.push(format!(
+                "\"{}\": lithium plating predicted in {:.0} % of runs — a safety concern, not only a capacity loss; \
+                 do not adopt this protocol without testing it against the cell maker's limits and the applicable standards",
+                s.name,
+                100.0 * s.plating_fraction
+            ));
+        }
+        if s.invalid + s.failed > 0 {
+            cautions.push(format!(
+                "\"{}\": {} samples were left out of its statistics ({} drew inputs breaking an input rule, {} forecasts failed before end of life)",
+                s.name, s.invalid + s.failed, s.invalid, s.failed
+            ));
+        }
+    }
+    // Limit and calibration warnings of the nominal forecasts are in `forecast`'s output; here
+    // the one that matters across alternatives is said once.
+    cautions.push(
+        "each alternative's life is a model estimate; choose a protocol on test evidence, not on this ranking alone"
+            .into(),
+    );
+    text.push_str(&caution_lines(&cautions));
+    let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
+    let _ = writeln!(text, "\nWrote {}", names.join(", "));
+    out.write_all(text.as_bytes())?;
+    print_caution(out)?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn variants_are_a_name_and_overrides() {
+        let (name, overrides) = parse_variant("hot depot: ambient_c=40 cell.limits.max_charge_current_a=8").unwrap();
+        assert_eq!(name, "hot depot");
+        assert_eq!(overrides.len(), 2);
+        for bad in ["ambient_c=40", ": ambient_c=40", "hot:", "hot: ambient_c"] {
+            let e = parse_variant(bad).unwrap_err().to_string();
+            assert!(e.contains("--variant"), "{bad}: {e}");
+        }
+    }
+}

@@ -1,0 +1,263 @@
+//! `fadecast table SCENARIO --ambient-c 10,25,40 --c-rate 0.5,1,2 --soc-window 10-90,0-100`:
+//! the scenario's cell under a standard cycle at every condition of the grid, forecast and
+//! written as one long-format CSV for system models to interpolate.
+
+use super::{caution_lines, print_caution, CliError};
+use crate::compare::{run_table, CompareError, Condition, TableConfig};
+use crate::ensemble::Sampler;
+use crate::forecast::{ForecastOptions, Horizon, StopReason};
+use crate::input::{self, InputError, Override};
+use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
+use crate::report;
+use std::fmt::Write as _;
+use std::io::Write;
+use std::path::PathBuf;
+
+pub const CSV_NAME: &str = "table.csv";
+/// Largest grid one run may ask for: each condition is a forecast (and one per sample).
+pub const MAX_CONDITIONS: usize = 1000;
+pub const MAX_SAMPLES: u64 = 10_000;
+
+pub struct TableCommandConfig {
+    pub scenario: PathBuf,
+    /// As given: `10,25,40`, `0.5,1,2`, `10-90,0-100`.
+    pub ambient_c: String,
+    pub c_rate: String,
+    pub soc_window: String,
+    pub overrides: Vec<Override>,
+    pub samples: u64,
+    pub seed: u64,
+    pub jobs: usize,
+    pub horizon: Option<Horizon>,
+    pub out_dir: PathBuf,
+}
+
+/// Parses a comma-separated list of numbers for `flag`, each checked by `rule`.
+pub fn parse_number_list(
+    flag: &str,
+    text: &str,
+    rule: impl Fn(f64) -> Result<(), String>,
+) -> Result<Vec<f64>, InputError> {
+    let bad = |message: String| InputError::command_line_flag(flag, message);
+    let mut values = Vec::new();
+    for part in text.split(',') {
+        let part = part.trim();
+        if part.is_empty() {
+            return Err(bad(format!("empty entry in `{text}`; give comma-separated numbers such as 10,25,40")));
+        }
+        let value: f64 = part.parse().map_err(|_| bad(format!("`{part}` is not a number")))?;
+        if !value.is_finite() {
+            return Err(bad(format!("`{part}` is not a finite number")));
+        }
+        rule(value).map_err(bad)?;
+        if values.contains(&value) {
+            return Err(bad(format!("{value} is listed twice")));
+        }
+        values.push(value);
+    }
+    Ok(values)
+}
+
+/// Parses `10-90,0-100` into (low, high) fractions, 0 ≤ low < high ≤ 100 %.
+pub fn parse_soc_windows(text: &str) -> Result<Vec<(f64, f64)>, InputError> {
+    let bad = |message: String| InputError::command_line_flag("--soc-window", message);
+    let mut windows = Vec::new();
+    for part in text.split(',') {
+        let part = part.trim();
+        if part.is_empty() {
+            return Err(bad(format!("empty entry in `{text}`; give windows such as 10-90,0-100")));
+        }
+        let expected = || bad(format!("expected LOW-HIGH in percent such as 10-90, found `{part}`"));
+        let (low, high) = part.split_once('-').ok_or_else(expected)?;
+        let low: f64 = low.trim().parse().map_err(|_| expected())?;
+        let high: f64 = high.trim().parse().map_err(|_| expected())?;
+        if !(0.0..=100.0).contains(&low) || !(0.0..=100.0).contains(&high) {
+            return Err(bad(format!("`{part}`: states of charge lie between 0 and 100 %")));
+        }
+        if low >= high {
+            return Err(bad(format!("`{part}`: the lower state of charge must be below the upper")));
+        }
+        let window = (low / 100.0, high / 100.0);
+        if windows.contains(&window) {
+            return Err(bad(format!("`{part}` is listed twice")));
+        }
+        windows.push(window);
+    }
+    Ok(windows)
+}
+
+pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliError> {
+    if config.samples > MAX_SAMPLES {
+        return Err(InputError::command_line_flag(
+            "--samples",
+            format!("must be at most {MAX_SAMPLES}, found {}", config.samples),
+        )
+        .into());
+    }
+    let loaded = input::load_scenario(&config.scenario, &config.overrides)?;
+    let cell = &loaded.scenario.cell;
+    let (t_min_c, t_max_c) = (cell.temperature_min_k - ZERO_CELSIUS_K, cell.temperature_max_k - ZERO_CELSIUS_K);
+    let ambients = parse_number_list("--ambient-c", &config.ambient_c, |t| {
+        if (t_min_c..=t_max_c).contains(&t) {
+            Ok(())
+        } else {
+            Err(format!("{t} °C lies outside the cell's temperature window of {t_min_c} to {t_max_c} °C"))
+        }
+    })?;
+    let nominal_a = cell.nominal_capacity_coulomb / SECONDS_PER_HOUR;
+    let limit_a = cell.max_charge_current_a.min(cell.max_discharge_current_a);
+    let c_rates = parse_number_list("--c-rate", &config.c_rate, |c| {
+        if c <= 0.0 {
+            Err(format!("C-rates must be positive, found {c}"))
+        } else if c * nominal_a > limit_a * (1.0 + 1e-9) {
+            Err(format!(
+                "{c}C is {:.3} A, above the cell's current limit of {limit_a} A (the lower of its charge and discharge limits)",
+                c * nominal_a
+            ))
+        } else {
+            Ok(())
+        }
+    })?;
+    let windows = parse_soc_windows(&config.soc_window)?;
+    let mut conditions = Vec::new();
+    for &ambient_c in &ambients {
+        for &c_rate in &c_rates {
+            for &(soc_low, soc_high) in &windows {
+                conditions.push(Condition { ambient_c, c_rate, soc_low, soc_high });
+            }
+        }
+    }
+    if conditions.len() > MAX_CONDITIONS {
+        return Err(InputError::command_line_flag(
+            "--ambient-c",
+            format!("the grid has {} conditions; at most {MAX_CONDITIONS}", conditions.len()),
+        )
+        .into());
+    }
+    let horizon = config.horizon.or(loaded.plan.horizon).ok_or_else(|| {
+        InputError::new(&config.scenario, "no horizon: add a [horizon] section or give --cycles N or --years Y")
+    })?;
+    if loaded.plan.usage.cycles_per_day <= 0.0 {
+        return Err(InputError::new(
+            &config.scenario,
+            "a fade table cycles the cell: the scenario's usage needs cycles_per_day above 0",
+        )
+        .into());
+    }
+    let mut notes = loaded.warnings.clone();
+    let spec = &loaded.uncertainty;
+    let sampler = if config.samples > 0 && !spec.parameters.is_empty() {
+        Some(
+            Sampler::new(spec, config.seed, config.samples)
+                .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?,
+        )
+    } else {
+        if config.samples > 0 {
+            notes.push(format!(
+                "--samples {} ignored: the scenario has no [uncertainty] section, so the table has no quantile columns",
+                config.samples
+            ));
+        }
+        None
+    };
+    let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
+    let build = |values: &[f64]| {
+        let mut overrides = config.overrides.clone();
+        for (path, value) in parameters.iter().zip(values) {
+            overrides.push(input::parse_override(&format!("{path}={value:e}")).map_err(|e| e.to_string())?);
+        }
+        let loaded = input::load_scenario(&config.scenario, &overrides).map_err(|e| e.to_string())?;
+        Ok((loaded.scenario, loaded.plan))
+    };
+    let table_config =
+        TableConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
+    let nominal = (loaded.scenario.clone(), loaded.plan.clone());
+    let results =
+        run_table(&conditions, &nominal, sampler.as_ref(), &table_config, &build).map_err(|e| -> CliError {
+            match e {
+                CompareError::Unrunnable { name, detail, .. } => InputError::command_line_flag(
+                    "--c-rate",
+                    format!("the standard cycle at {name} cannot run on the cell at beginning of life: {detail}"),
+                )
+                .into(),
+                CompareError::Threads { .. } => CliError::Forecast(e.to_string()),
+            }
+        })?;
+
+    let csv = report::table_csv(&results)?;
+    let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice())])?;
+
+    let mut text = format!("{}: cell \"{}\"\n", config.scenario.display(), cell.name);
+    let _ = writeln!(
+        text,
+        "  {} conditions ({} ambient × {} C-rate × {} window), standard cycle: CC discharge and CC charge at the C-rate \
+         within the window and the cell's voltage limits, 10 min rests",
+        conditions.len(),
+        ambients.len(),
+        c_rates.len(),
+        windows.len()
+    );
+    if let Some(sampler) = &sampler {
+        let _ = writeln!(text, "  {} samples per condition (seed {})", sampler.samples(), config.seed);
+    }
+    let _ = writeln!(text, "\n  {:<28}{:>14}{:>14}{:>18}", "condition", "horizon EFC", "SOH, %", "resistance, %");
+    let mut cautions = notes;
+    let mut failures = Vec::new();
+    let mut other_warnings: Vec<String> = Vec::new();
+    for r in &results {
+        let label = r.condition.label();
+        if let Some(last) = r.nominal.points.last() {
+            let _ = writeln!(
+                text,
+                "  {:<28}{:>14.0}{:>14.1}{:>+18.1}",
+                label, last.efc, last.soh_pct, last.resistance_growth_pct
+            );
+        }
+        for w in &r.nominal.warnings {
+            if w.contains("plating") {
+                cautions.push(format!("{label}: {w}"));
+            } else if !other_warnings.contains(w) {
+                other_warnings.push(w.clone());
+            }
+        }
+        if r.samples_left_out > 0 {
+            cautions.push(format!(
+                "{label}: {} samples left out of the quantiles (invalid draws or forecasts stopping before the horizon)",
+                r.samples_left_out
+            ));
+        }
+        if let StopReason::Failed { cycle, detail } = &r.nominal.stop {
+            failures.push(format!("{label} at cycle {cycle:.0}: {detail}"));
+        }
+    }
+    cautions.extend(other_warnings);
+    text.push_str(&caution_lines(&cautions));
+    let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
+    let _ = writeln!(text, "\nWrote {}", names.join(", "));
+    out.write_all(text.as_bytes())?;
+    print_caution(out)?;
+    if failures.is_empty() {
+        Ok(())
+    } else {
+        Err(CliError::Forecast(format!("{} (the rows computed so far were written)", failures.join("; "))))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn malformed_grids_are_refused_naming_the_flag() {
+        assert_eq!(parse_soc_windows("10-90, 0-100").unwrap(), vec![(0.1, 0.9), (0.0, 1.0)]);
+        for bad in ["10-", "90-10", "abc", "0-120", "", "10-90,,0-100", "10-90,10-90", "50-50"] {
+            let e = parse_soc_windows(bad).unwrap_err().to_string();
+            assert!(e.contains("--soc-window"), "{bad}: {e}");
+        }
+        let positive = |v: f64| if v > 0.0 { Ok(()) } else { Err("must be positive".to_string()) };
+        assert_eq!(parse_number_list("--c-rate", "0.5,1,2", positive).unwrap(), vec![0.5, 1.0, 2.0]);
+        for bad in ["", "1,", "a", "1,-1", "1,1", "inf"] {
+            assert!(parse_number_list("--c-rate", bad, positive).is_err(), "{bad}");
+        }
+    }
+}

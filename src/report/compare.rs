@@ -1,0 +1,317 @@
+//! Comparison and fade-table outputs as bytes and text: compare.csv, the printed comparison
+//! table, compare.svg (median fade curves with bands, overlaid) and table.csv.
+
+use super::cycle_svg::{padded_range, plot_error};
+use super::ReportError;
+use crate::compare::{AlternativeSummary, ConditionResult, Spread, TABLE_QUANTILES};
+use plotters::prelude::*;
+use std::fmt::Write as _;
+
+const DAYS_PER_YEAR: f64 = 365.25;
+const PALETTE: [RGBColor; 6] = [
+    RGBColor(31, 119, 180),
+    RGBColor(214, 39, 40),
+    RGBColor(44, 160, 44),
+    RGBColor(148, 103, 189),
+    RGBColor(255, 127, 14),
+    RGBColor(23, 190, 207),
+];
+
+/// A number for a CSV cell: blank when absent or undefined, `inf` for a life beyond the
+/// horizon (censored samples reach that quantile).
+fn cell(v: Option<f64>) -> String {
+    match v {
+        Some(v) if v.is_nan() => String::new(),
+        Some(v) if v == f64::INFINITY => "inf".into(),
+        Some(v) => v.to_string(),
+        None => String::new(),
+    }
+}
+
+fn spread_cells(s: &Spread) -> [String; 3] {
+    [cell(s.p10), cell(Some(s.p50)), cell(s.p90)]
+}
+
+/// The header of compare.csv.
+pub const COMPARE_CSV_HEADER: [&str; 30] = [
+    "alternative",
+    "samples_usable",
+    "samples_censored",
+    "samples_left_out",
+    "life_cycles_p10",
+    "life_cycles_p50",
+    "life_cycles_p90",
+    "life_efc_p10",
+    "life_efc_p50",
+    "life_efc_p90",
+    "life_years_p10",
+    "life_years_p50",
+    "life_years_p90",
+    "energy_to_end_of_life_wh_p10",
+    "energy_to_end_of_life_wh_p50",
+    "energy_to_end_of_life_wh_p90",
+    "soh_at_horizon_pct_p10",
+    "soh_at_horizon_pct_p50",
+    "soh_at_horizon_pct_p90",
+    "charge_time_h",
+    "peak_temperature_c",
+    "plating_predicted",
+    "plating_fraction",
+    "life_difference_cycles_p50",
+    "life_difference_cycles_p5",
+    "life_difference_cycles_p95",
+    "life_difference_efc_p50",
+    "life_difference_efc_p5",
+    "life_difference_efc_p95",
+    "probability_outlasts_first",
+];
+
+/// compare.csv: one row per alternative; the difference columns are blank for the first
+/// (the reference), and the outer quantiles blank when the comparison ran deterministically.
+pub fn compare_csv(summaries: &[AlternativeSummary]) -> Result<Vec<u8>, ReportError> {
+    let mut writer = csv::Writer::from_writer(Vec::new());
+    writer.write_record(COMPARE_CSV_HEADER)?;
+    for s in summaries {
+        let mut row =
+            vec![s.name.clone(), s.usable.to_string(), s.censored.to_string(), (s.invalid + s.failed).to_string()];
+        for spread in [&s.life_cycles, &s.life_efc, &s.life_years, &s.energy_to_end_wh, &s.soh_at_horizon_pct] {
+            row.extend(spread_cells(spread));
+        }
+        row.push(cell(Some(s.charge_time_s / 3600.0)));
+        row.push(cell(Some(s.peak_temperature_c)));
+        row.push(if s.plating_fraction > 0.0 { "yes" } else { "no" }.into());
+        row.push(cell(Some(s.plating_fraction)));
+        match &s.paired {
+            Some(d) => {
+                row.push(cell(Some(d.median_cycles)));
+                row.push(cell(d.interval_cycles.map(|i| i.0)));
+                row.push(cell(d.interval_cycles.map(|i| i.1)));
+                row.push(cell(Some(d.median_efc)));
+                row.push(cell(d.interval_efc.map(|i| i.0)));
+                row.push(cell(d.interval_efc.map(|i| i.1)));
+                row.push(cell(Some(d.probability_outlasts)));
+            }
+            None => row.extend(std::iter::repeat_n(String::new(), 7)),
+        }
+        writer.write_record(&row)?;
+    }
+    writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
+}
+
+/// A life or other quantity in the printed table: "> horizon" when censored samples reach it.
+fn shown(v: f64, decimals: usize) -> String {
+    if v == f64::INFINITY {
+        "> horizon".into()
+    } else if v.is_nan() {
+        "–".into()
+    } else {
+        format!("{v:.decimals$}")
+    }
+}
+
+fn shown_spread(s: &Spread, decimals: usize) -> String {
+    match (s.p10, s.p90) {
+        (Some(lo), Some(hi)) => {
+            format!("{} ({} – {})", shown(s.p50, decimals), shown(lo, decimals), shown(hi, decimals))
+        }
+        _ => shown(s.p50, decimals),
+    }
+}
+
+/// The comparison as printed: one block per alternative, life with its P10–P90 range when
+/// sampled, and the paired difference against the first alternative.
+pub fn compare_text(summaries: &[AlternativeSummary], sampled: bool) -> String {
+    let mut out = String::new();
+    let Some(first) = summaries.first() else { return out };
+    let how = if sampled { "median (P10 – P90) over the samples" } else { "one deterministic forecast each" };
+    let _ = writeln!(out, "\nComparison against \"{}\" ({how})", first.name);
+    for s in summaries {
+        let _ = writeln!(out, "  {}", s.name);
+        let _ = writeln!(out, "    {:<38}{}", "end of life, cycles", shown_spread(&s.life_cycles, 0));
+        let _ = writeln!(out, "    {:<38}{}", "end of life, equivalent full cycles", shown_spread(&s.life_efc, 0));
+        let _ = writeln!(out, "    {:<38}{}", "end of life, years", shown_spread(&s.life_years, 2));
+        let _ = writeln!(
+            out,
+            "    {:<38}{}",
+            "energy to end of life, kWh",
+            shown_spread(
+                &Spread {
+                    p10: s.energy_to_end_wh.p10.map(|v| v / 1000.0),
+                    p50: s.energy_to_end_wh.p50 / 1000.0,
+                    p90: s.energy_to_end_wh.p90.map(|v| v / 1000.0),
+                },
+                1
+            )
+        );
+        let _ = writeln!(out, "    {:<38}{}", "state of health at horizon, %", shown_spread(&s.soh_at_horizon_pct, 1));
+        let _ = writeln!(out, "    {:<38}{:.2} h", "charge time per cycle", s.charge_time_s / 3600.0);
+        let _ = writeln!(out, "    {:<38}{:.1} °C", "peak temperature", s.peak_temperature_c);
+        let plating = if s.plating_fraction > 0.0 {
+            format!("YES ({:.0} % of samples)", 100.0 * s.plating_fraction)
+        } else {
+            "no".into()
+        };
+        let _ = writeln!(out, "    {:<38}{plating}", "lithium plating predicted");
+        if s.censored > 0 {
+            let _ = writeln!(
+                out,
+                "    {:<38}{} of {} samples still alive at the horizon (censored: life is longer)",
+                "censored", s.censored, s.usable
+            );
+        }
+        if s.invalid + s.failed > 0 {
+            let _ = writeln!(
+                out,
+                "    {:<38}{} samples (invalid draws {}, forecasts failed {})",
+                "left out",
+                s.invalid + s.failed,
+                s.invalid,
+                s.failed
+            );
+        }
+        if let Some(d) = &s.paired {
+            let interval =
+                d.interval_cycles.map_or(String::new(), |(lo, hi)| format!(" (90 % interval {lo:+.0} to {hi:+.0})"));
+            let _ = writeln!(out, "    {:<38}{:+.0} cycles{interval}", "life vs first (paired)", d.median_cycles);
+            let _ = writeln!(
+                out,
+                "    {:<38}{:.0} % of {} pairs",
+                "outlasts the first",
+                100.0 * d.probability_outlasts,
+                d.pairs
+            );
+            if d.censored_pairs > 0 {
+                let _ = writeln!(
+                    out,
+                    "    {:<38}{} pairs involve a life beyond the horizon: their differences are bounds",
+                    "", d.censored_pairs
+                );
+            }
+        }
+    }
+    out
+}
+
+/// compare.svg: each alternative's median state of health against cycles (days when storing),
+/// with its P10–P90 band shaded in the same colour; years on the top axis.
+pub fn compare_svg(summaries: &[AlternativeSummary], title: &str, cycling: bool) -> Result<String, ReportError> {
+    let x_of = |b: &crate::compare::CurveBand| if cycling { b.cycle } else { b.day };
+    let x_range = padded_range(summaries.iter().flat_map(|s| s.curve.iter().map(x_of)), 0.0);
+    let (last_x, last_day) = summaries
+        .iter()
+        .filter_map(|s| s.curve.last())
+        .map(|b| (x_of(b), b.day))
+        .fold((1e-9, 1e-9), |acc, v| if v.0 > acc.0 { v } else { acc });
+    let years = x_range.start * last_day / DAYS_PER_YEAR / last_x..x_range.end * last_day / DAYS_PER_YEAR / last_x;
+    let y_range = padded_range(summaries.iter().flat_map(|s| s.curve.iter().flat_map(|b| [b.p10, b.p90])), 0.05);
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (1000, 560)).into_drawing_area();
+        root.fill(&WHITE).map_err(plot_error)?;
+        let body = root.titled(title, ("sans-serif", 20)).map_err(plot_error)?;
+        let mut chart = ChartBuilder::on(&body)
+            .margin(10)
+            .x_label_area_size(35)
+            .top_x_label_area_size(30)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x_range, y_range)
+            .map_err(plot_error)?
+            .set_secondary_coord(years, 0.0..1.0);
+        chart
+            .configure_mesh()
+            .x_desc(if cycling { "cycles" } else { "days (storage)" })
+            .y_desc("state of health, %")
+            .draw()
+            .map_err(plot_error)?;
+        chart.configure_secondary_axes().x_desc("years").y_labels(0).draw().map_err(plot_error)?;
+        for (i, s) in summaries.iter().enumerate() {
+            let colour = PALETTE[i % PALETTE.len()];
+            let banded = s.curve.iter().any(|b| b.p90 > b.p10);
+            if banded {
+                let mut outline: Vec<(f64, f64)> = s.curve.iter().map(|b| (x_of(b), b.p90)).collect();
+                outline.extend(s.curve.iter().rev().map(|b| (x_of(b), b.p10)));
+                chart
+                    .draw_series(std::iter::once(Polygon::new(outline, colour.mix(0.2).filled())))
+                    .map_err(plot_error)?;
+            }
+            chart
+                .draw_series(LineSeries::new(s.curve.iter().map(|b| (x_of(b), b.p50)), colour.stroke_width(2)))
+                .map_err(plot_error)?
+                .label(if banded { format!("{} (median, P10 – P90)", s.name) } else { s.name.clone() })
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2)));
+        }
+        chart
+            .configure_series_labels()
+            .background_style(WHITE.mix(0.8))
+            .border_style(BLACK)
+            .draw()
+            .map_err(plot_error)?;
+        root.present().map_err(plot_error)?;
+    }
+    Ok(svg)
+}
+
+/// The columns of table.csv before the quantile columns.
+pub const TABLE_CSV_HEADER: [&str; 14] = [
+    "ambient_c",
+    "c_rate",
+    "soc_low_pct",
+    "soc_high_pct",
+    "cycle",
+    "day",
+    "years",
+    "efc",
+    "throughput_ah",
+    "energy_wh",
+    "capacity_ah",
+    "soh_pct",
+    "resistance_mohm",
+    "resistance_growth_pct",
+];
+
+/// table.csv, long format: one row per condition and reported point of the nominal forecast;
+/// with samples, `soh_pct_p5`, `soh_pct_p50`, `soh_pct_p95` and the same for resistance growth.
+pub fn table_csv(results: &[ConditionResult]) -> Result<Vec<u8>, ReportError> {
+    let sampled = results.iter().any(|r| r.quantiles.is_some());
+    let mut writer = csv::Writer::from_writer(Vec::new());
+    let mut header: Vec<String> = TABLE_CSV_HEADER.iter().map(|s| s.to_string()).collect();
+    if sampled {
+        for quantity in ["soh_pct", "resistance_growth_pct"] {
+            for p in TABLE_QUANTILES {
+                header.push(format!("{quantity}_p{}", super::ensemble::percent_label(p)));
+            }
+        }
+    }
+    writer.write_record(&header)?;
+    for r in results {
+        let c = &r.condition;
+        for (k, p) in r.nominal.points.iter().enumerate() {
+            let mut row = vec![
+                cell(Some(c.ambient_c)),
+                cell(Some(c.c_rate)),
+                cell(Some(c.soc_low * 100.0)),
+                cell(Some(c.soc_high * 100.0)),
+                cell(Some(p.cycle)),
+                cell(Some(p.day)),
+                cell(Some(p.day / DAYS_PER_YEAR)),
+                cell(Some(p.efc)),
+                cell(Some(p.throughput_ah)),
+                cell(Some(p.energy_wh)),
+                cell(Some(p.capacity_ah)),
+                cell(Some(p.soh_pct)),
+                cell(Some(p.resistance_mohm)),
+                cell(Some(p.resistance_growth_pct)),
+            ];
+            if sampled {
+                let q = r.quantiles.as_ref().and_then(|q| q.get(k));
+                for quantity in 0..2 {
+                    for j in 0..TABLE_QUANTILES.len() {
+                        row.push(cell(q.map(|q| q[quantity][j])));
+                    }
+                }
+            }
+            writer.write_record(&row)?;
+        }
+    }
+    writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
+}
