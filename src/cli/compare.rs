@@ -237,7 +237,24 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
     print_caution(out)?;
-    Ok(())
+    // A deterministic comparison with an alternative that has no result is a failed run, as a
+    // failed `forecast` is (its outputs were still written, with that alternative's row blank).
+    let failed: Vec<String> = comparison
+        .outcomes
+        .iter()
+        .zip(&comparison.names)
+        .filter_map(|(outcomes, name)| match outcomes.first().map(|o| (&o.status, o.life)) {
+            Some((compare::OutcomeStatus::Failed(detail), None)) if !comparison.sampled => {
+                Some(format!("\"{name}\" {detail}"))
+            }
+            _ => None,
+        })
+        .collect();
+    if failed.is_empty() {
+        Ok(())
+    } else {
+        Err(CliError::Forecast(failed.join("; ")))
+    }
 }
 
 #[cfg(test)]

@@ -169,7 +169,11 @@ pub fn compare_text(summaries: &[AlternativeSummary], sampled: bool) -> String {
                 s.failed
             );
         }
-        if let Some(d) = &s.paired {
+        if let Some(d) = s.paired.filter(|d| d.pairs == 0) {
+            let _ =
+                writeln!(out, "    {:<38}no sample usable in both (of {} pairs)", "life vs first (paired)", d.pairs);
+        }
+        if let Some(d) = s.paired.filter(|d| d.pairs > 0) {
             let interval =
                 d.interval_cycles.map_or(String::new(), |(lo, hi)| format!(" (90 % interval {lo:+.0} to {hi:+.0})"));
             let _ = writeln!(out, "    {:<38}{:+.0} cycles{interval}", "life vs first (paired)", d.median_cycles);
