@@ -5,6 +5,7 @@
 //! ([`cli`]) never does physics.
 
 pub mod aging;
+pub mod calibrate;
 pub mod cli;
 pub mod compare;
 pub mod cycle;
