@@ -85,42 +85,46 @@ pub fn bands_svg(summary: &EnsembleSummary, title: &str, cycling: bool) -> Resul
     Ok(svg)
 }
 
-/// The uncertain inputs as horizontal bars of their rank correlation with life, strongest on top.
+/// The uncertain inputs as horizontal bars of their rank correlation with life, strongest on top;
+/// each bar's name is written on the other side of zero, so long names never cover a bar.
 pub fn sensitivity_svg(summary: &EnsembleSummary, title: &str) -> Result<String, ReportError> {
+    use plotters::style::text_anchor::{HPos, Pos, VPos};
     let rows = &summary.sensitivity;
-    let height = 120 + 40 * rows.len().max(1) as u32;
+    let count = rows.len().max(1);
+    let height = 120 + 40 * count as u32;
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, height)).into_drawing_area();
         root.fill(&WHITE).map_err(plot_error)?;
         let body = root.titled(title, ("sans-serif", 20)).map_err(plot_error)?;
-        let count = rows.len().max(1) as i32;
         let mut chart = ChartBuilder::on(&body)
             .margin(10)
             .x_label_area_size(40)
-            .y_label_area_size(380)
-            .build_cartesian_2d(-1.0f64..1.0f64, (0..count).into_segmented())
+            .y_label_area_size(10)
+            .build_cartesian_2d(-1.0f64..1.0f64, 0.0..count as f64)
             .map_err(plot_error)?;
-        let label_of = |v: &SegmentValue<i32>| match v {
-            SegmentValue::CenterOf(i) | SegmentValue::Exact(i) => {
-                rows.get((count - 1 - i) as usize).map_or(String::new(), |r| r.path.clone())
-            }
-            SegmentValue::Last => String::new(),
-        };
         chart
             .configure_mesh()
             .x_desc(format!("rank correlation with {}", summary.sensitivity_measure))
-            .y_label_formatter(&label_of)
-            .y_labels(rows.len().max(1))
+            .y_labels(0)
+            .disable_y_mesh()
             .draw()
             .map_err(plot_error)?;
+        // Row i (strongest first) occupies the band [count − 1 − i, count − i].
+        let centre = |i: usize| (count - 1 - i) as f64 + 0.5;
         chart
             .draw_series(rows.iter().enumerate().map(|(i, r)| {
-                let y = count - 1 - i as i32;
                 let (a, b) =
                     if r.rank_correlation >= 0.0 { (0.0, r.rank_correlation) } else { (r.rank_correlation, 0.0) };
                 let colour = if r.rank_correlation >= 0.0 { BAND_COLOUR } else { RGBColor(214, 39, 40) };
-                Rectangle::new([(a, SegmentValue::Exact(y)), (b, SegmentValue::Exact(y + 1))], colour.mix(0.7).filled())
+                Rectangle::new([(a, centre(i) - 0.35), (b, centre(i) + 0.35)], colour.mix(0.7).filled())
+            }))
+            .map_err(plot_error)?;
+        chart
+            .draw_series(rows.iter().enumerate().map(|(i, r)| {
+                let (x, anchor) = if r.rank_correlation >= 0.0 { (-0.02, HPos::Right) } else { (0.02, HPos::Left) };
+                let style = TextStyle::from(("sans-serif", 14).into_font()).pos(Pos::new(anchor, VPos::Center));
+                Text::new(format!("{} ({:+.2})", r.path, r.rank_correlation), (x, centre(i)), style)
             }))
             .map_err(plot_error)?;
         root.present().map_err(plot_error)?;
