@@ -131,3 +131,50 @@ pub fn sensitivity_svg(summary: &EnsembleSummary, title: &str) -> Result<String,
     }
     Ok(svg)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::ensemble::summary::{BandPoint, Sensitivity};
+
+    fn summary() -> EnsembleSummary {
+        EnsembleSummary {
+            samples: 3,
+            counted: 3,
+            invalid: 0,
+            failed: 0,
+            quantiles: vec![0.05, 0.5, 0.95],
+            life: Vec::new(),
+            warranty: None,
+            sensitivity_measure: "end of life (capacity), cycles".into(),
+            sensitivity: vec![
+                Sensitivity { path: "cell.negative.particle_radius_um".into(), rank_correlation: -0.8 },
+                Sensitivity { path: "ambient_c".into(), rank_correlation: 0.3 },
+            ],
+            bands: (0..4)
+                .map(|k| BandPoint {
+                    cycle: 100.0 * k as f64,
+                    day: 100.0 * k as f64,
+                    values: [
+                        vec![5.0, 5.1, 5.2],
+                        vec![99.0 - k as f64, 100.0 - k as f64, 101.0 - k as f64],
+                        vec![15.0, 16.0, 17.0],
+                    ],
+                })
+                .collect(),
+            plating_fraction: 0.0,
+        }
+    }
+
+    #[test]
+    fn bands_and_sensitivity_render_with_their_labels() {
+        let s = summary();
+        let bands = bands_svg(&s, "test bands", true).unwrap();
+        for text in ["test bands", "state of health, %", "resistance, mΩ", "median", "P5 – P95", "years"] {
+            assert!(bands.contains(text), "missing {text}");
+        }
+        let sensitivity = sensitivity_svg(&s, "test sensitivity").unwrap();
+        assert!(sensitivity.contains("cell.negative.particle_radius_um (-0.80)"));
+        assert!(sensitivity.contains("ambient_c (+0.30)"));
+    }
+}
