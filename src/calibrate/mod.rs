@@ -205,10 +205,17 @@ pub struct FittedCurve {
     pub x: Vec<f64>,
     pub capacity_ah: Vec<f64>,
     pub resistance_mohm: Vec<f64>,
-    /// Model − data at each measured point (all points, held out too), Ah.
+    /// The measured points (all of them, held out too).
+    pub x_data: Vec<f64>,
+    pub capacity_data_ah: Vec<f64>,
+    /// Model − data at each measured point, Ah.
     pub capacity_residual_ah: Vec<f64>,
     /// Whether each measured point was fitted (false: held out).
     pub fitted: Vec<bool>,
+    /// Cycles and days the curve reaches (the data's extent, for the fitted cell's
+    /// `[calibration]` table); cycles are 0 in storage.
+    pub cycle_end: f64,
+    pub day_end: f64,
 }
 
 /// Everything a fit found.

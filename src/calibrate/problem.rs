@@ -390,8 +390,12 @@ impl<'a> Model<'a> {
                 x: points.iter().map(|p| dataset.axis.of(p)).collect(),
                 capacity_ah: points.iter().map(|p| p.capacity_ah).collect(),
                 resistance_mohm: points.iter().map(|p| p.resistance_mohm).collect(),
+                x_data: xs.clone(),
+                capacity_data_ah: dataset.points.iter().map(|p| p.capacity_ah).collect(),
                 capacity_residual_ah,
                 fitted,
+                cycle_end: points.last().map_or(0.0, |p| p.cycle),
+                day_end: points.last().map_or(0.0, |p| p.day),
             });
         }
         Ok((residuals, holdout, curves))

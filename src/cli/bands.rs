@@ -38,6 +38,8 @@ pub struct BandsConfig {
     pub horizon: Option<Horizon>,
     pub resume: bool,
     pub quiet: bool,
+    /// `--uncertainty FILE`: an `[uncertainty]` section that replaces the scenario's.
+    pub uncertainty_file: Option<PathBuf>,
 }
 
 /// What a run is, written to `DIR/run.json`: shards merge only when all of it but the shard
@@ -128,7 +130,10 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
         .into());
     }
     let loaded = input::load_scenario(&config.scenario, &config.overrides)?;
-    let spec = loaded.uncertainty.clone();
+    let spec = match &config.uncertainty_file {
+        Some(file) => input::load_uncertainty_file(file, &config.scenario, &config.overrides)?,
+        None => loaded.uncertainty.clone(),
+    };
     if spec.parameters.is_empty() {
         return Err(
             InputError::new(&config.scenario, "no [uncertainty] section: nothing to sample (see FORMATS.md)").into()

@@ -6,6 +6,7 @@ mod bands;
 mod check;
 mod compare;
 mod cycle;
+mod fit;
 mod forecast;
 mod table;
 
@@ -159,6 +160,10 @@ enum Command {
         /// No progress bar.
         #[arg(long)]
         quiet: bool,
+        /// Sample this file's [uncertainty] section instead of the scenario's (for example
+        /// the uncertainty.toml `fadecast fit` writes).
+        #[arg(long, value_name = "FILE")]
+        uncertainty: Option<PathBuf>,
         #[command(flatten)]
         overrides: OverrideArgs,
     },
@@ -229,6 +234,26 @@ enum Command {
         /// Horizon in years (overrides the scenario's).
         #[arg(long, value_name = "Y", allow_negative_numbers = true)]
         years: Option<f64>,
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        #[command(flatten)]
+        overrides: OverrideArgs,
+    },
+    /// Fit model inputs to measured capacity (and resistance) data
+    ///
+    /// Reads a fit description (datasets of measured points, each with the scenario it was
+    /// measured under, and the free parameters with bounds; FORMATS.md), fits by bounded
+    /// Levenberg–Marquardt from several starts and writes DIR/fitted-cell.toml (the cell with
+    /// the fitted values, usable by every command), DIR/fit.json (values, standard errors,
+    /// correlations, residuals, model evaluations), DIR/uncertainty.toml (for `bands
+    /// --uncertainty`) and DIR/fit.svg (data, fitted curves and residuals).
+    Fit {
+        /// Fit description (TOML).
+        fit: PathBuf,
+        /// Fit only the points up to N (cycles, days or equivalent full cycles, as each dataset
+        /// counts) and report the forecast error on the rest.
+        #[arg(long, value_name = "N", allow_negative_numbers = true)]
+        holdout_after: Option<f64>,
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
         #[command(flatten)]
@@ -308,6 +333,7 @@ pub fn run() -> Result<(), CliError> {
             horizon,
             resume,
             quiet,
+            uncertainty,
             overrides,
         } => {
             let overrides_text: Vec<String> = before_command.set.iter().chain(&overrides.set).cloned().collect();
@@ -330,6 +356,7 @@ pub fn run() -> Result<(), CliError> {
                 horizon: horizon.parse()?,
                 resume,
                 quiet,
+                uncertainty_file: uncertainty,
             };
             bands::run(&config, &mut stdout)
         }
@@ -375,6 +402,10 @@ pub fn run() -> Result<(), CliError> {
                 out_dir: out,
             };
             table::run(&config, &mut stdout)
+        }
+        Command::Fit { fit, holdout_after, out, overrides } => {
+            let overrides = parse_overrides(&before_command, &overrides)?;
+            fit::run(&fit::FitConfig { fit_file: fit, out_dir: out, overrides, holdout_after }, &mut stdout)
         }
         Command::Merge { shards, out } => bands::merge(&shards, &out, &mut stdout),
     }

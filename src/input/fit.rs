@@ -198,6 +198,14 @@ pub fn load_fit(path: &Path, overrides: &[Override]) -> Result<LoadedFit, InputE
     })
 }
 
+/// The cell file as a table with `overrides` aimed at the cell applied: the fitted cell, when
+/// they are the fitted values.
+pub fn cell_table_with(cell_path: &Path, overrides: &[Override]) -> Result<toml::Table, InputError> {
+    let mut document = TomlDocument::read(cell_path, OverrideTarget::Cell)?;
+    document.apply_overrides(overrides)?;
+    Ok(document.table().clone())
+}
+
 /// The number a `--set` path addresses in the files as loaded (after the dataset's overrides),
 /// or a rule saying why there is none.
 fn value_at(path: &str, source: &DatasetSource, loaded: &LoadedScenario) -> Result<f64, String> {

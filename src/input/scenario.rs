@@ -83,6 +83,36 @@ pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScena
     }
 }
 
+/// The `[uncertainty]` section of a file of its own (`bands --uncertainty FILE`, such as the
+/// `uncertainty.toml` a fit writes), checked against the scenario it will sample exactly as
+/// the scenario's own section would be, and used in its place.
+pub fn load_uncertainty_file(
+    file: &Path,
+    scenario_path: &Path,
+    overrides: &[Override],
+) -> Result<UncertaintySpec, InputError> {
+    /// The file holds the section and nothing else.
+    #[derive(Deserialize)]
+    #[serde(deny_unknown_fields)]
+    struct UncertaintyFile {
+        uncertainty: UncertaintySection,
+    }
+    let (_, loaded) = check_scenario_files(scenario_path, overrides).map_err(first_problem)?;
+    let document = TomlDocument::read(file, OverrideTarget::Scenario)?;
+    let section: UncertaintyFile = document.deserialize()?;
+    let mut checks = Checks::new(&document);
+    let spec = convert_uncertainty(&mut checks, Some(&section.uncertainty));
+    checks.finish(()).map_err(first_problem)?;
+    let probe =
+        FileProbe { scenario_path, cell_path: &loaded.cell_path, profile_path: &loaded.profile_path, overrides };
+    let problems = check_sampled_paths(&document, &spec, &probe);
+    if problems.is_empty() {
+        Ok(spec)
+    } else {
+        Err(first_problem(problems))
+    }
+}
+
 /// Everything but trying the sampled paths: the scenario file (the uncertainty section's own
 /// rules included), the cell and the duty cycle. Returns the scenario's document for reporting
 /// against it later.

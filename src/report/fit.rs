@@ -1,0 +1,192 @@
+//! Outputs of `fadecast fit`: the fit's JSON record, the fitted cell file, the uncertainty
+//! section `bands` reads, and the plot of data, fitted curves and residuals.
+
+use super::cycle_svg::{padded_range, plot_error};
+use super::ReportError;
+use crate::calibrate::{Axis, FitResult, FittedParameter, HoldoutError, ResidualStats};
+use plotters::prelude::*;
+use serde::Serialize;
+use std::fmt::Write as _;
+
+/// What fit.json holds: the fit's findings without the plotted curves.
+#[derive(Serialize)]
+struct FitRecord<'a> {
+    name: &'a str,
+    holdout_after: Option<f64>,
+    parameters: &'a [FittedParameter],
+    /// Row and column order as `parameters`.
+    correlation: &'a [Vec<f64>],
+    /// In natural coordinates: ln value for log parameters, the value otherwise.
+    covariance: &'a [Vec<f64>],
+    residuals: &'a [ResidualStats],
+    holdout: &'a [HoldoutError],
+    sum_of_squares: f64,
+    residual_variance: f64,
+    residual_count: usize,
+    model_evaluations: usize,
+    starts: usize,
+    termination: &'a str,
+    warnings: &'a [String],
+}
+
+/// fit.json.
+pub fn fit_json(result: &FitResult, name: &str, holdout_after: Option<f64>) -> Result<Vec<u8>, ReportError> {
+    let record = FitRecord {
+        name,
+        holdout_after,
+        parameters: &result.parameters,
+        correlation: &result.correlation,
+        covariance: &result.covariance,
+        residuals: &result.residuals,
+        holdout: &result.holdout,
+        sum_of_squares: result.sum_of_squares,
+        residual_variance: result.residual_variance,
+        residual_count: result.residual_count,
+        model_evaluations: result.model_evaluations,
+        starts: result.starts,
+        termination: &result.termination,
+        warnings: &result.warnings,
+    };
+    let mut bytes = serde_json::to_vec_pretty(&record)?;
+    bytes.push(b'\n');
+    Ok(bytes)
+}
+
+/// The fitted cell file: the cell's table (fitted values and `[calibration]` already in it),
+/// under a comment saying where it came from. Comments of the original file do not survive.
+pub fn fitted_cell_toml(table: &toml::Table, origin: &str) -> Result<String, ReportError> {
+    let body = toml::to_string(table).map_err(|e| ReportError::Plot(format!("could not format the cell: {e}")))?;
+    let mut text = String::new();
+    for line in origin.lines() {
+        let _ = writeln!(text, "# {line}");
+    }
+    text.push('\n');
+    text.push_str(&body);
+    Ok(text)
+}
+
+/// An `[uncertainty]` section with the fitted parameters as one correlated group: log-normal
+/// (median, sigma_ln) for log parameters, normal truncated to the fit's bounds otherwise.
+/// None when the fit has no finite standard errors to give.
+pub fn uncertainty_toml(result: &FitResult, origin: &str) -> Option<String> {
+    let finite = result.parameters.iter().all(|p| p.standard_error.is_finite() && p.standard_error > 0.0)
+        && result.correlation.iter().flatten().all(|c| c.is_finite());
+    if !finite || result.parameters.is_empty() {
+        return None;
+    }
+    let mut text = String::new();
+    for line in origin.lines() {
+        let _ = writeln!(text, "# {line}");
+    }
+    text.push_str("\n[uncertainty]\nsampling = \"latin-hypercube\"\n");
+    for p in &result.parameters {
+        let _ = writeln!(text, "\n[[uncertainty.parameter]]\npath = \"{}\"", p.path);
+        match p.sigma_ln {
+            Some(sigma_ln) => {
+                let _ =
+                    writeln!(text, "distribution = \"log-normal\"\nmedian = {:e}\nsigma_ln = {:e}", p.value, sigma_ln);
+            }
+            None => {
+                let _ = writeln!(
+                    text,
+                    "distribution = \"truncated-normal\"\nmean = {:e}\nsd = {:e}\nlow = {:e}\nhigh = {:e}",
+                    p.value, p.standard_error, p.low, p.high
+                );
+            }
+        }
+    }
+    if result.parameters.len() >= 2 {
+        let names: Vec<String> = result.parameters.iter().map(|p| format!("\"{}\"", p.path)).collect();
+        let rows: Vec<String> = result
+            .correlation
+            .iter()
+            .map(|row| format!("[{}]", row.iter().map(|c| format!("{c:.6}")).collect::<Vec<_>>().join(", ")))
+            .collect();
+        let _ = writeln!(
+            text,
+            "\n[[uncertainty.correlation]]\nparameters = [{}]\nmatrix = [{}]",
+            names.join(", "),
+            rows.join(", ")
+        );
+    }
+    Some(text)
+}
+
+const WIDTH_PX: u32 = 1000;
+const CURVE_HEIGHT_PX: u32 = 300;
+const RESIDUAL_HEIGHT_PX: u32 = 150;
+const FITTED_COLOUR: RGBColor = RGBColor(31, 119, 180);
+const HELD_OUT_COLOUR: RGBColor = RGBColor(214, 39, 40);
+
+/// Per dataset: measured capacity (fitted points filled, held-out points hollow) and the fitted
+/// curve, with the residuals (model − data) beneath.
+pub fn fit_svg(result: &FitResult, title: &str) -> Result<String, ReportError> {
+    let panels = result.curves.len().max(1) as u32;
+    let height = 40 + panels * (CURVE_HEIGHT_PX + RESIDUAL_HEIGHT_PX);
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, height)).into_drawing_area();
+        root.fill(&WHITE).map_err(plot_error)?;
+        let body = root.titled(title, ("sans-serif", 20)).map_err(plot_error)?;
+        let rows = body.split_evenly((result.curves.len().max(1), 1));
+        for (area, curve) in rows.iter().zip(&result.curves) {
+            let (top, bottom) = area.split_vertically(CURVE_HEIGHT_PX);
+            let measured: Vec<(f64, f64)> =
+                curve.x_data.iter().zip(&curve.capacity_data_ah).map(|(&x, &c)| (x, c)).collect();
+            let x_range = padded_range(curve.x.iter().chain(&curve.x_data).copied(), 0.02);
+            let y_range = padded_range(curve.capacity_ah.iter().chain(&curve.capacity_data_ah).copied(), 0.05);
+            let mut chart = ChartBuilder::on(&top)
+                .caption(&curve.dataset, ("sans-serif", 16))
+                .margin(10)
+                .x_label_area_size(30)
+                .y_label_area_size(70)
+                .build_cartesian_2d(x_range.clone(), y_range)
+                .map_err(plot_error)?;
+            chart.configure_mesh().y_desc("capacity, Ah").draw().map_err(plot_error)?;
+            chart
+                .draw_series(LineSeries::new(
+                    curve.x.iter().copied().zip(curve.capacity_ah.iter().copied()),
+                    &FITTED_COLOUR,
+                ))
+                .map_err(plot_error)?;
+            let fitted = measured.iter().zip(&curve.fitted).filter(|(_, &f)| f).map(|(&p, _)| p);
+            chart.draw_series(fitted.map(|p| Circle::new(p, 3, BLACK.filled()))).map_err(plot_error)?;
+            let held_out = measured.iter().zip(&curve.fitted).filter(|(_, &f)| !f).map(|(&p, _)| p);
+            chart.draw_series(held_out.map(|p| Circle::new(p, 3, HELD_OUT_COLOUR))).map_err(plot_error)?;
+
+            let residual_range = padded_range(curve.capacity_residual_ah.iter().copied().chain([0.0]), 0.1);
+            let mut residuals = ChartBuilder::on(&bottom)
+                .margin(10)
+                .x_label_area_size(35)
+                .y_label_area_size(70)
+                .build_cartesian_2d(x_range.clone(), residual_range)
+                .map_err(plot_error)?;
+            residuals
+                .configure_mesh()
+                .x_desc(axis_label(curve.axis))
+                .y_desc("model − data, Ah")
+                .draw()
+                .map_err(plot_error)?;
+            residuals
+                .draw_series(LineSeries::new([(x_range.start, 0.0), (x_range.end, 0.0)], &BLACK.mix(0.4)))
+                .map_err(plot_error)?;
+            let points = curve.x_data.iter().zip(&curve.capacity_residual_ah).zip(&curve.fitted);
+            residuals
+                .draw_series(points.map(|((&x, &r), &f)| {
+                    let style = if f { BLACK.filled() } else { HELD_OUT_COLOUR.filled() };
+                    Circle::new((x, r), 3, style)
+                }))
+                .map_err(plot_error)?;
+        }
+        root.present().map_err(plot_error)?;
+    }
+    Ok(svg)
+}
+
+fn axis_label(axis: Axis) -> &'static str {
+    match axis {
+        Axis::Cycle => "cycles",
+        Axis::Day => "days",
+        Axis::Efc => "equivalent full cycles",
+    }
+}
