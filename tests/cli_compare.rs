@@ -295,6 +295,8 @@ fn bad_input_exits_2_naming_the_flag_or_file() {
     refused(&["compare", OVERNIGHT_SCENARIO, "--profile", OVERNIGHT, "--profile", too_much], "too-much-power.toml");
     refused(&["compare", OVERNIGHT_SCENARIO, "--profile", OVERNIGHT], "--profile");
     refused(&["compare", OVERNIGHT_SCENARIO, "--variant", "no colon here"], "--variant");
+    // A variant of an input the draws set would be undone by every draw.
+    refused(&["compare", BANDS_SCENARIO, "--variant", "hot: ambient_c=40", "--samples", "4"], "ambient_c");
     refused(
         &["compare", OVERNIGHT_SCENARIO, "--profile", "profiles/missing.toml", "--profile", OVERNIGHT],
         "missing.toml",

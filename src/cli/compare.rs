@@ -114,6 +114,27 @@ fn alternative_sources(config: &CompareCommandConfig) -> Result<Vec<AlternativeS
     Ok(sources)
 }
 
+/// A variant that sets an input the `[uncertainty]` section samples would be silently undone
+/// by the draws (later overrides win), so it is refused.
+fn refuse_variants_of_sampled_inputs(sources: &[AlternativeSource], parameters: &[String]) -> Result<(), InputError> {
+    for source in sources.iter().filter(|s| s.flag == "--variant") {
+        for o in &source.overrides {
+            let key = o.key();
+            if parameters.iter().any(|p| *p == key || p.starts_with(&format!("{key}."))) {
+                return Err(InputError::command_line_flag(
+                    "--variant",
+                    format!(
+                        "\"{}\" sets `{key}`, which the scenario's [uncertainty] section samples, so every draw would \
+                         replace it; compare without --samples, or take `{key}` out of [uncertainty]",
+                        source.name
+                    ),
+                ));
+            }
+        }
+    }
+    Ok(())
+}
+
 pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), CliError> {
     if config.samples > MAX_SAMPLES {
         return Err(InputError::command_line_flag(
@@ -166,12 +187,15 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         None
     };
     let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
+    if sampler.is_some() {
+        refuse_variants_of_sampled_inputs(&sources, &parameters)?;
+    }
     // One sample of one alternative: the scenario files with the alternative's overrides and
     // the drawn values appended, so every input rule applies to the draws too.
     let build = |alternative: usize, values: &[f64]| {
         let mut overrides = overrides_of(&sources[alternative]);
         for (path, value) in parameters.iter().zip(values) {
-            overrides.push(input::parse_override(&format!("{path}={value:e}")).map_err(|e| e.to_string())?);
+            overrides.push(Override::number(path, *value).map_err(|e| e.to_string())?);
         }
         let loaded = input::load_scenario(&config.scenario, &overrides).map_err(|e| e.to_string())?;
         Ok((loaded.scenario, loaded.plan))

@@ -164,7 +164,7 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
     let build = |values: &[f64]| {
         let mut overrides = config.overrides.clone();
         for (path, value) in parameters.iter().zip(values) {
-            overrides.push(input::parse_override(&format!("{path}={value:e}")).map_err(|e| e.to_string())?);
+            overrides.push(Override::number(path, *value).map_err(|e| e.to_string())?);
         }
         let loaded = input::load_scenario(&config.scenario, &overrides).map_err(|e| e.to_string())?;
         Ok((loaded.scenario, loaded.plan))
