@@ -139,7 +139,7 @@ impl Default for FitOptions {
     fn default() -> Self {
         FitOptions {
             starts: 3,
-            forecast: ForecastOptions { every_cycle: false, report_points: 200, relative_tolerance: 1e-6 },
+            forecast: ForecastOptions { every_cycle: false, report_points: 200, relative_tolerance: 1e-5 },
             curve_points: 200,
         }
     }
