@@ -137,6 +137,17 @@ fn variants_compare_the_scenario_with_itself_changed() {
     assert!(soh("hot depot") < soh("scenario"));
 }
 
+#[test]
+fn a_limit_exceeded_by_one_alternative_is_printed_naming_it() {
+    // Operation outside the cell's limits is a caution, never dropped (DEVELOPERS.md).
+    let dir = tempfile::tempdir().unwrap();
+    let args =
+        [OVERNIGHT_SCENARIO, "--variant", "hard drive: profile.block.0.step.0.discharge_c=3.5", "--cycles", "100"];
+    let (stdout, _) = compare(dir.path(), &args);
+    assert!(stdout.contains("\"hard drive\": the profile discharges at"), "{stdout}");
+    assert!(stdout.trim_end().ends_with(fadecast::CAUTION));
+}
+
 fn table(out: &Path, args: &[&str]) -> Vec<BTreeMap<String, String>> {
     fadecast().arg("table").args(args).arg("--out").arg(out).assert().success();
     read_csv(&out.join("table.csv"))

@@ -250,8 +250,28 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
             ));
         }
     }
-    // Limit and calibration warnings of the nominal forecasts are in `forecast`'s output; here
-    // the one that matters across alternatives is said once.
+    // The forecasts' own warnings (limits, calibration; plating is flagged above): once when
+    // every alternative raised the same, otherwise naming the alternatives that did.
+    let mut raised: Vec<(String, Vec<String>)> = Vec::new();
+    for s in &summaries {
+        let runs = s.usable + s.invalid + s.failed;
+        for (warning, count) in s.warnings.iter().filter(|(w, _)| !w.contains("plating")) {
+            let line =
+                if comparison.sampled { format!("{warning} (in {count} of {runs} samples)") } else { warning.clone() };
+            match raised.iter_mut().find(|(l, _)| *l == line) {
+                Some((_, names)) => names.push(s.name.clone()),
+                None => raised.push((line, vec![s.name.clone()])),
+            }
+        }
+    }
+    for (line, names) in raised {
+        if names.len() == summaries.len() {
+            cautions.push(line);
+        } else {
+            let names: Vec<String> = names.iter().map(|n| format!("\"{n}\"")).collect();
+            cautions.push(format!("{}: {line}", names.join(", ")));
+        }
+    }
     cautions.push(
         "each alternative's life is a model estimate; choose a protocol on test evidence, not on this ranking alone"
             .into(),

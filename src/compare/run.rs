@@ -83,6 +83,8 @@ pub struct Outcome {
     pub peak_temperature_c: f64,
     /// The forecast warned of lithium plating.
     pub plating: bool,
+    /// Every warning of the forecast (plating, limits, calibration), as it gave them.
+    pub warnings: Vec<String>,
     /// The fade curve at the reported points: (cycle, day, state of health %).
     pub curve: Vec<(f64, f64, f32)>,
 }
@@ -186,6 +188,7 @@ fn invalid(message: String) -> Outcome {
         soh_at_horizon_pct: f64::NAN,
         peak_temperature_c: f64::NAN,
         plating: false,
+        warnings: Vec::new(),
         curve: Vec::new(),
     }
 }
@@ -221,6 +224,7 @@ pub(crate) fn outcome_of(f: &Forecast) -> Outcome {
         soh_at_horizon_pct: if horizon_reached { last.map_or(f64::NAN, |p| p.soh_pct) } else { f64::NAN },
         peak_temperature_c: f.points.iter().map(|p| p.peak_temperature_c).fold(f64::NEG_INFINITY, f64::max),
         plating: f.warnings.iter().any(|w| w.contains("plating")),
+        warnings: f.warnings.clone(),
         curve: f.points.iter().map(|p| (p.cycle, p.day, p.soh_pct as f32)).collect(),
     }
 }

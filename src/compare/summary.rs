@@ -71,6 +71,9 @@ pub struct AlternativeSummary {
     pub plating_fraction: f64,
     /// Time spent charging in one beginning-of-life cycle, s.
     pub charge_time_s: f64,
+    /// Distinct forecast warnings with how many samples raised each. Warnings that differ only
+    /// in their numbers (one message about different samples) count as one, worded as first raised.
+    pub warnings: Vec<(String, usize)>,
     /// None for the first alternative (the reference).
     pub paired: Option<PairedDifference>,
     pub curve: Vec<CurveBand>,
@@ -120,6 +123,7 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
                     outcomes.iter().filter(|o| o.plating).count() as f64 / outcomes.len() as f64
                 },
                 charge_time_s: comparison.charge_time_s.get(a).copied().unwrap_or(f64::NAN),
+                warnings: distinct_warnings(outcomes),
                 paired: match reference {
                     Some(first) if a > 0 => Some(paired_difference(first, outcomes, comparison.sampled)),
                     _ => None,
@@ -128,6 +132,22 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
             }
         })
         .collect()
+}
+
+/// The warnings of all outcomes, one per message (its text up to the first digit), counted.
+fn distinct_warnings(outcomes: &[Outcome]) -> Vec<(String, usize)> {
+    let message = |w: &str| w.split(|c: char| c.is_ascii_digit()).next().unwrap_or_default().to_string();
+    let mut out: Vec<(String, String, usize)> = Vec::new();
+    for o in outcomes {
+        for w in &o.warnings {
+            let key = message(w);
+            match out.iter_mut().find(|(k, _, _)| *k == key) {
+                Some(entry) => entry.2 += 1,
+                None => out.push((key, w.clone(), 1)),
+            }
+        }
+    }
+    out.into_iter().map(|(_, text, count)| (text, count)).collect()
 }
 
 fn sorted(mut values: Vec<f64>) -> Vec<f64> {
@@ -217,6 +237,7 @@ mod tests {
             soh_at_horizon_pct: 80.0,
             peak_temperature_c: 30.0,
             plating: false,
+            warnings: vec![],
             curve: vec![],
         }
     }
@@ -238,6 +259,18 @@ mod tests {
         assert_eq!(d.censored_pairs, 1);
         assert_eq!(d.probability_outlasts, 0.75);
         assert_eq!(d.median_cycles, 25.0);
+    }
+
+    #[test]
+    fn warnings_differing_only_in_numbers_count_as_one() {
+        let mut a = outcome(None);
+        a.warnings = vec!["the cell reaches 61.2 °C".into(), "no calibration".into()];
+        let mut b = outcome(None);
+        b.warnings = vec!["the cell reaches 63.0 °C".into()];
+        assert_eq!(
+            distinct_warnings(&[a, b]),
+            vec![("the cell reaches 61.2 °C".to_string(), 2), ("no calibration".to_string(), 1)]
+        );
     }
 
     #[test]
