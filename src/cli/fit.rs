@@ -136,10 +136,10 @@ fn summary(loaded: &LoadedFit, result: &FitResult, holdout_after: Option<f64>) -
     text.push_str("Parameters (± one standard error)\n");
     for p in &result.parameters {
         let spread = match p.sigma_ln {
-            Some(sigma_ln) => format!("± {} (sigma_ln {})", sig(p.standard_error, 3), sig(sigma_ln, 3)),
-            None => format!("± {}", sig(p.standard_error, 3)),
+            Some(sigma_ln) => format!("± {} (sigma_ln {})", number(p.standard_error), sig(sigma_ln, 3)),
+            None => format!("± {}", number(p.standard_error)),
         };
-        let _ = writeln!(text, "  {:<48}{:>12} {spread}   (start {})", p.path, sig(p.value, 4), sig(p.initial, 4));
+        let _ = writeln!(text, "  {:<48}{:>11} {spread}   (start {})", p.path, number(p.value), number(p.initial));
     }
     if result.parameters.len() >= 2 {
         text.push_str("Correlation\n");
@@ -185,4 +185,14 @@ fn summary(loaded: &LoadedFit, result: &FitResult, holdout_after: Option<f64>) -
          and the fitted cell's [calibration] table makes forecasts beyond it say so.\n",
     );
     text
+}
+
+/// Four significant figures, in exponent form for the very small or large values rates and
+/// diffusivities take.
+fn number(value: f64) -> String {
+    if value != 0.0 && !(1e-3..1e5).contains(&value.abs()) {
+        format!("{value:.3e}")
+    } else {
+        sig(value, 4)
+    }
 }
