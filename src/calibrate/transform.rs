@@ -30,11 +30,9 @@ impl Bounded {
     pub fn value(&self, z: f64) -> f64 {
         let (lo, hi) = self.natural_range();
         let phi = lo + (hi - lo) * logistic(z);
-        if self.log {
-            phi.exp()
-        } else {
-            phi
-        }
+        let value = if self.log { phi.exp() } else { phi };
+        // exp(ln low) may round below low; the bounds are what the input rules were checked at.
+        value.clamp(self.low, self.high)
     }
 
     /// The z of a value (clamped just inside the bounds).
