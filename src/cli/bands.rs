@@ -277,6 +277,29 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
     finish(&description, &records, &config.out_dir, out)
 }
 
+/// The sampler of a command that runs with or without samples: None when `--samples` is 0 or
+/// the scenario has no [uncertainty] section (then a note says what `--samples` did not do).
+pub(super) fn optional_sampler(
+    spec: &crate::ensemble::UncertaintySpec,
+    samples: u64,
+    seed: u64,
+    scenario: &Path,
+    without_samples: &str,
+    notes: &mut Vec<String>,
+) -> Result<Option<Sampler>, InputError> {
+    if samples > 0 && !spec.parameters.is_empty() {
+        let sampler =
+            Sampler::new(spec, seed, samples).map_err(|e| InputError::new(scenario, format!("uncertainty: {e}")))?;
+        return Ok(Some(sampler));
+    }
+    if samples > 0 {
+        notes.push(format!(
+            "--samples {samples} ignored: the scenario has no [uncertainty] section, so {without_samples}"
+        ));
+    }
+    Ok(None)
+}
+
 fn read_description(dir: &Path) -> Result<RunDescription, CliError> {
     let path = dir.join(RUN_NAME);
     let text = fs::read_to_string(&path).map_err(|e| InputError::unreadable(&path, &e))?;

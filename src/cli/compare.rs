@@ -8,7 +8,6 @@
 
 use super::{caution_lines, print_caution, CliError};
 use crate::compare::{self, summarize_comparison, Alternative, CompareConfig, CompareError};
-use crate::ensemble::Sampler;
 use crate::forecast::{ForecastOptions, Horizon};
 use crate::input::{self, InputError, Override, OverrideTarget};
 use crate::report;
@@ -172,20 +171,14 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     }
     let mut notes: Vec<String> = first.warnings.clone();
     let spec = &first.uncertainty;
-    let sampler = if config.samples > 0 && !spec.parameters.is_empty() {
-        Some(
-            Sampler::new(spec, config.seed, config.samples)
-                .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?,
-        )
-    } else {
-        if config.samples > 0 {
-            notes.push(format!(
-                "--samples {} ignored: the scenario has no [uncertainty] section, so each alternative ran once",
-                config.samples
-            ));
-        }
-        None
-    };
+    let sampler = super::bands::optional_sampler(
+        spec,
+        config.samples,
+        config.seed,
+        &config.scenario,
+        "each alternative ran once",
+        &mut notes,
+    )?;
     let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
     if sampler.is_some() {
         refuse_variants_of_sampled_inputs(&sources, &parameters)?;

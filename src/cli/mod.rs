@@ -191,12 +191,9 @@ enum Command {
         /// Worker threads (default: the machine's cores).
         #[arg(long, value_name = "J")]
         jobs: Option<usize>,
-        /// Horizon in cycles (overrides the scenario's).
-        #[arg(long, value_name = "N", allow_negative_numbers = true)]
-        cycles: Option<f64>,
-        /// Horizon in years (overrides the scenario's).
-        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
-        years: Option<f64>,
+        #[command(flatten)]
+        horizon: HorizonArgs,
+        /// Directory for the outputs; created if missing.
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
         #[command(flatten)]
@@ -228,12 +225,9 @@ enum Command {
         /// Worker threads (default: the machine's cores).
         #[arg(long, value_name = "J")]
         jobs: Option<usize>,
-        /// Horizon in cycles (overrides the scenario's).
-        #[arg(long, value_name = "N", allow_negative_numbers = true)]
-        cycles: Option<f64>,
-        /// Horizon in years (overrides the scenario's).
-        #[arg(long, value_name = "Y", allow_negative_numbers = true)]
-        years: Option<f64>,
+        #[command(flatten)]
+        horizon: HorizonArgs,
+        /// Directory for the outputs; created if missing.
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
         #[command(flatten)]
@@ -360,7 +354,7 @@ pub fn run() -> Result<(), CliError> {
             };
             bands::run(&config, &mut stdout)
         }
-        Command::Compare { scenario, profiles, variants, samples, seed, jobs, cycles, years, out, overrides } => {
+        Command::Compare { scenario, profiles, variants, samples, seed, jobs, horizon, out, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
             let config = compare::CompareCommandConfig {
                 scenario,
@@ -370,24 +364,12 @@ pub fn run() -> Result<(), CliError> {
                 samples,
                 seed,
                 jobs: parse_jobs(jobs)?,
-                horizon: input::parse_horizon(cycles, years)?,
+                horizon: horizon.parse()?,
                 out_dir: out,
             };
             compare::run(&config, &mut stdout)
         }
-        Command::Table {
-            scenario,
-            ambient_c,
-            c_rate,
-            soc_window,
-            samples,
-            seed,
-            jobs,
-            cycles,
-            years,
-            out,
-            overrides,
-        } => {
+        Command::Table { scenario, ambient_c, c_rate, soc_window, samples, seed, jobs, horizon, out, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
             let config = table::TableCommandConfig {
                 scenario,
@@ -398,7 +380,7 @@ pub fn run() -> Result<(), CliError> {
                 samples,
                 seed,
                 jobs: parse_jobs(jobs)?,
-                horizon: input::parse_horizon(cycles, years)?,
+                horizon: horizon.parse()?,
                 out_dir: out,
             };
             table::run(&config, &mut stdout)

@@ -4,7 +4,6 @@
 
 use super::{caution_lines, print_caution, CliError};
 use crate::compare::{run_table, CompareError, Condition, TableConfig};
-use crate::ensemble::Sampler;
 use crate::forecast::{ForecastOptions, Horizon, StopReason};
 use crate::input::{self, InputError, Override};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
@@ -146,20 +145,14 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
     }
     let mut notes = loaded.warnings.clone();
     let spec = &loaded.uncertainty;
-    let sampler = if config.samples > 0 && !spec.parameters.is_empty() {
-        Some(
-            Sampler::new(spec, config.seed, config.samples)
-                .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?,
-        )
-    } else {
-        if config.samples > 0 {
-            notes.push(format!(
-                "--samples {} ignored: the scenario has no [uncertainty] section, so the table has no quantile columns",
-                config.samples
-            ));
-        }
-        None
-    };
+    let sampler = super::bands::optional_sampler(
+        spec,
+        config.samples,
+        config.seed,
+        &config.scenario,
+        "the table has no quantile columns",
+        &mut notes,
+    )?;
     let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
     let build = |values: &[f64]| {
         let mut overrides = config.overrides.clone();
