@@ -176,6 +176,21 @@ impl Affine {
 struct Scratch {
     neg: ModeStep,
     pos: ModeStep,
+    /// (dt, negative D, positive D) the factors above were computed for: a step that is
+    /// committed right after its trial reuses them instead of recomputing every exponential.
+    factors_for: Option<(f64, f64, f64)>,
+}
+
+impl Scratch {
+    fn prepare(&mut self, neg: &ParticleModel, pos: &ParticleModel, cond: &StepConditions, dt: f64) {
+        let key = (dt, cond.neg_diffusivity, cond.pos_diffusivity);
+        if self.factors_for == Some(key) {
+            return;
+        }
+        neg.modes.step_factors(neg.radius_m, cond.neg_diffusivity, dt, &mut self.neg);
+        pos.modes.step_factors(pos.radius_m, cond.pos_diffusivity, dt, &mut self.pos);
+        self.factors_for = Some(key);
+    }
 }
 
 /// What the current is set by during a trial.
@@ -275,8 +290,7 @@ impl CellModel {
     fn responses(&self, state: &CellState, cond: &StepConditions, dt: f64, scratch: &mut Scratch) -> [Affine; 4] {
         let neg = &self.neg;
         let pos = &self.pos;
-        neg.modes.step_factors(neg.radius_m, cond.neg_diffusivity, dt, &mut scratch.neg);
-        pos.modes.step_factors(pos.radius_m, cond.pos_diffusivity, dt, &mut scratch.pos);
+        scratch.prepare(neg, pos, cond, dt);
         // Flux into each particle per ampere, in stoichiometry units: discharge empties the
         // negative and fills the positive.
         let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * neg.max_concentration);
@@ -363,10 +377,9 @@ impl CellModel {
         self.cell.positive.entropic_coefficient_v_k - self.cell.negative.entropic_coefficient_v_k
     }
 
-    /// Moves the state to the end of an accepted trial (the mode factors must be the trial's).
+    /// Moves the state to the end of an accepted trial.
     fn commit(&self, state: &mut CellState, cond: &StepConditions, trial: &Trial, scratch: &mut Scratch) {
-        self.neg.modes.step_factors(self.neg.radius_m, cond.neg_diffusivity, trial.dt, &mut scratch.neg);
-        self.pos.modes.step_factors(self.pos.radius_m, cond.pos_diffusivity, trial.dt, &mut scratch.pos);
+        scratch.prepare(&self.neg, &self.pos, cond, trial.dt);
         let neg_flux = -trial.current / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
         let pos_flux = trial.current / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
         scratch.neg.apply(&mut state.neg_modes, neg_flux);
