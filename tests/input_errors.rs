@@ -1471,3 +1471,20 @@ fn demo_scenarios_load() {
         }
     }
 }
+
+#[test]
+fn film_breathing_table_loads_and_is_refused_on_the_positive() {
+    let loaded =
+        fadecast::input::load_scenario(std::path::Path::new("examples/van-fleet-overnight.toml"), &[]).unwrap();
+    let breathing = loaded.scenario.cell.aging.film_breathing.expect("on in the 5 Ah demo cell");
+    assert_eq!(breathing.exponent, 5.0);
+    assert!((breathing.activation_j_mol - 20e3).abs() < 1e-9);
+    let off = fadecast::input::parse_override("cell.negative.film_breathing.enabled=false").unwrap();
+    let loaded =
+        fadecast::input::load_scenario(std::path::Path::new("examples/van-fleet-overnight.toml"), &[off]).unwrap();
+    assert!(loaded.scenario.cell.aging.film_breathing.is_none());
+    let misplaced = fadecast::input::parse_override("cell.positive.film_breathing.rate_per_cycle=0.1").unwrap();
+    let error = fadecast::input::load_scenario(std::path::Path::new("examples/van-fleet-overnight.toml"), &[misplaced])
+        .unwrap_err();
+    assert!(error.to_string().contains("positive.film_breathing"), "{error}");
+}

@@ -9,11 +9,14 @@ pub mod active_loss;
 pub mod crack_film;
 pub mod cracking;
 pub mod film;
+pub mod film_breathing;
 pub mod params;
 pub mod plating;
 pub mod state;
 
-pub use params::{ActiveLossParams, AgingParams, CalibrationRange, CrackingParams, FilmParams, PlatingParams};
+pub use params::{
+    ActiveLossParams, AgingParams, CalibrationRange, CrackingParams, FilmBreathingParams, FilmParams, PlatingParams,
+};
 pub use state::{film_resistance_ohm, health_of, negative_surfaces, AgingState, Surfaces, STATE_LEN};
 
 use crate::cycle::{Cell, CycleRecord};
@@ -54,6 +57,9 @@ pub fn mechanisms_for(cell: &Cell) -> Vec<Box<dyn Mechanism>> {
         list.push(Box::new(film::FilmOnOriginalSurface { params: p }));
         if a.neg_cracking.is_some() {
             list.push(Box::new(crack_film::FilmOnCrackSurface { film: p }));
+        }
+        if let Some(b) = a.film_breathing {
+            list.push(Box::new(film_breathing::FilmBreathing { params: b }));
         }
     }
     if let Some(p) = a.neg_cracking {

@@ -68,10 +68,25 @@ pub struct ActiveLossParams {
     pub reference_temperature_k: f64,
 }
 
+/// Film fracture by the breathing of the negative's host lattice: each cycle the particles
+/// swell and shrink with the swing of their lithium content, and a fraction
+/// k(T)·(Δε/ε_ref)^m of the film on the original surface breaks off, the surface beneath
+/// regrowing from bare. Δε = Ω·c_max·Δθ is the volumetric strain swing of the cycle.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FilmBreathingParams {
+    /// Fraction of the film broken per cycle at a strain swing of `reference_strain`.
+    pub rate_per_cycle: f64,
+    pub reference_strain: f64,
+    pub exponent: f64,
+    pub activation_j_mol: f64,
+    pub reference_temperature_k: f64,
+}
+
 /// Every aging law of a cell; `None` means switched off.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct AgingParams {
     pub film: Option<FilmParams>,
+    pub film_breathing: Option<FilmBreathingParams>,
     pub neg_cracking: Option<CrackingParams>,
     pub pos_cracking: Option<CrackingParams>,
     pub plating: Option<PlatingParams>,

@@ -8,8 +8,9 @@ use super::checks::Checks;
 use super::document::{check_shape, TomlDocument};
 use super::error::{first_problem, InputError};
 use super::mechanisms::{
-    convert_active_loss, convert_calibration, convert_cracking, convert_film, convert_plating, reject_on_positive,
-    ActiveLossSection, CalibrationSection, CrackingSection, FilmSection, PlatingSection, Surroundings,
+    convert_active_loss, convert_calibration, convert_cracking, convert_film, convert_film_breathing, convert_plating,
+    reject_on_positive, ActiveLossSection, CalibrationSection, CrackingSection, FilmBreathingSection, FilmSection,
+    PlatingSection, Surroundings,
 };
 use super::overrides::{Override, OverrideTarget};
 use super::suggest;
@@ -99,6 +100,7 @@ struct ElectrodeSection {
     // Aging-mechanism tables; film growth and plating are read on the negative electrode
     // only, and rejected under the positive one.
     film: Option<FilmSection>,
+    film_breathing: Option<FilmBreathingSection>,
     cracking: Option<CrackingSection>,
     plating: Option<PlatingSection>,
     active_loss: Option<ActiveLossSection>,
@@ -291,8 +293,18 @@ fn convert_aging(checks: &mut Checks<'_>, file: &CellFile, reference_temperature
     };
     reject_on_positive(checks, "film", positive.film.is_some(), "film growth");
     reject_on_positive(checks, "plating", positive.plating.is_some(), "lithium plating");
+    reject_on_positive(
+        checks,
+        "film_breathing",
+        positive.film_breathing.is_some(),
+        "film fracture by lattice breathing",
+    );
     AgingParams {
         film: negative.film.as_ref().and_then(|s| convert_film(checks, "negative.film", s, around(negative))),
+        film_breathing: negative
+            .film_breathing
+            .as_ref()
+            .and_then(|s| convert_film_breathing(checks, "negative.film_breathing", s, around(negative))),
         neg_cracking: negative
             .cracking
             .as_ref()

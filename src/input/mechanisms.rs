@@ -10,7 +10,9 @@ use serde::Deserialize;
 
 use super::checks::Checks;
 use super::units::{CUBIC_CENTIMETRE, KILO, MEGA, NANO, PER_SQUARE_MICROMETRE};
-use crate::aging::{ActiveLossParams, CalibrationRange, CrackingParams, FilmParams, PlatingParams};
+use crate::aging::{
+    ActiveLossParams, CalibrationRange, CrackingParams, FilmBreathingParams, FilmParams, PlatingParams,
+};
 use crate::material::constants::ZERO_CELSIUS_K;
 
 const DEFAULT_TRANSFER_COEFFICIENT: f64 = 0.5;
@@ -73,6 +75,19 @@ pub(super) struct PlatingSection {
     activation_kj_mol: Option<f64>,
     transfer_coefficient: Option<f64>,
     irreversible_fraction: Option<f64>,
+    reference_temperature_c: Option<f64>,
+}
+
+/// `[negative.film_breathing]`: film fracture by the host lattice's volume swing.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct FilmBreathingSection {
+    #[serde(default = "switched_on")]
+    enabled: bool,
+    rate_per_cycle: Option<f64>,
+    reference_strain: Option<f64>,
+    exponent: Option<f64>,
+    activation_kj_mol: Option<f64>,
     reference_temperature_c: Option<f64>,
 }
 
@@ -262,6 +277,25 @@ pub(super) fn convert_plating(
         activation_j_mol: rules.activation_j_mol("activation_kj_mol", section.activation_kj_mol),
         transfer_coefficient: rules.transfer_coefficient(section.transfer_coefficient),
         irreversible_fraction: irreversible_fraction.unwrap_or(f64::NAN),
+        reference_temperature_k: rules.reference_temperature_k(section.reference_temperature_c, surroundings),
+    })
+}
+
+pub(super) fn convert_film_breathing(
+    checks: &mut Checks<'_>,
+    table: &str,
+    section: &FilmBreathingSection,
+    surroundings: Surroundings,
+) -> Option<FilmBreathingParams> {
+    if !section.enabled {
+        return None;
+    }
+    let mut rules = TableRules { checks, table };
+    Some(FilmBreathingParams {
+        rate_per_cycle: rules.non_negative("rate_per_cycle", section.rate_per_cycle),
+        reference_strain: rules.positive("reference_strain", section.reference_strain),
+        exponent: rules.positive("exponent", section.exponent),
+        activation_j_mol: rules.activation_j_mol("activation_kj_mol", section.activation_kj_mol),
         reference_temperature_k: rules.reference_temperature_k(section.reference_temperature_c, surroundings),
     })
 }
