@@ -1477,7 +1477,7 @@ fn film_breathing_table_loads_and_is_refused_on_the_positive() {
     let loaded =
         fadecast::input::load_scenario(std::path::Path::new("examples/van-fleet-overnight.toml"), &[]).unwrap();
     let breathing = loaded.scenario.cell.aging.film_breathing.expect("on in the 5 Ah demo cell");
-    assert_eq!(breathing.exponent, 5.0);
+    assert_eq!(breathing.exponent, 4.0);
     assert!((breathing.activation_j_mol - 20e3).abs() < 1e-9);
     let off = fadecast::input::parse_override("cell.negative.film_breathing.enabled=false").unwrap();
     let loaded =

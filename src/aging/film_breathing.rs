@@ -1,21 +1,25 @@
 //! Film fracture by the breathing of the negative electrode's host lattice.
 //!
 //! Graphite swells by about a tenth between empty and full; the film on its surface cannot
-//! follow and cracks. Per cycle a fraction f = k(T)·(Δε/ε_ref)^m of the film on the original
-//! surface breaks off, with Δε = Ω·c_max·Δθ the volumetric strain swing over the cycle's range
-//! of mean stoichiometry Δθ. The lithium in the broken film stays lost (it is already counted
-//! by the film law); the surface beneath regrows from bare, which the mean film thickness
-//! carries: dδ/dN = −f·δ on top of the growth law. With m > 2 a deep cycle costs more lithium
-//! per unit of charge passed than a shallow one, which is why narrow state-of-charge windows
-//! last longer in equivalent full cycles.
+//! follow and cracks. Per cycle a fraction f = k(T)·(Δε/ε_ref)^m (at most 1) of the original
+//! surface is laid bare, with Δε = Ω·c_max·Δθ the volumetric strain swing over the cycle's
+//! range of mean stoichiometry Δθ. The bared patches regrow film over the cycle and the idle
+//! time after it, by the same mixed-control law as fresh surface (`super::film`), consuming
+//! lithium: per cycle f·A·g₀/V̄, with g₀ the growth of a bare surface over one cycle period.
+//! The mean film thickness is left as it is (the patches close again to about the thickness
+//! around them), so the mechanism adds no fast dynamics to the slow state. With m > 1 a deep
+//! cycle costs more lithium per unit of charge passed than a shallow one, which is why narrow
+//! state-of-charge windows last longer in equivalent full cycles.
 //!
 //! References: I. Laresgoiti, S. Käbitz, M. Ecker, D. U. Sauer, J. Power Sources 300 (2015) 112
 //! (film fracture driven by the graphite's volume change over a cycle; from memory);
 //! review: J. M. Reniers, G. Mulder, D. A. Howey, J. Electrochem. Soc. 166 (2019) A3189.
 
-use super::{mean_temperature_k, AgingContext, AgingState, Mechanism};
-use crate::aging::FilmBreathingParams;
+use super::film::growth_per_cycle;
+use super::{mean_temperature_k, negative_surfaces, AgingContext, AgingState, Mechanism};
+use crate::aging::{FilmBreathingParams, FilmParams};
 use crate::material::arrhenius_factor;
+use crate::material::constants::FARADAY;
 
 /// Fraction of the film broken in one cycle at a strain swing and temperature (at most 1).
 pub fn broken_fraction(p: &FilmBreathingParams, strain_swing: f64, temperature_k: f64) -> f64 {
@@ -31,6 +35,7 @@ pub fn broken_fraction(p: &FilmBreathingParams, strain_swing: f64, temperature_k
 #[derive(Debug, Clone, Copy)]
 pub struct FilmBreathing {
     pub params: FilmBreathingParams,
+    pub film: FilmParams,
 }
 
 impl Mechanism for FilmBreathing {
@@ -49,7 +54,14 @@ impl Mechanism for FilmBreathing {
         let negative = &context.cell.negative;
         let strain = negative.partial_molar_volume_m3_mol * negative.max_concentration_mol_m3 * (hi - lo);
         let fraction = broken_fraction(&self.params, strain, mean_temperature_k(record));
-        rate.film_original_nm -= fraction * state.film_original_nm;
+        if fraction <= 0.0 {
+            return;
+        }
+        let bared_m2 = fraction * negative_surfaces(context.cell, state).original_m2;
+        let regrowth_m = growth_per_cycle(&self.film, 0.0, context);
+        let lithium = regrowth_m / self.film.molar_volume_m3_mol * bared_m2 * FARADAY / context.lithium_fresh_coulomb;
+        rate.lithium_film_original += lithium;
+        rate.lithium_inventory -= lithium;
     }
 }
 

@@ -59,7 +59,7 @@ pub fn mechanisms_for(cell: &Cell) -> Vec<Box<dyn Mechanism>> {
             list.push(Box::new(crack_film::FilmOnCrackSurface { film: p }));
         }
         if let Some(b) = a.film_breathing {
-            list.push(Box::new(film_breathing::FilmBreathing { params: b }));
+            list.push(Box::new(film_breathing::FilmBreathing { params: b, film: p }));
         }
     }
     if let Some(p) = a.neg_cracking {

@@ -70,11 +70,11 @@ pub struct ActiveLossParams {
 
 /// Film fracture by the breathing of the negative's host lattice: each cycle the particles
 /// swell and shrink with the swing of their lithium content, and a fraction
-/// k(T)·(Δε/ε_ref)^m of the film on the original surface breaks off, the surface beneath
-/// regrowing from bare. Δε = Ω·c_max·Δθ is the volumetric strain swing of the cycle.
+/// k(T)·(Δε/ε_ref)^m of the original surface is laid bare and regrows film.
+/// Δε = Ω·c_max·Δθ is the volumetric strain swing of the cycle.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FilmBreathingParams {
-    /// Fraction of the film broken per cycle at a strain swing of `reference_strain`.
+    /// Fraction of the surface laid bare per cycle at a strain swing of `reference_strain`.
     pub rate_per_cycle: f64,
     pub reference_strain: f64,
     pub exponent: f64,
