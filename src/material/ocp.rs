@@ -54,7 +54,7 @@ impl BuiltinOcp {
         match self {
             BuiltinOcp::GraphiteMcmb1996 => {
                 0.7222 + 0.1387 * x + 0.029 * x.sqrt() - 0.0172 / x
-                    + 0.0019 / x.powf(1.5)
+                    + 0.0019 / (x * x.sqrt())
                     + 0.2808 * (0.9 - 15.0 * x).exp()
                     - 0.7984 * (0.4465 * x - 0.4108).exp()
             }
