@@ -10,7 +10,7 @@
 //! (from memory); review: J. M. Reniers, G. Mulder, D. A. Howey, J. Electrochem. Soc. 166 (2019)
 //! A3189.
 
-use super::{mean_temperature_k, ActiveLossParams, AgingContext, AgingState, Mechanism, Side};
+use super::{mean_temperature_k, ActiveLossParams, AgingContext, AgingState, Component, Mechanism, Side};
 use crate::material::arrhenius_factor;
 
 /// Fraction of the remaining active material lost per cycle at a peak hoop stress.
@@ -42,8 +42,12 @@ impl Mechanism for ActiveLoss {
         let Some(record) = context.record else { return };
         let cell = context.cell;
         let (stress_of, lost, capacity): (fn(&crate::cycle::TracePoint) -> f64, f64, f64) = match self.side {
-            Side::Negative => (|p| p.neg_surface_stress_pa, state.neg_active_lost, cell.negative.capacity_coulomb()),
-            Side::Positive => (|p| p.pos_surface_stress_pa, state.pos_active_lost, cell.positive.capacity_coulomb()),
+            Side::Negative => {
+                (|p| p.neg_surface_stress_pa, state[Component::NegActiveLost], cell.negative.capacity_coulomb())
+            }
+            Side::Positive => {
+                (|p| p.pos_surface_stress_pa, state[Component::PosActiveLost], cell.positive.capacity_coulomb())
+            }
         };
         let Some(peak) = record.trace.iter().map(stress_of).max_by(f64::total_cmp) else { return };
         let loss = loss_per_cycle(&self.params, peak, mean_temperature_k(record)) * (1.0 - lost);
@@ -59,11 +63,10 @@ impl Mechanism for ActiveLoss {
             if total > 0.0 { super::trapezoid(&record.trace, |p| weight(p) * stoich_of(p)) / total } else { 0.0 };
         let stranded = loss * capacity * stoich / context.lithium_fresh_coulomb;
         match self.side {
-            Side::Negative => rate.neg_active_lost += loss,
-            Side::Positive => rate.pos_active_lost += loss,
+            Side::Negative => rate[Component::NegActiveLost] += loss,
+            Side::Positive => rate[Component::PosActiveLost] += loss,
         }
-        rate.lithium_stranded += stranded;
-        rate.lithium_inventory -= stranded;
+        rate.move_lithium(Component::LithiumStranded, stranded);
     }
 }
 

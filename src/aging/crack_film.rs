@@ -11,7 +11,7 @@
 
 use super::film::growth_per_cycle;
 use super::state::crack_film_thickness_m;
-use super::{negative_surfaces, AgingContext, AgingState, FilmParams, Mechanism};
+use super::{negative_surfaces, AgingContext, AgingState, Component, FilmParams, Mechanism};
 use crate::material::constants::FARADAY;
 
 #[derive(Debug, Clone, Copy)]
@@ -25,15 +25,14 @@ impl Mechanism for FilmOnCrackSurface {
     }
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
-        let crack_area = negative_surfaces(context.cell, state).crack_m2;
+        let crack_area = negative_surfaces(context.cell, context.aging, state).crack_m2;
         if crack_area <= 0.0 {
             return;
         }
         // New area enters bare, which the mean thickness (volume over area) already reflects.
-        let thickness = crack_film_thickness_m(context.cell, state);
+        let thickness = crack_film_thickness_m(context.cell, context.aging, state);
         let growth_m = growth_per_cycle(&self.film, thickness, context);
         let lithium = growth_m / self.film.molar_volume_m3_mol * crack_area * FARADAY / context.lithium_fresh_coulomb;
-        rate.lithium_film_crack += lithium;
-        rate.lithium_inventory -= lithium;
+        rate.move_lithium(Component::LithiumFilmCrack, lithium);
     }
 }

@@ -8,7 +8,7 @@
 //! of the range); R. Deshpande, M. Verbrugge, Y.-T. Cheng, J. Wang, P. Liu,
 //! J. Electrochem. Soc. 159 (2012) A1730 (Paris' law for electrode particles).
 
-use super::{mean_temperature_k, AgingContext, AgingState, CrackingParams, Mechanism, Side};
+use super::{crack_length_m, mean_temperature_k, AgingContext, AgingState, Component, CrackingParams, Mechanism, Side};
 use crate::cycle::CycleRecord;
 use crate::material::arrhenius_factor;
 
@@ -22,7 +22,8 @@ pub fn intensity_range(p: &CrackingParams, range_pa: f64, crack_m: f64) -> f64 {
     p.geometry_factor * range_pa * (std::f64::consts::PI * crack_m).sqrt()
 }
 
-/// Crack growth per cycle, m, at a given tensile stress range and temperature.
+/// Crack growth per cycle, m, at a given tensile stress range and temperature; none once the
+/// crack has reached the particle centre.
 pub fn growth_per_cycle(p: &CrackingParams, crack_m: f64, range_pa: f64, temperature_k: f64, radius_m: f64) -> f64 {
     if crack_m >= radius_m {
         return 0.0;
@@ -47,11 +48,12 @@ pub fn record_range(record: &CycleRecord, side: Side) -> f64 {
 /// Crack growth per cycle of one electrode in the context's cycle, m (0 on storage days).
 pub fn growth_in_context(p: &CrackingParams, side: Side, context: &AgingContext, state: &AgingState) -> f64 {
     let Some(record) = context.record else { return 0.0 };
-    let (crack_nm, radius) = match side {
-        Side::Negative => (state.neg_crack_nm, context.cell.negative.particle_radius_m),
-        Side::Positive => (state.pos_crack_nm, context.cell.positive.particle_radius_m),
+    let radius = match side {
+        Side::Negative => context.cell.negative.particle_radius_m,
+        Side::Positive => context.cell.positive.particle_radius_m,
     };
-    growth_per_cycle(p, crack_nm * 1e-9, record_range(record, side), mean_temperature_k(record), radius)
+    let crack = crack_length_m(context.cell, state, side);
+    growth_per_cycle(p, crack, record_range(record, side), mean_temperature_k(record), radius)
 }
 
 /// Paris-law cracking of one electrode's particles.
@@ -72,8 +74,8 @@ impl Mechanism for Cracking {
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
         let growth_nm = growth_in_context(&self.params, self.side, context, state) * 1e9;
         match self.side {
-            Side::Negative => rate.neg_crack_nm += growth_nm,
-            Side::Positive => rate.pos_crack_nm += growth_nm,
+            Side::Negative => rate[Component::NegCrackNm] += growth_nm,
+            Side::Positive => rate[Component::PosCrackNm] += growth_nm,
         }
     }
 }

@@ -13,7 +13,7 @@
 //! H. J. Pinson, M. Z. Bazant, J. Electrochem. Soc. 160 (2013) A243; B. E. Deal, A. S. Grove,
 //! J. Appl. Phys. 36 (1965) 3770 (the integrated form).
 
-use super::{AgingContext, AgingState, FilmParams, Mechanism};
+use super::{AgingContext, AgingState, Component, FilmParams, Mechanism};
 use crate::cycle::TracePoint;
 use crate::material::arrhenius_factor;
 use crate::material::constants::{FARADAY, GAS_CONSTANT};
@@ -89,12 +89,11 @@ impl Mechanism for FilmOnOriginalSurface {
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
         let p = &self.params;
-        let growth_m = growth_per_cycle(p, state.film_original_nm * 1e-9, context);
-        let area = super::negative_surfaces(context.cell, state).original_m2;
+        let growth_m = growth_per_cycle(p, state[Component::FilmOriginalNm] * 1e-9, context);
+        let area = super::negative_surfaces(context.cell, context.aging, state).original_m2;
         let lithium = growth_m / p.molar_volume_m3_mol * area * FARADAY / context.lithium_fresh_coulomb;
-        rate.film_original_nm += growth_m * 1e9;
-        rate.lithium_film_original += lithium;
-        rate.lithium_inventory -= lithium;
+        rate[Component::FilmOriginalNm] += growth_m * 1e9;
+        rate.move_lithium(Component::LithiumFilmOriginal, lithium);
     }
 }
 

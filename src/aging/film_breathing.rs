@@ -16,7 +16,7 @@
 //! review: J. M. Reniers, G. Mulder, D. A. Howey, J. Electrochem. Soc. 166 (2019) A3189.
 
 use super::film::growth_per_cycle;
-use super::{mean_temperature_k, negative_surfaces, AgingContext, AgingState, Mechanism};
+use super::{mean_temperature_k, negative_surfaces, AgingContext, AgingState, Component, Mechanism};
 use crate::aging::{FilmBreathingParams, FilmParams};
 use crate::material::arrhenius_factor;
 use crate::material::constants::FARADAY;
@@ -57,11 +57,11 @@ impl Mechanism for FilmBreathing {
         if fraction <= 0.0 {
             return;
         }
-        let bared_m2 = fraction * negative_surfaces(context.cell, state).original_m2;
+        let bared_m2 = fraction * negative_surfaces(context.cell, context.aging, state).original_m2;
         let regrowth_m = growth_per_cycle(&self.film, 0.0, context);
         let lithium = regrowth_m / self.film.molar_volume_m3_mol * bared_m2 * FARADAY / context.lithium_fresh_coulomb;
-        rate.lithium_film_original += lithium;
-        rate.lithium_inventory -= lithium;
+        // Film on the original surface, counted apart as regrown after fracture.
+        rate.move_lithium(Component::LithiumFilmFracture, lithium);
     }
 }
 

@@ -17,7 +17,10 @@ pub mod state;
 pub use params::{
     ActiveLossParams, AgingParams, CalibrationRange, CrackingParams, FilmBreathingParams, FilmParams, PlatingParams,
 };
-pub use state::{film_resistance_ohm, health_of, negative_surfaces, AgingState, Surfaces, STATE_LEN};
+pub use state::{
+    crack_length_m, film_resistance_ohm, health_of, negative_surfaces, AgingState, Component, ComponentSpec, Measure,
+    PlotGroup, Surfaces, COMPONENTS, COMPONENT_COUNT,
+};
 
 use crate::cycle::{Cell, CycleRecord};
 
@@ -32,6 +35,8 @@ pub enum Side {
 #[derive(Debug, Clone, Copy)]
 pub struct AgingContext<'a> {
     pub cell: &'a Cell,
+    /// The cell's aging laws.
+    pub aging: &'a AgingParams,
     /// The simulated duty cycle; None for a storage-only day.
     pub record: Option<&'a CycleRecord>,
     /// Idle time at rest after the cycle, s.
@@ -50,8 +55,7 @@ pub trait Mechanism: Send + Sync {
 }
 
 /// The mechanisms a cell's file switches on, in a fixed order.
-pub fn mechanisms_for(cell: &Cell) -> Vec<Box<dyn Mechanism>> {
-    let a = &cell.aging;
+pub fn mechanisms_for(a: &AgingParams) -> Vec<Box<dyn Mechanism>> {
     let mut list: Vec<Box<dyn Mechanism>> = Vec::new();
     if let Some(p) = a.film {
         list.push(Box::new(film::FilmOnOriginalSurface { params: p }));

@@ -94,10 +94,15 @@ pub struct AgingParams {
     pub pos_active_loss: Option<ActiveLossParams>,
 }
 
-/// The range of aging data the parameters were fitted to; forecasts far beyond it are warned
-/// about. `None` in the cell means the parameters are uncalibrated (demo values).
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// The range of aging data the parameters were fitted to, per axis the data used; forecasts
+/// beyond it are warned about. `None` in the cell means the parameters are uncalibrated (demo
+/// values).
+#[derive(Debug, Clone, Copy, PartialEq, Default, serde::Serialize)]
 pub struct CalibrationRange {
     pub cycles: Option<f64>,
     pub days: Option<f64>,
+    /// Equivalent full cycles.
+    pub efc: Option<f64>,
+    /// Lowest and highest ambient temperature of the fitted data, K.
+    pub temperature_k: Option<(f64, f64)>,
 }

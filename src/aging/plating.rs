@@ -9,7 +9,7 @@
 //! plating criterion, from memory); M. Petzl, M. A. Danzer, J. Power Sources 254 (2014) 80
 //! (reversible and irreversible plated lithium).
 
-use super::{negative_surfaces, AgingContext, AgingState, Mechanism, PlatingParams};
+use super::{negative_surfaces, AgingContext, AgingState, Component, Mechanism, PlatingParams};
 use crate::cycle::TracePoint;
 use crate::material::arrhenius_factor;
 use crate::material::constants::{FARADAY, GAS_CONSTANT};
@@ -47,13 +47,12 @@ impl Mechanism for Plating {
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
         let Some(record) = context.record else { return };
-        let s = negative_surfaces(context.cell, state);
+        let s = negative_surfaces(context.cell, context.aging, state);
         let plated =
             plated_charge(&self.params, &record.trace, s.original_m2 + s.crack_m2) / context.lithium_fresh_coulomb;
         let lost = plated * self.params.irreversible_fraction;
-        rate.plated_total += plated;
-        rate.lithium_plated_dead += lost;
-        rate.lithium_inventory -= lost;
+        rate[Component::PlatedTotal] += plated;
+        rate.move_lithium(Component::LithiumPlatedDead, lost);
     }
 }
 

@@ -32,11 +32,12 @@ mod problem;
 mod transform;
 
 use crate::cycle::Scenario;
-use crate::forecast::{FadePoint, ForecastOptions, Plan};
+use crate::forecast::{FadePoint, ForecastOptions, ForecastWarning, Plan};
 use serde::Serialize;
 use thiserror::Error;
 
 pub use problem::fit;
+
 pub use transform::Bounded;
 
 /// What a dataset's first column counts.
@@ -212,10 +213,35 @@ pub struct FittedCurve {
     pub capacity_residual_ah: Vec<f64>,
     /// Whether each measured point was fitted (false: held out).
     pub fitted: Vec<bool>,
-    /// Cycles and days the curve reaches (the data's extent, for the fitted cell's
-    /// `[calibration]` table); cycles are 0 in storage.
-    pub cycle_end: f64,
-    pub day_end: f64,
+    /// Where the model stands at the last fitted (not held-out) point, for the fitted cell's
+    /// `[calibration]` table: cycles (0 in storage), days and equivalent full cycles.
+    pub fitted_end: FittedEnd,
+    /// Lowest and highest ambient temperature of the dataset's scenario, K.
+    pub ambient_k: (f64, f64),
+    /// The warnings of the dataset's forecast at the fitted values (plating, limits).
+    pub forecast_warnings: Vec<ForecastWarning>,
+}
+
+/// The model's position at a dataset's last fitted point.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Default)]
+pub struct FittedEnd {
+    pub cycles: f64,
+    pub days: f64,
+    pub efc: f64,
+}
+
+/// Something the reader of a fit must know, with the numbers involved (words in `src/report`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "kind")]
+pub enum FitWarning {
+    /// The optimiser stopped without meeting its convergence tests (iteration or patience
+    /// limit, or a numerical failure): the values may not be a minimum.
+    NotConverged { termination: String },
+    /// JᵀJ is singular: the data do not determine the parameters.
+    Singular,
+    StandardErrorExceedsValue { path: String, standard_error: f64, value: f64 },
+    AtBound { path: String, value: f64, low: f64, high: f64 },
+    Correlated { first: String, second: String, correlation: f64 },
 }
 
 /// Everything a fit found.
@@ -238,7 +264,9 @@ pub struct FitResult {
     pub starts: usize,
     /// The optimiser's termination on the winning start.
     pub termination: String,
-    pub warnings: Vec<String>,
+    /// Whether that termination met the optimiser's convergence tests.
+    pub converged: bool,
+    pub warnings: Vec<FitWarning>,
     pub curves: Vec<FittedCurve>,
 }
 

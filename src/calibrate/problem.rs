@@ -2,10 +2,10 @@
 //! Jacobians, the starts, and the statistics at the optimum.
 
 use super::{
-    Axis, Bounded, CalibrationError, FitOptions, FitProblem, FitResult, FittedCurve, FittedParameter, HoldoutError,
-    ResidualStats, ScenarioSource,
+    Axis, Bounded, CalibrationError, FitOptions, FitProblem, FitResult, FitWarning, FittedCurve, FittedEnd,
+    FittedParameter, HoldoutError, ResidualStats, ScenarioSource,
 };
-use crate::forecast::{run_forecast, FadePoint, ForecastOptions, Horizon, StopReason};
+use crate::forecast::{run_forecast, FadePoint, Forecast, ForecastOptions, Horizon, StopReason, WarningKind};
 use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
 use nalgebra::{DMatrix, DVector, Dyn, Owned};
 use std::cell::{Cell, RefCell};
@@ -43,7 +43,7 @@ pub fn fit(
     let initial: Vec<f64> = problem.parameters.iter().map(|p| p.initial).collect();
     model.residuals(&initial).map_err(CalibrationError::StartFailed)?;
 
-    let mut best: Option<(Vec<f64>, f64, String)> = None;
+    let mut best: Option<(Vec<f64>, f64, String, bool)> = None;
     let mut last_failure = String::new();
     for start in 0..options.starts.max(1) {
         let z0: Vec<f64> =
@@ -56,17 +56,18 @@ pub fn fit(
         match model.residuals(&values) {
             Ok(r) => {
                 let ssr: f64 = r.iter().map(|x| x * x).sum();
-                if best.as_ref().is_none_or(|(_, b, _)| ssr < *b) {
-                    best = Some((values, ssr, format!("{:?}", report.termination)));
+                if best.as_ref().is_none_or(|(_, b, _, _)| ssr < *b) {
+                    let converged = report.termination.was_successful();
+                    best = Some((values, ssr, format!("{:?}", report.termination), converged));
                 }
             }
             Err(e) => last_failure = e,
         }
     }
-    let Some((values, ssr, termination)) = best else {
+    let Some((values, ssr, termination, converged)) = best else {
         return Err(CalibrationError::AllStartsFailed(last_failure));
     };
-    let mut result = model.statistics(&values, ssr, termination)?;
+    let mut result = model.statistics(&values, ssr, termination, converged)?;
     result.starts = options.starts.max(1);
     Ok(result)
 }
@@ -152,30 +153,41 @@ impl<'a> Model<'a> {
 
     /// One forecast of dataset `d` with `report_points` points over `horizon`.
     fn run(&self, d: usize, values: &[f64], horizon: Horizon, report_points: usize) -> Result<Vec<FadePoint>, String> {
+        self.run_forecast(d, values, horizon, report_points).map(|f| f.points)
+    }
+
+    /// One forecast of dataset `d`, whole (its warnings included).
+    fn run_forecast(&self, d: usize, values: &[f64], horizon: Horizon, report_points: usize) -> Result<Forecast, String> {
         let (scenario, plan) = self.source.scenario(d, values)?;
         self.evaluations.set(self.evaluations.get() + 1);
         let options = ForecastOptions { report_points, ..self.forecast };
         let forecast = run_forecast(&scenario, &plan, horizon, &options);
-        match forecast.stop {
-            StopReason::Failed { cycle, detail } => Err(format!("forecast failed at cycle {cycle:.0}: {detail}")),
-            _ => Ok(forecast.points),
+        let cycling = plan.usage.cycles_per_day > 0.0;
+        match (&forecast.stop, crate::report::stop_text(&forecast.stop, cycling)) {
+            (StopReason::Failed { .. }, Some(why)) => Err(format!("forecast failed {why}")),
+            _ => Ok(forecast),
         }
     }
 
     /// The model's curve of dataset `d` from 0 to at least `x_end` on the dataset's axis.
     fn curve(&self, d: usize, values: &[f64], x_end: f64, report_points: usize) -> Result<Vec<FadePoint>, String> {
+        self.curve_forecast(d, values, x_end, report_points).map(|f| f.points)
+    }
+
+    /// The forecast behind [`Self::curve`].
+    fn curve_forecast(&self, d: usize, values: &[f64], x_end: f64, report_points: usize) -> Result<Forecast, String> {
         let dataset = &self.problem.datasets[d];
         match dataset.axis {
-            Axis::Cycle => self.run(d, values, Horizon::Cycles(x_end), report_points),
-            Axis::Day => self.run(d, values, Horizon::Years(x_end / DAYS_PER_YEAR), report_points),
+            Axis::Cycle => self.run_forecast(d, values, Horizon::Cycles(x_end), report_points),
+            Axis::Day => self.run_forecast(d, values, Horizon::Years(x_end / DAYS_PER_YEAR), report_points),
             Axis::Efc => {
                 // Capacity fade lowers the throughput per cycle; a third more cycles than the
                 // fresh cell needs covers a fifth of capacity lost, and a shortfall retries.
                 let mut cycles = 1.3 * x_end / self.efc_per_cycle[d];
                 for _ in 0..4 {
-                    let points = self.run(d, values, Horizon::Cycles(cycles), report_points)?;
-                    if points.last().is_some_and(|p| p.efc >= x_end) {
-                        return Ok(points);
+                    let forecast = self.run_forecast(d, values, Horizon::Cycles(cycles), report_points)?;
+                    if forecast.points.last().is_some_and(|p| p.efc >= x_end) {
+                        return Ok(forecast);
                     }
                     cycles *= 1.6;
                 }
@@ -229,7 +241,13 @@ impl<'a> Model<'a> {
 
     /// Standard errors, correlations, residual statistics, hold-out errors and curves at the
     /// optimum.
-    fn statistics(&self, values: &[f64], ssr: f64, termination: String) -> Result<FitResult, CalibrationError> {
+    fn statistics(
+        &self,
+        values: &[f64],
+        ssr: f64,
+        termination: String,
+        converged: bool,
+    ) -> Result<FitResult, CalibrationError> {
         let n = values.len();
         let m = self.residual_count();
         let base = self.residuals(values).map_err(CalibrationError::StartFailed)?;
@@ -254,11 +272,13 @@ impl<'a> Model<'a> {
         let dof = m.saturating_sub(n).max(1);
         let residual_variance = ssr / dof as f64;
         let mut warnings = Vec::new();
+        if !converged {
+            warnings.push(FitWarning::NotConverged { termination: termination.clone() });
+        }
         let covariance = match (jacobian.transpose() * &jacobian).try_inverse() {
             Some(inverse) => inverse * residual_variance,
             None => {
-                warnings
-                    .push("the data do not determine the parameters (JᵀJ is singular): no standard errors".to_string());
+                warnings.push(FitWarning::Singular);
                 DMatrix::from_element(n, n, f64::NAN)
             }
         };
@@ -269,19 +289,13 @@ impl<'a> Model<'a> {
             let (standard_error, sigma_ln) =
                 if p.log { (value * sd_natural, Some(sd_natural)) } else { (sd_natural, None) };
             if standard_error > value.abs() {
-                warnings.push(format!(
-                    "{}: standard error {:.3e} exceeds the value {:.3e}: the data do not determine it",
-                    p.path, standard_error, value
-                ));
+                warnings.push(FitWarning::StandardErrorExceedsValue { path: p.path.clone(), standard_error, value });
             }
             let b = &self.bounds[j];
             let (lo, hi) = (b.natural(b.low), b.natural(b.high));
             let u = (b.natural(value) - lo) / (hi - lo);
             if !(AT_BOUND..=1.0 - AT_BOUND).contains(&u) {
-                warnings.push(format!(
-                    "{}: {:.4e} is at its bound ({}–{}): widen the bounds or fix the parameter",
-                    p.path, value, p.low, p.high
-                ));
+                warnings.push(FitWarning::AtBound { path: p.path.clone(), value, low: p.low, high: p.high });
             }
             parameters.push(FittedParameter {
                 path: p.path.clone(),
@@ -310,10 +324,11 @@ impl<'a> Model<'a> {
         for i in 0..n {
             for j in i + 1..n {
                 if correlation[i][j].abs() > CORRELATION_WARNING {
-                    warnings.push(format!(
-                        "{} and {} are correlated {:.3}: the data determine a combination of them, not each",
-                        parameters[i].path, parameters[j].path, correlation[i][j]
-                    ));
+                    warnings.push(FitWarning::Correlated {
+                        first: parameters[i].path.clone(),
+                        second: parameters[j].path.clone(),
+                        correlation: correlation[i][j],
+                    });
                 }
             }
         }
@@ -331,6 +346,7 @@ impl<'a> Model<'a> {
             model_evaluations: self.evaluations.get(),
             starts: 0,
             termination,
+            converged,
             warnings,
             curves,
         })
@@ -381,9 +397,25 @@ impl<'a> Model<'a> {
                 });
             }
             let x_end = xs.last().copied().unwrap_or(0.0);
-            let points = self.curve(d, values, x_end, self.curve_points).map_err(CalibrationError::StartFailed)?;
+            let forecast =
+                self.curve_forecast(d, values, x_end, self.curve_points).map_err(CalibrationError::StartFailed)?;
+            let fitted_x = xs.iter().zip(&fitted).filter(|(_, &f)| f).map(|(&x, _)| x).fold(0.0, f64::max);
+            let fitted_end = position_at(&forecast.points, dataset.axis, fitted_x);
+            let (_, plan) = self.source.scenario(d, values).map_err(CalibrationError::StartFailed)?;
+            let ambients: Vec<f64> = match &plan.usage.ambient_k {
+                crate::forecast::Ambient::Constant(t) => vec![*t],
+                crate::forecast::Ambient::Monthly(months) => months.to_vec(),
+            };
+            let ambient_k = ambients.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &t| (lo.min(t), hi.max(t)));
+            // What a fit makes is the calibration, so the trial cell's own calibration warnings say nothing.
+            let forecast_warnings = forecast
+                .warnings
+                .iter()
+                .filter(|w| !matches!(w.kind(), WarningKind::Uncalibrated | WarningKind::BeyondCalibration))
+                .cloned()
+                .collect();
             let points: Vec<&FadePoint> =
-                points.iter().filter(|p| dataset.axis.of(p) <= x_end * (1.0 + 1e-9)).collect();
+                forecast.points.iter().filter(|p| dataset.axis.of(p) <= x_end * (1.0 + 1e-9)).collect();
             curves.push(FittedCurve {
                 dataset: dataset.name.clone(),
                 axis: dataset.axis,
@@ -394,12 +426,32 @@ impl<'a> Model<'a> {
                 capacity_data_ah: dataset.points.iter().map(|p| p.capacity_ah).collect(),
                 capacity_residual_ah,
                 fitted,
-                cycle_end: points.last().map_or(0.0, |p| p.cycle),
-                day_end: points.last().map_or(0.0, |p| p.day),
+                fitted_end,
+                ambient_k,
+                forecast_warnings,
             });
         }
         Ok((residuals, holdout, curves))
     }
+}
+
+/// Cycles, days and equivalent full cycles of a curve where its axis reads `x` (linear between
+/// reported points; the last point beyond them).
+fn position_at(points: &[FadePoint], axis: Axis, x: f64) -> FittedEnd {
+    let at = |p: &FadePoint| FittedEnd { cycles: p.cycle, days: p.day, efc: p.efc };
+    for w in points.windows(2) {
+        let (a, b) = (axis.of(&w[0]), axis.of(&w[1]));
+        if a <= x && x <= b {
+            let t = if b > a { (x - a) / (b - a) } else { 0.0 };
+            let mix = |u: f64, v: f64| u + t * (v - u);
+            return FittedEnd {
+                cycles: mix(w[0].cycle, w[1].cycle),
+                days: mix(w[0].day, w[1].day),
+                efc: mix(w[0].efc, w[1].efc),
+            };
+        }
+    }
+    points.last().map(at).unwrap_or_default()
 }
 
 /// Reported points for a forecast that must give the model at `xs`. Every reported point costs

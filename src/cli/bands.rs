@@ -144,7 +144,8 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
     })?;
     let options = ForecastOptions::default();
     let grid =
-        report_grid(&loaded.plan, horizon, &options).map_err(|rule| InputError::command_line_flag("--cycles", rule))?;
+        report_grid(&loaded.plan, horizon, &options)
+            .map_err(|failure| InputError::command_line_flag("--cycles", report::failure_text(&failure)))?;
     let horizon_years = grid.last().map_or(0.0, |g| g.1 / 365.25);
     if let Some(w) = config.warranty {
         if w.years > horizon_years * (1.0 + 1e-9) {
@@ -341,12 +342,8 @@ fn finish(
     if summary.failed > 0 {
         warnings.push(format!("{} samples stopped before the horizon (see samples.csv)", summary.failed));
     }
-    if summary.plating_fraction > 0.0 {
-        warnings.push(format!(
-            "lithium plating predicted in {:.1} % of samples: a safety concern, not only a capacity loss; check the charge protocol against the cell maker's limits and the applicable standards",
-            100.0 * summary.plating_fraction
-        ));
-    }
+    // The forecasts' own warnings (plating, limits, calibration), counted over samples.
+    warnings.extend(report::counted_warning_lines(&summary.warning_counts, summary.counted as usize, "samples"));
     if !complete {
         warnings.push("the run is incomplete; continue it with --resume".into());
     }

@@ -48,7 +48,7 @@ pub fn run(config: &CheckConfig, out: &mut impl Write) -> Result<(), CliError> {
 fn check_file(path: &Path, overrides: &[Override]) -> Result<String, CliError> {
     let text = match input::detect_kind(path)? {
         InputKind::Cell => {
-            let cell = input::load_cell(path, overrides)?;
+            let cell = input::load_cell(path, overrides)?.cell;
             format!("{}: cell \"{}\"\n{}", path.display(), cell.name, cell_section(&cell))
         }
         kind @ (InputKind::Profile | InputKind::Series) => {

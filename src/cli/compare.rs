@@ -8,7 +8,7 @@
 
 use super::{caution_lines, print_caution, CliError};
 use crate::compare::{self, summarize_comparison, Alternative, CompareConfig, CompareError};
-use crate::forecast::{ForecastOptions, Horizon};
+use crate::forecast::{ForecastOptions, Horizon, WarningKind};
 use crate::input::{self, InputError, Override, OverrideTarget};
 use crate::report;
 use std::fmt::Write as _;
@@ -248,9 +248,10 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     let mut raised: Vec<(String, Vec<String>)> = Vec::new();
     for s in &summaries {
         let runs = s.usable + s.invalid + s.failed;
-        for (warning, count) in s.warnings.iter().filter(|(w, _)| !w.contains("plating")) {
-            let line =
-                if comparison.sampled { format!("{warning} (in {count} of {runs} samples)") } else { warning.clone() };
+        let others: Vec<(WarningKind, usize)> =
+            s.warning_counts.iter().copied().filter(|(kind, _)| *kind != WarningKind::Plating).collect();
+        let what = if comparison.sampled { "samples" } else { "runs" };
+        for line in report::counted_warning_lines(&others, runs, what) {
             match raised.iter_mut().find(|(l, _)| *l == line) {
                 Some((_, names)) => names.push(s.name.clone()),
                 None => raised.push((line, vec![s.name.clone()])),

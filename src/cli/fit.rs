@@ -2,7 +2,8 @@
 //! the fit's record, an uncertainty section for `bands` and a plot.
 
 use super::{print_caution, CliError};
-use crate::calibrate::{self, CalibrationError, FitOptions, FitResult};
+use crate::calibrate::{self, Axis, CalibrationError, FitOptions, FitResult, FittedEnd};
+use crate::material::constants::ZERO_CELSIUS_K;
 use crate::input::{self, InputError, LoadedFit, Override};
 use crate::report::{self, text::sig};
 use std::fmt::Write as _;
@@ -93,19 +94,32 @@ fn scenario_overrides(
     Ok(overrides)
 }
 
-/// The cell file with the fitted cell values and a `[calibration]` table spanning the data.
+/// The cell file with the fitted cell values and a `[calibration]` table spanning the fitted
+/// points only (held-out points are not calibration): per axis the data used, up to the
+/// model's position at the last fitted point, and the ambient temperatures fitted.
 fn fitted_cell(loaded: &LoadedFit, result: &FitResult, origin: &str) -> Result<String, CliError> {
     let mut overrides = Vec::new();
     for p in &result.parameters {
         overrides.push(Override::number(&p.path, p.value)?);
     }
-    let cycles = result.curves.iter().map(|c| c.cycle_end).fold(0.0, f64::max).ceil();
-    let days = result.curves.iter().map(|c| c.day_end).fold(0.0, f64::max).ceil();
-    if cycles > 0.0 {
-        overrides.push(Override::number("cell.calibration.cycles", cycles)?);
+    let furthest = |axis: Axis, of: fn(&FittedEnd) -> f64| {
+        result.curves.iter().filter(|c| c.axis == axis).map(|c| of(&c.fitted_end)).fold(0.0, f64::max)
+    };
+    for (axis, key, of) in [
+        (Axis::Cycle, "cell.calibration.cycles", (|e: &FittedEnd| e.cycles) as fn(&FittedEnd) -> f64),
+        (Axis::Day, "cell.calibration.days", |e| e.days),
+        (Axis::Efc, "cell.calibration.efc", |e| e.efc),
+    ] {
+        let end = furthest(axis, of);
+        if end > 0.0 {
+            overrides.push(Override::number(key, end)?);
+        }
     }
-    if days > 0.0 {
-        overrides.push(Override::number("cell.calibration.days", days)?);
+    let low = result.curves.iter().map(|c| c.ambient_k.0).fold(f64::INFINITY, f64::min);
+    let high = result.curves.iter().map(|c| c.ambient_k.1).fold(f64::NEG_INFINITY, f64::max);
+    if low.is_finite() && high.is_finite() {
+        overrides.push(Override::number("cell.calibration.min_temperature_c", low - ZERO_CELSIUS_K)?);
+        overrides.push(Override::number("cell.calibration.max_temperature_c", high - ZERO_CELSIUS_K)?);
     }
     let table = input::cell_table_with(&loaded.cell_path, &overrides)?;
     let mut origin = origin.to_string();
@@ -174,9 +188,17 @@ fn summary(loaded: &LoadedFit, result: &FitResult, holdout_after: Option<f64>) -
             );
         }
     }
-    if !result.warnings.is_empty() {
+    let forecast_warnings: Vec<String> = result
+        .curves
+        .iter()
+        .flat_map(|c| c.forecast_warnings.iter().map(move |w| format!("{}: {}", c.dataset, report::warning_text(w))))
+        .collect();
+    if !result.warnings.is_empty() || !forecast_warnings.is_empty() {
         text.push_str("Warnings\n");
         for w in &result.warnings {
+            let _ = writeln!(text, "  {}", report::fit_warning_text(w));
+        }
+        for w in &forecast_warnings {
             let _ = writeln!(text, "  {w}");
         }
     }

@@ -4,7 +4,7 @@
 
 use super::{caution_lines, print_caution, CliError};
 use crate::compare::{run_table, CompareError, Condition, TableConfig};
-use crate::forecast::{ForecastOptions, Horizon, StopReason};
+use crate::forecast::{ForecastOptions, ForecastWarning, Horizon, StopReason, WarningKind};
 use crate::input::{self, InputError, Override};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use crate::report;
@@ -196,7 +196,7 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
     let _ = writeln!(text, "\n  {:<28}{:>14}{:>14}{:>18}", "condition", "horizon EFC", "SOH, %", "resistance, %");
     let mut cautions = notes;
     let mut failures = Vec::new();
-    let mut other_warnings: Vec<String> = Vec::new();
+    let mut other_warnings: Vec<&ForecastWarning> = Vec::new();
     for r in &results {
         let label = r.condition.label();
         if let Some(last) = r.nominal.points.last() {
@@ -207,10 +207,10 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
             );
         }
         for w in &r.nominal.warnings {
-            if w.contains("plating") {
-                cautions.push(format!("{label}: {w}"));
-            } else if !other_warnings.contains(w) {
-                other_warnings.push(w.clone());
+            if w.kind() == WarningKind::Plating {
+                cautions.push(format!("{label}: {}", report::warning_text(w)));
+            } else if !other_warnings.iter().any(|o| o.kind() == w.kind()) {
+                other_warnings.push(w);
             }
         }
         if r.samples_left_out > 0 {
@@ -219,11 +219,11 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
                 r.samples_left_out
             ));
         }
-        if let StopReason::Failed { cycle, detail } = &r.nominal.stop {
-            failures.push(format!("{label} at cycle {cycle:.0}: {detail}"));
+        if let (StopReason::Failed { .. }, Some(why)) = (&r.nominal.stop, report::stop_text(&r.nominal.stop, true)) {
+            failures.push(format!("{label} {why}"));
         }
     }
-    cautions.extend(other_warnings);
+    cautions.extend(other_warnings.into_iter().map(report::warning_text));
     text.push_str(&caution_lines(&cautions));
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));

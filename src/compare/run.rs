@@ -3,7 +3,7 @@
 
 use crate::cycle::{simulate_periodic_cycle, CycleRecord, Health, Scenario, SolverSettings};
 use crate::ensemble::Sampler;
-use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, StopReason};
+use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, StopReason, WarningSet};
 use rayon::prelude::*;
 use thiserror::Error;
 
@@ -81,10 +81,8 @@ pub struct Outcome {
     pub soh_at_horizon_pct: f64,
     /// Highest peak cell temperature of any simulated duty cycle, °C.
     pub peak_temperature_c: f64,
-    /// The forecast warned of lithium plating.
-    pub plating: bool,
-    /// Every warning of the forecast (plating, limits, calibration), as it gave them.
-    pub warnings: Vec<String>,
+    /// The kinds of warning the forecast gave (plating, limits, calibration).
+    pub warnings: WarningSet,
     /// The fade curve at the reported points: (cycle, day, state of health %).
     pub curve: Vec<(f64, f64, f32)>,
 }
@@ -187,8 +185,7 @@ fn invalid(message: String) -> Outcome {
         energy_to_end_wh: f64::NAN,
         soh_at_horizon_pct: f64::NAN,
         peak_temperature_c: f64::NAN,
-        plating: false,
-        warnings: Vec::new(),
+        warnings: WarningSet::default(),
         curve: Vec::new(),
     }
 }
@@ -210,12 +207,10 @@ pub(crate) fn outcome_of(f: &Forecast) -> Outcome {
         }
         _ => None,
     };
-    let status = match &f.stop {
-        StopReason::Horizon => OutcomeStatus::Ok,
-        StopReason::Exhausted { cycle } => {
-            OutcomeStatus::Failed(format!("no usable capacity left at cycle {cycle:.0}"))
-        }
-        StopReason::Failed { cycle, detail } => OutcomeStatus::Failed(format!("at cycle {cycle:.0}: {detail}")),
+    let cycling = f.points.iter().any(|p| p.cycle > 0.0);
+    let status = match crate::report::stop_text(&f.stop, cycling) {
+        None => OutcomeStatus::Ok,
+        Some(why) => OutcomeStatus::Failed(why),
     };
     Outcome {
         status,
@@ -223,8 +218,7 @@ pub(crate) fn outcome_of(f: &Forecast) -> Outcome {
         life,
         soh_at_horizon_pct: if horizon_reached { last.map_or(f64::NAN, |p| p.soh_pct) } else { f64::NAN },
         peak_temperature_c: f.points.iter().map(|p| p.peak_temperature_c).fold(f64::NEG_INFINITY, f64::max),
-        plating: f.warnings.iter().any(|w| w.contains("plating")),
-        warnings: f.warnings.clone(),
+        warnings: f.warning_set(),
         curve: f.points.iter().map(|p| (p.cycle, p.day, p.soh_pct as f32)).collect(),
     }
 }
@@ -257,7 +251,7 @@ mod tests {
             points: vec![point(0.0, 0.0), point(100.0, 1000.0), point(200.0, 1900.0)],
             end_of_life: vec![EndOfLifePoint { threshold: Threshold::Capacity, level_pct: 80.0, reached }],
             stop: StopReason::Horizon,
-            loss_at_horizon: Default::default(),
+            scale: Default::default(),
             simulated_cycles: 0,
             accepted_steps: 0,
             rejected_steps: 0,

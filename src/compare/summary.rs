@@ -6,6 +6,8 @@
 
 use super::run::{Comparison, Life, Outcome, OutcomeStatus};
 use crate::ensemble::quantile;
+use crate::ensemble::summary::count_warnings;
+use crate::forecast::WarningKind;
 
 /// The low and high quantiles reported for life and state of health.
 pub const SPREAD_QUANTILES: (f64, f64) = (0.10, 0.90);
@@ -71,9 +73,8 @@ pub struct AlternativeSummary {
     pub plating_fraction: f64,
     /// Time spent charging in one beginning-of-life cycle, s.
     pub charge_time_s: f64,
-    /// Distinct forecast warnings with how many samples raised each. Warnings that differ only
-    /// in their numbers (one message about different samples) count as one, worded as first raised.
-    pub warnings: Vec<(String, usize)>,
+    /// Every kind of forecast warning with the number of samples that gave it.
+    pub warning_counts: Vec<(WarningKind, usize)>,
     /// None for the first alternative (the reference).
     pub paired: Option<PairedDifference>,
     pub curve: Vec<CurveBand>,
@@ -120,10 +121,11 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
                 plating_fraction: if outcomes.is_empty() {
                     0.0
                 } else {
-                    outcomes.iter().filter(|o| o.plating).count() as f64 / outcomes.len() as f64
+                    outcomes.iter().filter(|o| o.warnings.contains(WarningKind::Plating)).count() as f64
+                        / outcomes.len() as f64
                 },
                 charge_time_s: comparison.charge_time_s.get(a).copied().unwrap_or(f64::NAN),
-                warnings: distinct_warnings(outcomes),
+                warning_counts: count_warnings(outcomes.iter().map(|o| o.warnings)),
                 paired: match reference {
                     Some(first) if a > 0 => Some(paired_difference(first, outcomes, comparison.sampled)),
                     _ => None,
@@ -132,22 +134,6 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
             }
         })
         .collect()
-}
-
-/// The warnings of all outcomes, one per message (its text up to the first digit), counted.
-fn distinct_warnings(outcomes: &[Outcome]) -> Vec<(String, usize)> {
-    let message = |w: &str| w.split(|c: char| c.is_ascii_digit()).next().unwrap_or_default().to_string();
-    let mut out: Vec<(String, String, usize)> = Vec::new();
-    for o in outcomes {
-        for w in &o.warnings {
-            let key = message(w);
-            match out.iter_mut().find(|(k, _, _)| *k == key) {
-                Some(entry) => entry.2 += 1,
-                None => out.push((key, w.clone(), 1)),
-            }
-        }
-    }
-    out.into_iter().map(|(_, text, count)| (text, count)).collect()
 }
 
 fn sorted(mut values: Vec<f64>) -> Vec<f64> {
@@ -236,8 +222,7 @@ mod tests {
             energy_to_end_wh: 1.0,
             soh_at_horizon_pct: 80.0,
             peak_temperature_c: 30.0,
-            plating: false,
-            warnings: vec![],
+            warnings: WarningSet::default(),
             curve: vec![],
         }
     }
@@ -262,15 +247,18 @@ mod tests {
     }
 
     #[test]
-    fn warnings_differing_only_in_numbers_count_as_one() {
+    fn warnings_are_counted_by_kind_and_plating_read_from_the_type() {
+        // Nothing here reads message text: the flag survives any rewording in src/report.
         let mut a = outcome(None);
-        a.warnings = vec!["the cell reaches 61.2 °C".into(), "no calibration".into()];
+        a.warnings.insert(WarningKind::Plating);
+        a.warnings.insert(WarningKind::Uncalibrated);
         let mut b = outcome(None);
-        b.warnings = vec!["the cell reaches 63.0 °C".into()];
-        assert_eq!(
-            distinct_warnings(&[a, b]),
-            vec![("the cell reaches 61.2 °C".to_string(), 2), ("no calibration".to_string(), 1)]
-        );
+        b.warnings.insert(WarningKind::Uncalibrated);
+        let comparison =
+            Comparison { names: vec!["x".into()], outcomes: vec![vec![a, b]], sampled: true, charge_time_s: vec![1.0] };
+        let summary = &summarize_comparison(&comparison)[0];
+        assert_eq!(summary.plating_fraction, 0.5);
+        assert_eq!(summary.warning_counts, vec![(WarningKind::Plating, 1), (WarningKind::Uncalibrated, 2)]);
     }
 
     #[test]

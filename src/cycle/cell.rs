@@ -85,10 +85,6 @@ pub struct Cell {
     pub reference_temperature_k: f64,
     /// Radial finite-volume shells per particle.
     pub shells: usize,
-    /// Aging laws (all off when the cell file gives none).
-    pub aging: crate::aging::AgingParams,
-    /// The aging data range the parameters were calibrated on, if any.
-    pub calibration: Option<crate::aging::CalibrationRange>,
 }
 
 impl Cell {

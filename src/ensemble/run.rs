@@ -7,7 +7,7 @@
 
 use super::sampling::Sampler;
 use crate::cycle::Scenario;
-use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, StopReason, Threshold};
+use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, Threshold, WarningSet};
 use rayon::prelude::*;
 
 /// Which part of the samples this run computes: sample i belongs to shard `i % count + 1`.
@@ -52,7 +52,8 @@ pub struct SampleRecord {
     pub resistance_growth_at_horizon_pct: f64,
     /// State of health at the warranty point, % (NaN without a warranty point).
     pub soh_at_warranty_pct: f64,
-    pub plating: bool,
+    /// The kinds of warning the sample's forecast gave (plating, limits, calibration).
+    pub warnings: WarningSet,
     /// Per reported point: capacity (Ah), state of health (%), resistance (mΩ).
     pub curves: Vec<[f32; 3]>,
 }
@@ -90,7 +91,7 @@ where
         soh_at_horizon_pct: f64::NAN,
         resistance_growth_at_horizon_pct: f64::NAN,
         soh_at_warranty_pct: f64::NAN,
-        plating: false,
+        warnings: WarningSet::default(),
         curves: Vec::new(),
     };
     let (scenario, plan) = match build(&values) {
@@ -98,10 +99,10 @@ where
         Err(message) => return empty(SampleStatus::Invalid(message)),
     };
     let forecast = run_forecast(&scenario, &plan, config.horizon, &config.options);
-    let status = match &forecast.stop {
-        StopReason::Horizon => SampleStatus::Ok,
-        StopReason::Exhausted { cycle } => SampleStatus::Failed(format!("no usable capacity left at cycle {cycle:.0}")),
-        StopReason::Failed { cycle, detail } => SampleStatus::Failed(format!("at cycle {cycle:.0}: {detail}")),
+    let cycling = plan.usage.cycles_per_day > 0.0;
+    let status = match crate::report::stop_text(&forecast.stop, cycling) {
+        None => SampleStatus::Ok,
+        Some(why) => SampleStatus::Failed(why),
     };
     reduce(index, values, status, &forecast, config.warranty)
 }
@@ -125,7 +126,7 @@ fn reduce(
         soh_at_horizon_pct: last.map_or(f64::NAN, |p| p.soh_pct),
         resistance_growth_at_horizon_pct: last.map_or(f64::NAN, |p| p.resistance_growth_pct),
         soh_at_warranty_pct,
-        plating: f.warnings.iter().any(|w| w.contains("plating")),
+        warnings: f.warning_set(),
         curves: f.points.iter().map(|p| [p.capacity_ah as f32, p.soh_pct as f32, p.resistance_mohm as f32]).collect(),
     }
 }

@@ -3,6 +3,7 @@
 //! interval, and the rank correlation of each uncertain input with life.
 
 use super::run::{SampleRecord, SampleStatus, Warranty, CURVE_QUANTITIES};
+use crate::forecast::{WarningKind, WarningSet};
 use super::stats::{clopper_pearson, quantile, quantile_standard_error, spearman};
 use serde::Serialize;
 
@@ -68,6 +69,9 @@ pub struct EnsembleSummary {
     pub bands: Vec<BandPoint>,
     /// Fraction of counted samples whose duty cycle drove the negative below lithium.
     pub plating_fraction: f64,
+    /// Every kind of warning with the number of counted samples that gave it (kinds no
+    /// sample gave are left out).
+    pub warning_counts: Vec<(WarningKind, usize)>,
 }
 
 /// Summarises records (sorted by index) of a run over `grid` (the reported (cycle, day) points);
@@ -171,9 +175,21 @@ pub fn summarize(
         plating_fraction: if counted.is_empty() {
             0.0
         } else {
-            counted.iter().filter(|r| r.plating).count() as f64 / counted.len() as f64
+            counted.iter().filter(|r| r.warnings.contains(WarningKind::Plating)).count() as f64 / counted.len() as f64
         },
+        warning_counts: count_warnings(counted.iter().map(|r| r.warnings)),
     }
+}
+
+/// How many of the given sets hold each kind of warning (kinds held by none left out).
+pub fn count_warnings(sets: impl Iterator<Item = WarningSet>) -> Vec<(WarningKind, usize)> {
+    let mut counts = [0usize; WarningKind::ALL.len()];
+    for set in sets {
+        for kind in set.kinds() {
+            counts[kind as usize] += 1;
+        }
+    }
+    WarningKind::ALL.into_iter().zip(counts).filter(|(_, n)| *n > 0).collect()
 }
 
 /// Quantile estimates of a sorted sample that may end in +∞ (not reached).

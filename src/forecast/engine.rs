@@ -10,8 +10,13 @@
 
 use super::plan::{Ambient, Horizon, Plan};
 use super::result::*;
+use crate::aging::CalibrationRange;
 use super::ForecastOptions;
-use crate::aging::{health_of, mechanisms_for, AgingContext, AgingState, Mechanism, STATE_LEN};
+use crate::aging::state::{crack_film_thickness_m, lithium_only};
+use crate::aging::{
+    health_of, mechanisms_for, AgingContext, AgingParams, AgingState, Component, Mechanism, COMPONENTS,
+    COMPONENT_COUNT,
+};
 use crate::cycle::cell::LIMIT_SLACK;
 use crate::cycle::{
     balance_cell, simulate_cycle, simulate_periodic_with, Balance, CellModel, CellState, CycleRecord, CycleRun, Health,
@@ -23,8 +28,6 @@ use ode_solvers::{DVector, Dopri5, OutputType, System};
 use std::cell::RefCell;
 
 const SECONDS_PER_DAY: f64 = 86_400.0;
-/// The failure detail that means the cell is used up rather than the model failing.
-const EXHAUSTED: &str = "no charge can be cycled in the voltage window any more";
 const DAYS_PER_YEAR: f64 = 365.25;
 /// Length and C-rate of the resistance pulse.
 const PULSE_S: f64 = 10.0;
@@ -42,7 +45,21 @@ struct CycleSnapshot {
     min_temperature_k: f64,
     min_neg_potential_v: f64,
     peak_charge_a: f64,
+    /// Step (0-based) where the charge current peaked.
+    peak_charge_step: usize,
     peak_discharge_a: f64,
+    peak_discharge_step: usize,
+    /// Time a measured series was held at a voltage limit in this cycle, s.
+    voltage_limited_s: f64,
+}
+
+/// Why a rate evaluation could not be made.
+#[derive(Debug, Clone, PartialEq)]
+enum RateFailure {
+    /// No charge can be cycled in the voltage window any more: the cell is used up.
+    Exhausted,
+    Cycle(String),
+    Integrator(String),
 }
 
 /// Everything one forecast needs, with the mutable parts behind RefCells because the
@@ -50,6 +67,7 @@ struct CycleSnapshot {
 struct Forecaster<'a> {
     scenario: &'a Scenario,
     plan: &'a Plan,
+    aging: &'a AgingParams,
     model: CellModel,
     mechanisms: Vec<Box<dyn Mechanism>>,
     settings: SolverSettings,
@@ -57,7 +75,7 @@ struct Forecaster<'a> {
     warm: RefCell<Option<CellState>>,
     record: RefCell<CycleRecord>,
     log: RefCell<Vec<CycleSnapshot>>,
-    failure: RefCell<Option<(f64, String)>>,
+    failure: RefCell<Option<(f64, RateFailure)>>,
     simulated: RefCell<usize>,
 }
 
@@ -66,8 +84,9 @@ impl<'a> Forecaster<'a> {
         Forecaster {
             scenario,
             plan,
+            aging: &plan.aging,
             model: CellModel::new(&scenario.cell),
-            mechanisms: mechanisms_for(&scenario.cell),
+            mechanisms: mechanisms_for(&plan.aging),
             settings: SolverSettings::default(),
             lithium_fresh_coulomb: scenario.cell.lithium_inventory_coulomb(),
             warm: RefCell::new(None),
@@ -108,10 +127,10 @@ impl<'a> Forecaster<'a> {
     }
 
     /// Rates of change of the slow state per cycle (per day when storing) at `x`.
-    fn rates(&self, x: f64, state: &AgingState) -> Result<AgingState, String> {
+    fn rates(&self, x: f64, state: &AgingState) -> Result<AgingState, RateFailure> {
         let cell = &self.scenario.cell;
-        let health = health_of(cell, state);
-        let balance = balance_cell(cell, &health).ok_or(EXHAUSTED)?;
+        let health = health_of(cell, self.aging, state);
+        let balance = balance_cell(cell, &health).ok_or(RateFailure::Exhausted)?;
         let ambient = self.ambient_k(self.day(x));
         let mut record = self.record.borrow_mut();
         let (cycle, idle_s) = if self.cycling() {
@@ -127,6 +146,7 @@ impl<'a> Forecaster<'a> {
             + (ambient - cell.reference_temperature_k) * negative.entropic_coefficient_v_k;
         let context = AgingContext {
             cell,
+            aging: self.aging,
             record: cycle,
             idle_s,
             idle_temperature_k: ambient,
@@ -137,8 +157,8 @@ impl<'a> Forecaster<'a> {
         for mechanism in &self.mechanisms {
             mechanism.add_rates(&context, state, &mut rate);
         }
-        rate.throughput_ah = cycle.map_or(0.0, |r| r.charge_out_coulomb / SECONDS_PER_HOUR);
-        rate.energy_wh = cycle.map_or(0.0, |r| r.energy_out_j / SECONDS_PER_HOUR);
+        rate[Component::ThroughputAh] = cycle.map_or(0.0, |r| r.charge_out_coulomb / SECONDS_PER_HOUR);
+        rate[Component::EnergyWh] = cycle.map_or(0.0, |r| r.energy_out_j / SECONDS_PER_HOUR);
         Ok(rate)
     }
 
@@ -150,7 +170,7 @@ impl<'a> Forecaster<'a> {
         balance: &Balance,
         ambient_k: f64,
         record: &mut CycleRecord,
-    ) -> Result<(), String> {
+    ) -> Result<(), RateFailure> {
         let mut warm = self.warm.borrow_mut();
         let scenario = self.scenario;
         let aligned = warm.take().and_then(|mut s| self.model.align_lithium(&mut s, balance, health).then_some(s));
@@ -160,15 +180,19 @@ impl<'a> Forecaster<'a> {
                 // First cycle (or the last end state no longer fits): reach the periodic state.
                 let mut start = scenario.clone();
                 start.ambient_k = ambient_k;
-                let (first, end) =
-                    simulate_periodic_with(&self.model, &start, health, &self.settings).map_err(|e| e.to_string())?;
+                let (first, end) = simulate_periodic_with(&self.model, &start, health, &self.settings)
+                    .map_err(|e| RateFailure::Cycle(e.to_string()))?;
                 *self.simulated.borrow_mut() += first.warmup_cycles;
                 end
             }
         };
         let run = CycleRun { duty: &scenario.duty, ambient_k, health, balance };
-        simulate_cycle(&self.model, &run, &mut state, &self.settings, record).map_err(|e| e.to_string())?;
+        simulate_cycle(&self.model, &run, &mut state, &self.settings, record)
+            .map_err(|e| RateFailure::Cycle(e.to_string()))?;
         *self.simulated.borrow_mut() += 1;
+        let step_of_peak = |current: fn(f64) -> f64| {
+            record.trace.iter().max_by(|a, b| current(a.current_a).total_cmp(&current(b.current_a))).map_or(0, |p| p.step)
+        };
         self.log.borrow_mut().push(CycleSnapshot {
             x,
             duty_capacity_ah: record.charge_out_coulomb / SECONDS_PER_HOUR,
@@ -176,7 +200,10 @@ impl<'a> Forecaster<'a> {
             min_temperature_k: record.min_temperature_k,
             min_neg_potential_v: record.neg_potential_min_v,
             peak_charge_a: record.peak_charge_current_a,
+            peak_charge_step: step_of_peak(|i| -i),
             peak_discharge_a: record.peak_discharge_current_a,
+            peak_discharge_step: step_of_peak(|i| i),
+            voltage_limited_s: record.voltage_limited_s,
         });
         *warm = Some(state);
         Ok(())
@@ -185,38 +212,34 @@ impl<'a> Forecaster<'a> {
     /// The reported quantities of a state at `x`.
     fn point(&self, x: f64, state: &AgingState, fresh: (f64, f64)) -> Option<FadePoint> {
         let cell = &self.scenario.cell;
-        let health = health_of(cell, state);
+        let health = health_of(cell, self.aging, state);
         let balance = balance_cell(cell, &health)?;
         let capacity_ah = balance.capacity_coulomb / SECONDS_PER_HOUR;
+        // The fresh electrodes with only the lithium left: what lithium loss alone costs.
+        let lithium_health = health_of(cell, self.aging, &lithium_only(state, self.aging));
+        let lithium_capacity_ah = balance_cell(cell, &lithium_health)?.capacity_coulomb / SECONDS_PER_HOUR;
         let pulse = PULSE_C_RATE * cell.nominal_capacity_coulomb / SECONDS_PER_HOUR;
         let resistance =
             self.model.pulse_resistance(&health, &balance, 0.5, cell.reference_temperature_k, pulse, PULSE_S)?;
         let snapshot = self.snapshot_at(x);
         let (fresh_capacity_ah, fresh_resistance) = fresh;
+        let throughput_ah = state[Component::ThroughputAh];
         Some(FadePoint {
             cycle: if self.cycling() { x } else { 0.0 },
             day: self.day(x),
-            efc: state.throughput_ah / fresh_capacity_ah,
-            throughput_ah: state.throughput_ah,
-            energy_wh: state.energy_wh,
+            efc: equivalent_full_cycles(throughput_ah, cell.nominal_capacity_coulomb / SECONDS_PER_HOUR),
+            throughput_ah,
+            energy_wh: state[Component::EnergyWh],
             capacity_ah,
             duty_capacity_ah: snapshot.map_or(0.0, |s| s.duty_capacity_ah),
             soh_pct: 100.0 * capacity_ah / fresh_capacity_ah,
             resistance_mohm: resistance * 1e3,
             resistance_growth_pct: 100.0 * (resistance / fresh_resistance - 1.0),
-            lithium_film_original_pct: 100.0 * state.lithium_film_original,
-            lithium_film_crack_pct: 100.0 * state.lithium_film_crack,
-            lithium_plating_pct: 100.0 * state.lithium_plated_dead,
-            lithium_stranded_pct: 100.0 * state.lithium_stranded,
-            neg_active_lost_pct: 100.0 * state.neg_active_lost,
-            pos_active_lost_pct: 100.0 * state.pos_active_lost,
-            film_original_nm: state.film_original_nm,
-            film_crack_nm: crate::aging::state::crack_film_thickness_m(cell, state) * 1e9,
-            // Cracks stop at the particle centre (the integrator may step slightly past it).
-            neg_crack_nm: state.neg_crack_nm.min(cell.negative.particle_radius_m * 1e9),
-            pos_crack_nm: state.pos_crack_nm.min(cell.positive.particle_radius_m * 1e9),
-            plated_total_pct: 100.0 * state.plated_total,
+            fade_lithium_ah: fresh_capacity_ah - lithium_capacity_ah,
+            fade_active_material_ah: lithium_capacity_ah - capacity_ah,
+            film_crack_nm: crack_film_thickness_m(cell, self.aging, state) * 1e9,
             peak_temperature_c: snapshot.map_or(self.ambient_k(self.day(x)), |s| s.peak_temperature_k) - ZERO_CELSIUS_K,
+            state: *state,
         })
     }
 
@@ -247,10 +270,10 @@ impl System<f64, DVector<f64>> for RateSystem<'_, '_> {
     fn system(&self, s: f64, y: &DVector<f64>, dy: &mut DVector<f64>) {
         let x = unstretched(s);
         let dx_ds = 2.0 * (s + STRETCH_OFFSET.sqrt());
-        let state = AgingState::from_slice(y.as_slice());
+        let state = from_integrator(y.as_slice());
         match self.0.rates(x, &state) {
             Ok(rate) => {
-                for (d, r) in dy.iter_mut().zip(rate.to_array()) {
+                for (d, r) in dy.iter_mut().zip(to_integrator(&rate)) {
                     *d = r * dx_ds;
                 }
             }
@@ -266,12 +289,54 @@ impl System<f64, DVector<f64>> for RateSystem<'_, '_> {
     }
 }
 
+/// Scale of a component in the integrator's vector: components that are parts of another are
+/// carried scaled down by 2⁻¹⁰⁰ (exact in binary), so their error estimates are nil and they do
+/// not steer the step size; every other component steers as it is.
+fn integrator_scale(component: usize) -> f64 {
+    if COMPONENTS[component].part_of.is_some() {
+        2f64.powi(-100)
+    } else {
+        1.0
+    }
+}
+
+/// Components that steer the integrator's step size (all but the parts of others).
+const STEERING: usize = {
+    let mut count = 0;
+    let mut i = 0;
+    while i < COMPONENT_COUNT {
+        if COMPONENTS[i].part_of.is_none() {
+            count += 1;
+        }
+        i += 1;
+    }
+    count
+};
+
+/// Length of the integrator's vector. Its error norm is a root mean square over the vector, so
+/// carrying a part apart would lengthen it and move every step. Padding with zero slots to
+/// four times the steering components and halving the tolerances keeps the norm over the
+/// steering components exactly (powers of two scale without rounding): adding a reported part
+/// changes no number of the forecast.
+const INTEGRATOR_LEN: usize = 4 * STEERING;
+const _: () = assert!(INTEGRATOR_LEN >= COMPONENT_COUNT);
+/// The tolerance factor that goes with the padding: √(STEERING / INTEGRATOR_LEN).
+const STEERING_TOLERANCE_FACTOR: f64 = 0.5;
+
+fn to_integrator(state: &AgingState) -> [f64; INTEGRATOR_LEN] {
+    std::array::from_fn(|i| if i < COMPONENT_COUNT { state.values()[i] * integrator_scale(i) } else { 0.0 })
+}
+
+fn from_integrator(values: &[f64]) -> AgingState {
+    AgingState::from_values(std::array::from_fn(|i| values[i] / integrator_scale(i)))
+}
+
 /// End of the integration variable for a horizon: cycles when cycling, days when storing.
-fn horizon_end(plan: &Plan, horizon: Horizon) -> Result<f64, String> {
+fn horizon_end(plan: &Plan, horizon: Horizon) -> Result<f64, ForecastFailure> {
     let cpd = plan.usage.cycles_per_day;
     match horizon {
         Horizon::Cycles(n) if cpd > 0.0 => Ok(n),
-        Horizon::Cycles(_) => Err("storage-only usage (0 cycles per day) needs a horizon in years".into()),
+        Horizon::Cycles(_) => Err(ForecastFailure::HorizonNeedsYears),
         Horizon::Years(y) if cpd > 0.0 => Ok(y * DAYS_PER_YEAR * cpd),
         Horizon::Years(y) => Ok(y * DAYS_PER_YEAR),
     }
@@ -279,7 +344,11 @@ fn horizon_end(plan: &Plan, horizon: Horizon) -> Result<f64, String> {
 
 /// The reported points of a forecast as (cycle, day) pairs: the same for every sample of an
 /// ensemble that shares the plan's usage. Err when the horizon does not suit the usage.
-pub fn report_grid(plan: &Plan, horizon: Horizon, options: &ForecastOptions) -> Result<Vec<(f64, f64)>, String> {
+pub fn report_grid(
+    plan: &Plan,
+    horizon: Horizon,
+    options: &ForecastOptions,
+) -> Result<Vec<(f64, f64)>, ForecastFailure> {
     let x_end = horizon_end(plan, horizon)?;
     let points = options.report_points.max(1);
     let spacing = x_end / points as f64;
@@ -302,41 +371,47 @@ pub fn report_grid(plan: &Plan, horizon: Horizon, options: &ForecastOptions) -> 
 pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options: &ForecastOptions) -> Forecast {
     let forecaster = Forecaster::new(scenario, plan);
     let cell = &scenario.cell;
-    let fresh_state = AgingState::fresh(cell);
-    let fresh_health = health_of(cell, &fresh_state);
+    let fresh_state = AgingState::fresh(&plan.aging);
+    let fresh_health = health_of(cell, &plan.aging, &fresh_state);
     let mut forecast = Forecast {
         points: Vec::new(),
         end_of_life: Vec::new(),
         stop: StopReason::Horizon,
-        loss_at_horizon: LossByMechanism::default(),
         simulated_cycles: 0,
         accepted_steps: 0,
         rejected_steps: 0,
         every_cycle: options.every_cycle,
         fresh_capacity_ah: 0.0,
         fresh_resistance_mohm: 0.0,
+        scale: ReportScale::default(),
         warnings: Vec::new(),
         final_state: None,
     };
-    let fail = |mut f: Forecast, x: f64, detail: String| {
-        f.stop = StopReason::Failed { cycle: x, detail };
+    let fail = |mut f: Forecast, failure: ForecastFailure| {
+        f.stop = StopReason::Failed { at: 0.0, last_soh_pct: None, failure };
         f
     };
     let Some(balance) = balance_cell(cell, &fresh_health) else {
-        return fail(forecast, 0.0, "the fresh cell has no charge in its voltage window".into());
+        return fail(forecast, ForecastFailure::FreshCellEmpty);
     };
     let pulse = PULSE_C_RATE * cell.nominal_capacity_coulomb / SECONDS_PER_HOUR;
     let Some(fresh_resistance) =
         forecaster.model.pulse_resistance(&fresh_health, &balance, 0.5, cell.reference_temperature_k, pulse, PULSE_S)
     else {
-        return fail(forecast, 0.0, "the resistance pulse cannot be run on the fresh cell".into());
+        return fail(forecast, ForecastFailure::FreshPulse);
     };
     let fresh = (balance.capacity_coulomb / SECONDS_PER_HOUR, fresh_resistance);
     forecast.fresh_capacity_ah = fresh.0;
     forecast.fresh_resistance_mohm = fresh_resistance * 1e3;
+    forecast.scale = ReportScale {
+        lithium_fresh_ah: cell.lithium_inventory_coulomb() / SECONDS_PER_HOUR,
+        fresh_capacity_ah: fresh.0,
+        neg_radius_nm: cell.negative.particle_radius_m * 1e9,
+        pos_radius_nm: cell.positive.particle_radius_m * 1e9,
+    };
     let x_end = match horizon_end(plan, horizon) {
         Ok(x) => x,
-        Err(detail) => return fail(forecast, 0.0, detail),
+        Err(failure) => return fail(forecast, failure),
     };
     let spacing = x_end / options.report_points.max(1) as f64;
     let (xs, ys) = if options.every_cycle {
@@ -348,32 +423,27 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         match forecaster.point(*x, y, fresh) {
             Some(p) => forecast.points.push(p),
             None => {
-                forecaster.failure.borrow_mut().get_or_insert((*x, EXHAUSTED.into()));
+                forecaster.failure.borrow_mut().get_or_insert((*x, RateFailure::Exhausted));
                 break;
             }
         }
     }
     forecast.final_state = ys.get(forecast.points.len().saturating_sub(1)).copied();
-    if let Some(last) = forecast.final_state.as_ref() {
-        forecast.loss_at_horizon = LossByMechanism {
-            film_original_pct: 100.0 * last.lithium_film_original,
-            film_crack_pct: 100.0 * last.lithium_film_crack,
-            plating_pct: 100.0 * last.lithium_plated_dead,
-            stranded_pct: 100.0 * last.lithium_stranded,
-            neg_active_pct: 100.0 * last.neg_active_lost,
-            pos_active_pct: 100.0 * last.pos_active_lost,
-        };
-    }
-    if let Some((x, detail)) = forecaster.failure.borrow().clone() {
-        forecast.stop = if detail == EXHAUSTED {
-            StopReason::Exhausted { cycle: x }
-        } else {
-            StopReason::Failed { cycle: x, detail }
+    if let Some((at, failure)) = forecaster.failure.borrow().clone() {
+        let last_soh_pct = forecast.points.last().map(|p| p.soh_pct);
+        forecast.stop = match failure {
+            RateFailure::Exhausted => StopReason::Exhausted { at, last_soh_pct },
+            RateFailure::Cycle(detail) => {
+                StopReason::Failed { at, last_soh_pct, failure: ForecastFailure::Cycle { detail } }
+            }
+            RateFailure::Integrator(detail) => {
+                StopReason::Failed { at, last_soh_pct, failure: ForecastFailure::Integrator { detail } }
+            }
         };
     }
     forecast.end_of_life = end_of_life(&forecast.points, plan, forecaster.cycling(), plan.usage.cycles_per_day);
     forecast.simulated_cycles = *forecaster.simulated.borrow();
-    forecast.warnings = warnings(&forecaster, x_end);
+    forecast.warnings = warnings(&forecaster, &forecast);
     forecast
 }
 
@@ -387,7 +457,7 @@ fn integrate_jumping(
     options: &ForecastOptions,
     forecast: &mut Forecast,
 ) -> (Vec<f64>, Vec<AgingState>) {
-    let y0 = DVector::from_row_slice(&start.to_array());
+    let y0 = DVector::from_row_slice(&to_integrator(&start));
     let s_end = stretched(x_end);
     // Absolute tolerance in the state's own units (1e-7 of the lithium inventory, 1e-7 nm);
     // the first step is one cycle, the automatic choice being far smaller.
@@ -397,8 +467,8 @@ fn integrate_jumping(
         s_end,
         s_end,
         y0,
-        options.relative_tolerance,
-        ABSOLUTE_TOLERANCE,
+        options.relative_tolerance * STEERING_TOLERANCE_FACTOR,
+        ABSOLUTE_TOLERANCE * STEERING_TOLERANCE_FACTOR,
         0.9,
         0.04,
         0.2,
@@ -417,7 +487,7 @@ fn integrate_jumping(
         }
         Err(e) => {
             let x = stepper.x_out().last().copied().map_or(0.0, unstretched);
-            forecaster.failure.borrow_mut().get_or_insert((x, format!("integrator: {e}")));
+            forecaster.failure.borrow_mut().get_or_insert((x, RateFailure::Integrator(e.to_string())));
         }
     }
     let mut xs = vec![0.0];
@@ -432,7 +502,7 @@ fn integrate_jumping(
         }
         let Some(y) = continuous.evaluate(s.min(reached)) else { break };
         xs.push(x);
-        ys.push(AgingState::from_slice(y.as_slice()));
+        ys.push(from_integrator(y.as_slice()));
         if x >= x_end {
             break;
         }
@@ -454,26 +524,26 @@ fn integrate_every_cycle(
 ) -> (Vec<f64>, Vec<AgingState>) {
     let mut xs = vec![0.0];
     let mut ys = vec![start];
-    let mut state = start.to_array();
+    let mut state = *start.values();
     let mut next_report = spacing;
     let cycles = x_end.ceil() as usize;
     for k in 0..cycles {
         let x = k as f64;
-        let rate = match forecaster.rates(x, &AgingState::from_slice(&state)) {
-            Ok(r) => r.to_array(),
-            Err(detail) => {
-                forecaster.failure.borrow_mut().get_or_insert((x, detail));
+        let rate = match forecaster.rates(x, &AgingState::from_values(state)) {
+            Ok(r) => *r.values(),
+            Err(failure) => {
+                forecaster.failure.borrow_mut().get_or_insert((x, failure));
                 break;
             }
         };
         let step = (x_end - x).min(1.0);
-        let next: [f64; STATE_LEN] = std::array::from_fn(|i| state[i] + step * rate[i]);
+        let next: [f64; COMPONENT_COUNT] = std::array::from_fn(|i| state[i] + step * rate[i]);
         // Report points inside this cycle are interpolated linearly.
         while next_report <= x + step + 1e-9 && next_report <= x_end + 1e-9 {
             let w = (next_report - x) / step;
-            let mixed: [f64; STATE_LEN] = std::array::from_fn(|i| state[i] * (1.0 - w) + next[i] * w);
+            let mixed: [f64; COMPONENT_COUNT] = std::array::from_fn(|i| state[i] * (1.0 - w) + next[i] * w);
             xs.push(next_report);
-            ys.push(AgingState::from_slice(&mixed));
+            ys.push(AgingState::from_values(mixed));
             next_report += spacing;
         }
         state = next;
@@ -513,64 +583,89 @@ fn end_of_life(points: &[FadePoint], plan: &Plan, cycling: bool, cycles_per_day:
     ]
 }
 
-/// Safety and validity warnings from what the simulated cycles showed.
-fn warnings(forecaster: &Forecaster, x_end: f64) -> Vec<String> {
+/// Safety and validity warnings from what the simulated cycles showed and how far the
+/// forecast reached.
+fn warnings(forecaster: &Forecaster, forecast: &Forecast) -> Vec<ForecastWarning> {
     let cell = &forecaster.scenario.cell;
     let log = forecaster.log.borrow();
     let mut out = Vec::new();
-    let min_potential = log.iter().map(|s| s.min_neg_potential_v).fold(f64::INFINITY, f64::min);
-    if min_potential < 0.0 {
-        out.push(format!(
-            "lithium plating predicted: the negative electrode falls to {:.0} mV against lithium while charging. \
-             Plating is a safety concern (internal short circuits), not only a capacity loss; check the charge \
-             protocol against the cell maker's limits and the applicable standards before use",
-            min_potential * 1e3
-        ));
+    let lowest_potential_v = log.iter().map(|s| s.min_neg_potential_v).fold(f64::INFINITY, f64::min);
+    if lowest_potential_v < 0.0 {
+        let plated_ah =
+            forecast.final_state.map_or(0.0, |s| s[Component::PlatedTotal] * forecast.scale.lithium_fresh_ah);
+        out.push(ForecastWarning::Plating { lowest_potential_v, plated_ah });
     }
-    let peak_charge = log.iter().map(|s| s.peak_charge_a).fold(0.0, f64::max);
-    let peak_discharge = log.iter().map(|s| s.peak_discharge_a).fold(0.0, f64::max);
+    let peak = |current: fn(&CycleSnapshot) -> (f64, usize)| {
+        log.iter().map(current).fold((0.0, 0), |best, this| if this.0 > best.0 { this } else { best })
+    };
+    let (peak_charge, charge_step) = peak(|s| (s.peak_charge_a, s.peak_charge_step));
     if peak_charge > cell.max_charge_current_a * (1.0 + LIMIT_SLACK) {
-        out.push(format!(
-            "the profile charges at {peak_charge:.1} A, above the cell's limit of {:.1} A",
-            cell.max_charge_current_a
-        ));
+        out.push(ForecastWarning::ChargeCurrentOverLimit {
+            peak_a: peak_charge,
+            limit_a: cell.max_charge_current_a,
+            step: charge_step + 1,
+        });
     }
+    let (peak_discharge, discharge_step) = peak(|s| (s.peak_discharge_a, s.peak_discharge_step));
     if peak_discharge > cell.max_discharge_current_a * (1.0 + LIMIT_SLACK) {
-        out.push(format!(
-            "the profile discharges at {peak_discharge:.1} A, above the cell's limit of {:.1} A",
-            cell.max_discharge_current_a
-        ));
+        out.push(ForecastWarning::DischargeCurrentOverLimit {
+            peak_a: peak_discharge,
+            limit_a: cell.max_discharge_current_a,
+            step: discharge_step + 1,
+        });
     }
-    let hottest = log.iter().map(|s| s.peak_temperature_k).fold(f64::NEG_INFINITY, f64::max);
-    let coldest = log.iter().map(|s| s.min_temperature_k).fold(f64::INFINITY, f64::min);
-    if hottest > cell.temperature_max_k || coldest < cell.temperature_min_k {
-        out.push(format!(
-            "the cell reaches {:.1}–{:.1} °C, outside its limits of {:.1}–{:.1} °C",
-            coldest - ZERO_CELSIUS_K,
-            hottest - ZERO_CELSIUS_K,
-            cell.temperature_min_k - ZERO_CELSIUS_K,
-            cell.temperature_max_k - ZERO_CELSIUS_K
-        ));
+    let hottest_k = log.iter().map(|s| s.peak_temperature_k).fold(f64::NEG_INFINITY, f64::max);
+    let coldest_k = log.iter().map(|s| s.min_temperature_k).fold(f64::INFINITY, f64::min);
+    if hottest_k > cell.temperature_max_k || coldest_k < cell.temperature_min_k {
+        out.push(ForecastWarning::TemperatureOutsideLimits {
+            coldest_k,
+            hottest_k,
+            min_k: cell.temperature_min_k,
+            max_k: cell.temperature_max_k,
+        });
     }
-    let days = forecaster.day(x_end);
-    let cycles = if forecaster.cycling() { x_end } else { 0.0 };
-    match cell.calibration {
-        None => out.push(
-            "the cell's aging parameters carry no calibration range: treat this forecast as illustrative until they are \
-             fitted to measured aging data"
-                .into(),
-        ),
+    let held = log.iter().map(|s| s.voltage_limited_s).fold(0.0, f64::max);
+    if held > 0.0 {
+        out.push(ForecastWarning::HeldAtVoltageLimit { seconds_per_cycle: held });
+    }
+    match forecaster.plan.calibration {
+        None => out.push(ForecastWarning::Uncalibrated),
         Some(range) => {
-            let beyond_cycles = range.cycles.map(|c| cycles / c).unwrap_or(0.0);
-            let beyond_days = range.days.map(|d| days / d).unwrap_or(0.0);
-            let factor = beyond_cycles.max(beyond_days);
-            if factor > 2.0 {
-                out.push(format!(
-                    "the horizon reaches {factor:.1}× beyond the aging data the parameters were calibrated on: the \
-                     forecast is an extrapolation"
-                ));
+            if let Some(warning) = beyond_calibration(forecaster, &range, forecast.points.last()) {
+                out.push(warning);
             }
         }
     }
     out
+}
+
+/// The warning for a forecast that reaches past its calibration range on any axis the range
+/// gives (cycles, days, equivalent full cycles) or runs at an ambient outside the fitted
+/// temperatures; None when it stays inside.
+fn beyond_calibration(
+    forecaster: &Forecaster,
+    range: &CalibrationRange,
+    last: Option<&FadePoint>,
+) -> Option<ForecastWarning> {
+    let (cycles, days, efc) = last.map_or((0.0, 0.0, 0.0), |p| (p.cycle, p.day, p.efc));
+    let past = |limit: Option<f64>, reached: f64| limit.is_some_and(|limit| reached > limit * (1.0 + 1e-9));
+    let temperature_outside_k = range.temperature_k.and_then(|(low, high)| {
+        let ambients: Vec<f64> = match &forecaster.plan.usage.ambient_k {
+            Ambient::Constant(t) => vec![*t],
+            Ambient::Monthly(months) => months.to_vec(),
+        };
+        // The ambient furthest outside the fitted range (a kelvin of slack for rounding).
+        ambients
+            .into_iter()
+            .filter(|t| *t < low - 1.0 || *t > high + 1.0)
+            .max_by(|a, b| (a - a.clamp(low, high)).abs().total_cmp(&(b - b.clamp(low, high)).abs()))
+    });
+    let outside = past(range.cycles, cycles) || past(range.days, days) || past(range.efc, efc);
+    (outside || temperature_outside_k.is_some()).then_some(ForecastWarning::BeyondCalibration {
+        calibrated: *range,
+        horizon_cycles: cycles,
+        horizon_days: days,
+        horizon_efc: efc,
+        temperature_outside_k,
+    })
 }

@@ -7,7 +7,10 @@ pub mod result;
 
 pub use engine::{report_grid, run_forecast};
 pub use plan::{Ambient, EndOfLife, Horizon, Plan, Usage};
-pub use result::{EndOfLifePoint, FadePoint, Forecast, LifeAt, LossByMechanism, StopReason, Threshold};
+pub use result::{
+    equivalent_full_cycles, EndOfLifePoint, FadePoint, Forecast, ForecastFailure, ForecastWarning, LifeAt, ReportScale,
+    ReportedValue, StopReason, Threshold, WarningKind, WarningSet,
+};
 
 /// Options of one forecast run.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -41,9 +41,14 @@ impl Default for EndOfLife {
     }
 }
 
-/// The forecast sections of a scenario file.
+/// What the forecast needs beyond the cycle model's scenario: the cell's aging laws (from the
+/// cell file) and the forecast sections of the scenario file.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Plan {
+    /// Aging laws (all off when the cell file gives none).
+    pub aging: crate::aging::AgingParams,
+    /// The aging data the parameters were calibrated on, if any.
+    pub calibration: Option<crate::aging::CalibrationRange>,
     pub usage: Usage,
     /// None when the scenario gives none; the command line must then.
     pub horizon: Option<Horizon>,

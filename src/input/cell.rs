@@ -15,7 +15,7 @@ use super::mechanisms::{
 use super::overrides::{Override, OverrideTarget};
 use super::suggest;
 use super::units::{CUBIC_CENTIMETRE, GIGA, KILO, MICRO, MILLI};
-use crate::aging::AgingParams;
+use crate::aging::{AgingParams, CalibrationRange};
 use crate::cycle::{Cell, Electrode};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use crate::material::{BuiltinOcp, OpenCircuit};
@@ -139,13 +139,23 @@ impl Side {
     }
 }
 
+/// A cell file as understood: the cycle model's cell and, apart from it, its aging laws.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LoadedCell {
+    pub cell: Cell,
+    /// Aging laws (all off when the file gives none).
+    pub aging: AgingParams,
+    /// The aging data the parameters were calibrated on, if the file says.
+    pub calibration: Option<CalibrationRange>,
+}
+
 /// Reads, overrides, checks and converts a cell file; the first problem is the error.
-pub fn load_cell(path: &Path, overrides: &[Override]) -> Result<Cell, InputError> {
+pub fn load_cell(path: &Path, overrides: &[Override]) -> Result<LoadedCell, InputError> {
     check_cell(path, overrides).map_err(first_problem)
 }
 
 /// Like [`load_cell`], but returns every problem found (at least one on failure).
-pub fn check_cell(path: &Path, overrides: &[Override]) -> Result<Cell, Vec<InputError>> {
+pub fn check_cell(path: &Path, overrides: &[Override]) -> Result<LoadedCell, Vec<InputError>> {
     let mut document = TomlDocument::read(path, OverrideTarget::Cell).map_err(|e| vec![e])?;
     document.apply_overrides(overrides).map_err(|e| vec![e])?;
     let file: CellFile = document.deserialize().map_err(|e| vec![e])?;
@@ -158,7 +168,7 @@ pub(super) fn check_cell_shape(path: &Path, overrides: &[Override]) -> Result<()
     check_shape::<CellFile>(path, OverrideTarget::Cell, overrides)
 }
 
-fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<InputError>> {
+fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<LoadedCell, Vec<InputError>> {
     let mut checks = Checks::new(document);
     if file.name.trim().is_empty() {
         checks.report("name", "must not be empty");
@@ -231,10 +241,8 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<Cell, Vec<Inp
         temperature_max_k: limits.max_temperature_c + ZERO_CELSIUS_K,
         reference_temperature_k: reference_temperature_c + ZERO_CELSIUS_K,
         shells: usize::try_from(shells).unwrap_or(0),
-        aging,
-        calibration,
     };
-    checks.finish(cell)
+    checks.finish(LoadedCell { cell, aging, calibration })
 }
 
 fn convert_electrode(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSection) -> Electrode {

@@ -110,6 +110,9 @@ pub(super) struct ActiveLossSection {
 pub(super) struct CalibrationSection {
     cycles: Option<f64>,
     days: Option<f64>,
+    efc: Option<f64>,
+    min_temperature_c: Option<f64>,
+    max_temperature_c: Option<f64>,
 }
 
 /// What a mechanism table needs to know about the cell around it.
@@ -320,20 +323,41 @@ pub(super) fn convert_active_loss(
 }
 
 pub(super) fn convert_calibration(checks: &mut Checks<'_>, section: &CalibrationSection) -> CalibrationRange {
-    if section.cycles.is_none() && section.days.is_none() {
+    if section.cycles.is_none() && section.days.is_none() && section.efc.is_none() {
         checks.report(
             "calibration",
-            "give `cycles`, `days` or both: how far the aging data the parameters were fitted to \
-             reaches (leave the table out for uncalibrated parameters)",
+            "give `cycles`, `days` or `efc` (any of them): how far the aging data the parameters were \
+             fitted to reaches (leave the table out for uncalibrated parameters)",
         );
     }
-    if let Some(cycles) = section.cycles {
-        checks.positive("calibration.cycles", cycles);
+    for (key, value) in [("calibration.cycles", section.cycles), ("calibration.days", section.days), ("calibration.efc", section.efc)] {
+        if let Some(value) = value {
+            checks.positive(key, value);
+        }
     }
-    if let Some(days) = section.days {
-        checks.positive("calibration.days", days);
-    }
-    CalibrationRange { cycles: section.cycles, days: section.days }
+    let temperature_k = match (section.min_temperature_c, section.max_temperature_c) {
+        (None, None) => None,
+        (Some(low), Some(high)) => {
+            checks.celsius("calibration.min_temperature_c", low);
+            checks.celsius("calibration.max_temperature_c", high);
+            if low > high {
+                checks.report(
+                    "calibration.min_temperature_c",
+                    format!("must not be above max_temperature_c ({high} °C), found {low} °C"),
+                );
+            }
+            Some((low + ZERO_CELSIUS_K, high + ZERO_CELSIUS_K))
+        }
+        (Some(_), None) => {
+            checks.report("calibration.max_temperature_c", "give it with min_temperature_c (the fitted data's range)");
+            None
+        }
+        (None, Some(_)) => {
+            checks.report("calibration.min_temperature_c", "give it with max_temperature_c (the fitted data's range)");
+            None
+        }
+    };
+    CalibrationRange { cycles: section.cycles, days: section.days, efc: section.efc, temperature_k }
 }
 
 /// Reports a table that only the negative electrode may have, found under the positive one.

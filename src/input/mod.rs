@@ -25,7 +25,7 @@ mod units;
 
 use std::path::Path;
 
-pub use cell::{check_cell, load_cell};
+pub use cell::{check_cell, load_cell, LoadedCell};
 pub use duty::load_duty;
 pub use error::{InputError, COMMAND_LINE_FLAG_SOURCE, COMMAND_LINE_SOURCE};
 pub use fit::{cell_table_with, load_fit, load_measured, DatasetSource, LoadedFit};

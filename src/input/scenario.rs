@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
 
-use super::cell::check_cell;
+use super::cell::{check_cell, LoadedCell};
 use super::cell::check_cell_shape;
 use super::checks::Checks;
 use super::document::{check_shape, TomlDocument};
@@ -135,7 +135,7 @@ fn check_scenario_files(
     let directory = path.parent().unwrap_or(Path::new(""));
     let cell_path = referenced_file(&mut checks, directory, "cell", &file.cell);
     let profile_path = referenced_file(&mut checks, directory, "profile", &file.profile);
-    let plan = convert_plan(
+    let mut plan = convert_plan(
         &mut checks,
         PlanSections {
             usage: file.usage.as_ref(),
@@ -153,8 +153,8 @@ fn check_scenario_files(
     };
     let duty = match (&cell, &profile_path) {
         (Some(cell), Some(profile_path)) => {
-            let window = VoltageWindow { min_v: cell.voltage_min_v, max_v: cell.voltage_max_v };
-            check_duty(profile_path, cell.nominal_capacity_coulomb, Some(window), overrides)
+            let window = VoltageWindow { min_v: cell.cell.voltage_min_v, max_v: cell.cell.voltage_max_v };
+            check_duty(profile_path, cell.cell.nominal_capacity_coulomb, Some(window), overrides)
                 .map_err(|mut found| problems.append(&mut found))
                 .ok()
         }
@@ -164,11 +164,14 @@ fn check_scenario_files(
         return Err(problems);
     }
     // With no problems recorded every part loaded; the `else` only keeps this panic-free.
-    let (Some(cell), Some((duty, profile_start_soc)), Some(cell_path), Some(profile_path)) =
+    let (Some(loaded_cell), Some((duty, profile_start_soc)), Some(cell_path), Some(profile_path)) =
         (cell, duty, cell_path, profile_path)
     else {
         return Err(problems);
     };
+    let LoadedCell { cell, aging, calibration } = loaded_cell;
+    plan.aging = aging;
+    plan.calibration = calibration;
 
     let mut warnings = Vec::new();
     if let Some(warning) = window_mismatch_warning(&cell, &cell_path) {

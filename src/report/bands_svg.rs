@@ -163,6 +163,7 @@ mod tests {
                 })
                 .collect(),
             plating_fraction: 0.0,
+            warning_counts: Vec::new(),
         }
     }
 

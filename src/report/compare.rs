@@ -4,6 +4,7 @@
 use super::cycle_svg::{padded_range, plot_error};
 use super::ReportError;
 use crate::compare::{AlternativeSummary, ConditionResult, Spread, TABLE_QUANTILES};
+use crate::forecast::WarningKind;
 use plotters::prelude::*;
 use std::fmt::Write as _;
 
@@ -256,7 +257,7 @@ pub fn compare_svg(summaries: &[AlternativeSummary], title: &str, cycling: bool)
 }
 
 /// The columns of table.csv before the quantile columns.
-pub const TABLE_CSV_HEADER: [&str; 14] = [
+pub const TABLE_CSV_HEADER: [&str; 15] = [
     "ambient_c",
     "c_rate",
     "soc_low_pct",
@@ -271,6 +272,7 @@ pub const TABLE_CSV_HEADER: [&str; 14] = [
     "soh_pct",
     "resistance_mohm",
     "resistance_growth_pct",
+    "plating_predicted",
 ];
 
 /// table.csv, long format: one row per condition and reported point of the nominal forecast;
@@ -305,6 +307,8 @@ pub fn table_csv(results: &[ConditionResult]) -> Result<Vec<u8>, ReportError> {
                 cell(Some(p.soh_pct)),
                 cell(Some(p.resistance_mohm)),
                 cell(Some(p.resistance_growth_pct)),
+                // The condition's forecast as a whole, from its typed warnings.
+                if r.nominal.warning_set().contains(WarningKind::Plating) { "yes" } else { "no" }.into(),
             ];
             if sampled {
                 let q = r.quantiles.as_ref().and_then(|q| q.get(k));

@@ -3,6 +3,7 @@
 use super::ReportError;
 use crate::ensemble::summary::QuantileEstimate;
 use crate::ensemble::{EnsembleSummary, SampleRecord, SampleStatus, CURVE_QUANTITIES};
+use crate::forecast::WarningKind;
 use serde_json::{json, Value};
 
 /// `5` for 0.05, `2.5` for 0.025: the quantile as a percent in column names.
@@ -55,7 +56,7 @@ pub fn samples_csv(records: &[SampleRecord], parameters: &[String], warranty: bo
     if warranty {
         header.push("soh_at_warranty_pct".into());
     }
-    header.extend(["plating".into(), "note".into()]);
+    header.extend(["plating".into(), "warnings".into(), "note".into()]);
     writer.write_record(&header)?;
     for r in records {
         let (status, note) = match &r.status {
@@ -76,7 +77,8 @@ pub fn samples_csv(records: &[SampleRecord], parameters: &[String], warranty: bo
         if warranty {
             row.push(blank_if_nan(r.soh_at_warranty_pct));
         }
-        row.push(if r.plating { "yes" } else { "no" }.to_string());
+        row.push(if r.warnings.contains(WarningKind::Plating) { "yes" } else { "no" }.to_string());
+        row.push(r.warnings.kinds().map(WarningKind::key).collect::<Vec<_>>().join(";"));
         row.push(note.to_string());
         writer.write_record(&row)?;
     }
@@ -125,6 +127,7 @@ pub fn ensemble_json(summary: &EnsembleSummary, run: &Value, warnings: &[String]
         "sensitivity": summary.sensitivity,
         "plating_fraction": summary.plating_fraction,
         "warnings": warnings,
+        "forecast_warnings": super::counted_warnings_json(&summary.warning_counts, summary.counted as usize, "samples"),
         "caution": crate::CAUTION,
     });
     let mut bytes = serde_json::to_vec_pretty(&value)?;

@@ -3,7 +3,7 @@
 
 use super::cycle_svg::{padded_range, plot_error};
 use super::ReportError;
-use crate::calibrate::{Axis, FitResult, FittedParameter, HoldoutError, ResidualStats};
+use crate::calibrate::{Axis, FitResult, FitWarning, FittedParameter, HoldoutError, ResidualStats};
 use plotters::prelude::*;
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -26,7 +26,38 @@ struct FitRecord<'a> {
     model_evaluations: usize,
     starts: usize,
     termination: &'a str,
-    warnings: &'a [String],
+    converged: bool,
+    warnings: Vec<serde_json::Value>,
+    /// Per dataset, the warnings of its forecast at the fitted values.
+    forecast_warnings: Vec<serde_json::Value>,
+}
+
+/// One fit warning in words.
+pub fn fit_warning_text(warning: &FitWarning) -> String {
+    match warning {
+        FitWarning::NotConverged { termination } => format!(
+            "WARNING: the fit did not converge (the optimiser stopped with {termination}): the values may not be \
+             a minimum and their standard errors may mislead; refit with other starts, bounds or data"
+        ),
+        FitWarning::Singular => "the data do not determine the parameters (JᵀJ is singular): no standard errors".into(),
+        FitWarning::StandardErrorExceedsValue { path, standard_error, value } => {
+            format!("{path}: standard error {standard_error:.3e} exceeds the value {value:.3e}: the data do not determine it")
+        }
+        FitWarning::AtBound { path, value, low, high } => {
+            format!("{path}: {value:.4e} is at its bound ({low}–{high}): widen the bounds or fix the parameter")
+        }
+        FitWarning::Correlated { first, second, correlation } => format!(
+            "{first} and {second} are correlated {correlation:.3}: the data determine a combination of them, not each"
+        ),
+    }
+}
+
+fn with_message(warning: &FitWarning) -> serde_json::Value {
+    let mut value = serde_json::to_value(warning).unwrap_or(serde_json::Value::Null);
+    if let serde_json::Value::Object(map) = &mut value {
+        map.insert("message".into(), serde_json::Value::String(fit_warning_text(warning)));
+    }
+    value
 }
 
 /// fit.json.
@@ -45,7 +76,18 @@ pub fn fit_json(result: &FitResult, name: &str, holdout_after: Option<f64>) -> R
         model_evaluations: result.model_evaluations,
         starts: result.starts,
         termination: &result.termination,
-        warnings: &result.warnings,
+        converged: result.converged,
+        warnings: result.warnings.iter().map(with_message).collect(),
+        forecast_warnings: result
+            .curves
+            .iter()
+            .map(|c| {
+                serde_json::json!({
+                    "dataset": c.dataset,
+                    "warnings": c.forecast_warnings.iter().map(super::warning_json).collect::<Vec<_>>(),
+                })
+            })
+            .collect(),
     };
     let mut bytes = serde_json::to_vec_pretty(&record)?;
     bytes.push(b'\n');

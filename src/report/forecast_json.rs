@@ -1,9 +1,11 @@
-//! The forecast summary as JSON: end of life per threshold, values at the horizon, loss by
-//! mechanism, how much was simulated, and every warning.
+//! The forecast summary as JSON: end of life per threshold, values at the horizon, lithium
+//! and active material lost (from the slow-state table), how much was simulated, why it
+//! stopped, and every warning with its numbers and message.
 
+use super::outcome::{stop_json, warning_json};
 use super::ReportError;
-use crate::forecast::{Forecast, LifeAt, StopReason};
-use serde_json::{json, Value};
+use crate::forecast::{FadePoint, Forecast, LifeAt, ReportScale};
+use serde_json::{json, Map, Value};
 
 fn life(reached: &Option<LifeAt>) -> Value {
     match reached {
@@ -12,31 +14,49 @@ fn life(reached: &Option<LifeAt>) -> Value {
     }
 }
 
+/// A point's every column (the same names as `fade.csv`).
+fn point_json(point: &FadePoint, scale: &ReportScale) -> Value {
+    let map: Map<String, Value> =
+        super::fade_csv::fade_columns(point, scale).into_iter().map(|(name, v)| (name, json!(v))).collect();
+    Value::Object(map)
+}
+
 /// Renders the summary of a forecast of `scenario` on `cell`.
-pub fn forecast_json(forecast: &Forecast, scenario: &str, cell: &str) -> Result<Vec<u8>, ReportError> {
+pub fn forecast_json(forecast: &Forecast, scenario: &str, cell: &str, cycling: bool) -> Result<Vec<u8>, ReportError> {
     let last = forecast.points.last();
     let end_of_life: Vec<Value> = forecast
         .end_of_life
         .iter()
         .map(|e| json!({ "threshold": e.threshold, "level_pct": e.level_pct, "end_of_life": life(&e.reached) }))
         .collect();
-    let stop = match &forecast.stop {
-        StopReason::Horizon => json!({ "kind": "horizon" }),
-        StopReason::Exhausted { cycle } => json!({ "kind": "exhausted", "cycle": cycle }),
-        StopReason::Failed { cycle, detail } => json!({ "kind": "failed", "cycle": cycle, "detail": detail }),
-    };
+    let lost: Map<String, Value> = last.map_or_else(Map::new, |p| {
+        forecast
+            .scale
+            .all_values(&p.state)
+            .into_iter()
+            .filter(|v| {
+                use crate::aging::Measure::*;
+                matches!(v.spec.measure, LithiumLost | ElectrodeFraction)
+            })
+            .map(|v| (format!("{}_{}", v.spec.column, v.unit), json!(v.value)))
+            .collect()
+    });
     let summary = json!({
         "scenario": scenario,
         "cell": cell,
         "mode": if forecast.every_cycle { "every cycle" } else { "cycle jumping" },
-        "fresh": { "capacity_ah": forecast.fresh_capacity_ah, "resistance_mohm": forecast.fresh_resistance_mohm },
+        "fresh": {
+            "capacity_ah": forecast.fresh_capacity_ah,
+            "resistance_mohm": forecast.fresh_resistance_mohm,
+            "cyclable_lithium_ah": forecast.scale.lithium_fresh_ah,
+        },
         "end_of_life": end_of_life,
-        "at_horizon": last,
-        "loss_by_mechanism_at_horizon": forecast.loss_at_horizon,
+        "at_horizon": last.map(|p| point_json(p, &forecast.scale)),
+        "lost_at_horizon": lost,
         "simulated_cycles": forecast.simulated_cycles,
         "integrator": { "accepted_steps": forecast.accepted_steps, "rejected_steps": forecast.rejected_steps },
-        "stop": stop,
-        "warnings": forecast.warnings,
+        "stop": stop_json(&forecast.stop, cycling),
+        "warnings": forecast.warnings.iter().map(warning_json).collect::<Vec<_>>(),
         "caution": crate::CAUTION,
     });
     let mut bytes = serde_json::to_vec_pretty(&summary)?;

@@ -7,10 +7,11 @@
 //! Payload: u64 index; u8 status (0 ok, 1 invalid, 2 failed), u32 message length, message;
 //! u32 value count, f64 values; two ends of life, each u8 present + f64 cycles, efc, years;
 //! f64 state of health at the horizon, resistance growth at the horizon, state of health at the
-//! warranty point; u8 plating; u32 point count, 3 × f32 per point.
+//! warranty point; u16 warning kinds (one bit each, `forecast::WarningKind`); u32 point count,
+//! 3 × f32 per point.
 
 use crate::ensemble::{SampleRecord, SampleStatus};
-use crate::forecast::LifeAt;
+use crate::forecast::{LifeAt, WarningSet};
 
 fn checksum(bytes: &[u8]) -> u32 {
     // FNV-1a, 32 bit: enough to tell a torn write from a whole record.
@@ -43,7 +44,7 @@ pub fn encode_record(r: &SampleRecord) -> Vec<u8> {
     for v in [r.soh_at_horizon_pct, r.resistance_growth_at_horizon_pct, r.soh_at_warranty_pct] {
         p.extend_from_slice(&v.to_le_bytes());
     }
-    p.push(r.plating as u8);
+    p.extend_from_slice(&r.warnings.0.to_le_bytes());
     p.extend_from_slice(&(r.curves.len() as u32).to_le_bytes());
     for point in &r.curves {
         for v in point {
@@ -110,7 +111,7 @@ fn decode_payload(payload: &[u8]) -> Option<SampleRecord> {
     let soh_at_horizon_pct = r.f64()?;
     let resistance_growth_at_horizon_pct = r.f64()?;
     let soh_at_warranty_pct = r.f64()?;
-    let plating = r.u8()? == 1;
+    let warnings = WarningSet(u16::from_le_bytes(r.take(2)?.try_into().ok()?));
     let points = r.u32()? as usize;
     let curves = (0..points).map(|_| Some([r.f32()?, r.f32()?, r.f32()?])).collect::<Option<Vec<[f32; 3]>>>()?;
     (r.at == payload.len()).then_some(SampleRecord {
@@ -122,7 +123,7 @@ fn decode_payload(payload: &[u8]) -> Option<SampleRecord> {
         soh_at_horizon_pct,
         resistance_growth_at_horizon_pct,
         soh_at_warranty_pct,
-        plating,
+        warnings,
         curves,
     })
 }
@@ -166,7 +167,7 @@ mod tests {
             soh_at_horizon_pct: 71.125,
             resistance_growth_at_horizon_pct: 40.0,
             soh_at_warranty_pct: f64::NAN,
-            plating: index == 1,
+            warnings: WarningSet(if index == 1 { 0b101 } else { 0 }),
             curves: vec![[5.0, 100.0, 16.0], [4.5, 90.0, 18.5]],
         }
     }

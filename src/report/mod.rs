@@ -12,6 +12,8 @@ mod fade_csv;
 mod fade_svg;
 mod fit;
 mod forecast_json;
+mod forecast_text;
+mod outcome;
 mod inputs;
 mod journal;
 mod summary;
@@ -23,10 +25,15 @@ pub use compare::{compare_csv, compare_svg, compare_text, table_csv, COMPARE_CSV
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
 pub use cycle_svg::cycle_svg;
 pub use ensemble::{bands_csv, ensemble_json, percent_label, samples_csv};
-pub use fade_csv::fade_csv;
+pub use fade_csv::{fade_columns, fade_csv};
 pub use fade_svg::fade_svg;
-pub use fit::{fit_json, fit_svg, fitted_cell_toml, uncertainty_toml};
+pub use fit::{fit_json, fit_svg, fit_warning_text, fitted_cell_toml, uncertainty_toml};
 pub use forecast_json::forecast_json;
+pub use forecast_text::forecast_text;
+pub use outcome::{
+    counted_warning_lines, counted_warnings_json, failure_text, stop_json, stop_text, warning_json, warning_kind_text,
+    warning_text,
+};
 pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
 pub use journal::{decode_journal, encode_record};
 pub use summary::{cycle_cautions, cycle_summary};
