@@ -334,11 +334,13 @@ pub fn health_of(cell: &Cell, aging: &AgingParams, state: &AgingState) -> Health
     }
 }
 
-/// The same state with only its loss of lithium: no active material lost, no film resistance
-/// added. The capacity of this health against the fresh one is the fade due to lithium alone.
+/// The same state with only the lithium lost to film and plating: fresh electrodes (so none
+/// of their material, and none of the lithium stranded in it, lost) and no film resistance
+/// added. The capacity of this health against the fresh one is the fade due to lithium loss;
+/// the rest is due to active material lost together with the lithium it held.
 pub fn lithium_only(state: &AgingState, aging: &AgingParams) -> AgingState {
     let mut only = AgingState::fresh(aging);
-    only[C::LithiumInventory] = state[C::LithiumInventory];
+    only[C::LithiumInventory] = state[C::LithiumInventory] + state[C::LithiumStranded];
     only
 }
 

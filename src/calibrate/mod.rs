@@ -124,11 +124,17 @@ pub struct FitProblem {
     pub holdout_after: Option<f64>,
 }
 
+/// Default patience of the optimiser (see [`FitOptions::patience`]).
+pub const DEFAULT_PATIENCE: usize = 30;
+
 /// How to fit.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FitOptions {
     /// Starts of the optimiser (the first from the files' values), at least 1.
     pub starts: usize,
+    /// The optimiser gives up after patience × (parameters + 1) evaluations per start; one that
+    /// does is reported as not converged.
+    pub patience: usize,
     /// Forecast settings of every model evaluation: a tighter tolerance than a plain forecast's
     /// keeps the finite-difference Jacobian above the integrator's noise.
     pub forecast: ForecastOptions,
@@ -140,6 +146,7 @@ impl Default for FitOptions {
     fn default() -> Self {
         FitOptions {
             starts: 3,
+            patience: DEFAULT_PATIENCE,
             forecast: ForecastOptions { every_cycle: false, report_points: 200, relative_tolerance: 1e-5 },
             curve_points: 200,
         }

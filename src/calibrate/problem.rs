@@ -50,7 +50,7 @@ pub fn fit(
             (0..n).map(|i| if start == 0 { model.bounds[i].z(initial[i]) } else { quasi_random_z(start, i) }).collect();
         let shifted = z0.iter().map(|z| z + Z_SHIFT).collect();
         let target = LeastSquares { model: &model, shifted_z: DVector::from_vec(shifted), cache: RefCell::new(None) };
-        let solver = LevenbergMarquardt::new().with_ftol(1e-10).with_xtol(1e-8).with_gtol(1e-10).with_patience(30);
+        let solver = LevenbergMarquardt::new().with_ftol(1e-10).with_xtol(1e-8).with_gtol(1e-10).with_patience(options.patience.max(1));
         let (solved, report) = solver.minimize(target);
         let values = model.values_of_shifted(&solved.shifted_z);
         match model.residuals(&values) {

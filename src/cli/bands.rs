@@ -7,7 +7,7 @@
 use super::{print_caution, CliError};
 use crate::ensemble::Sampler;
 use crate::ensemble::{run_ensemble, summarize, EnsembleConfig, SampleRecord, Shard, Warranty};
-use crate::forecast::{report_grid, ForecastOptions, Horizon};
+use crate::forecast::{report_grid, ForecastOptions, Horizon, WarningKind};
 use crate::input::{self, InputError, Override};
 use crate::report;
 use serde::{Deserialize, Serialize};
@@ -414,6 +414,14 @@ fn finish(
             w.met,
             w.trials
         );
+        let beyond = summary.warning_counts.iter().find(|(kind, _)| *kind == WarningKind::BeyondCalibration);
+        if let Some((_, n)) = beyond {
+            let _ = writeln!(
+                text,
+                "    (an extrapolation: {n} of {} samples run beyond the aging data the cell was calibrated on)",
+                summary.counted
+            );
+        }
     }
     let _ = writeln!(text, "  strongest influence on {}:", summary.sensitivity_measure);
     for s in summary.sensitivity.iter().take(5) {

@@ -43,7 +43,7 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
         let scenario = input::load_scenario(scenario_path, &scenario).map_err(|e| e.to_string())?;
         Ok((scenario.scenario, scenario.plan))
     };
-    let options = FitOptions { starts: loaded.starts, ..FitOptions::default() };
+    let options = FitOptions { starts: loaded.starts, patience: loaded.patience, ..FitOptions::default() };
     let result = calibrate::fit(&problem, &source, &options).map_err(|e| match e {
         CalibrationError::TooFewPoints { .. } => {
             CliError::Input(InputError::new(&config.fit_file, format!("{e} (with --holdout-after)")))

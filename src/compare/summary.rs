@@ -213,7 +213,7 @@ fn curve_bands(usable: &[&Outcome]) -> Vec<CurveBand> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::forecast::LifeAt;
+    use crate::forecast::{LifeAt, WarningSet};
 
     fn outcome(life: Option<Life>) -> Outcome {
         Outcome {

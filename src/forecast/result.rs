@@ -34,11 +34,11 @@ pub struct FadePoint {
     /// temperature, mΩ.
     pub resistance_mohm: f64,
     pub resistance_growth_pct: f64,
-    /// Capacity lost because lithium left the cycling inventory: fresh capacity less the
-    /// capacity of the fresh electrodes holding only the lithium left, Ah.
+    /// Capacity lost to lithium taken by film and plating: fresh capacity less the capacity of
+    /// the fresh electrodes holding the lithium those sinks left, Ah.
     pub fade_lithium_ah: f64,
-    /// The rest of the capacity lost, due to lost active material, Ah. The two add up to the
-    /// fresh capacity less `capacity_ah`.
+    /// The rest of the capacity lost: active material lost together with the lithium it held,
+    /// Ah. The two add up to the fresh capacity less `capacity_ah`.
     pub fade_active_material_ah: f64,
     /// Mean film thickness on crack surface, nm.
     pub film_crack_nm: f64,

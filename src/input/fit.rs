@@ -29,6 +29,7 @@ struct FitFile {
     parameter: Vec<ParameterEntry>,
     weights: Option<WeightsEntry>,
     starts: Option<i64>,
+    patience: Option<i64>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -77,6 +78,8 @@ pub struct LoadedFit {
     pub cell_path: PathBuf,
     /// Starts of the optimiser (default 3).
     pub starts: usize,
+    /// The optimiser's patience (evaluations per start over parameters + 1; default 30).
+    pub patience: usize,
 }
 
 /// Reads a fit description, its datasets and scenarios. `overrides` (the command line's) apply
@@ -101,6 +104,10 @@ pub fn load_fit(path: &Path, overrides: &[Override]) -> Result<LoadedFit, InputE
     let starts = file.starts.unwrap_or(3);
     if !(1..=50).contains(&starts) {
         checks.report("starts", format!("must be 1–50, found {starts}"));
+    }
+    let patience = file.patience.unwrap_or(crate::calibrate::DEFAULT_PATIENCE as i64);
+    if !(1..=1000).contains(&patience) {
+        checks.report("patience", format!("must be 1–1000, found {patience}"));
     }
     for (i, p) in file.parameter.iter().enumerate() {
         let key = |k: &str| format!("parameter.{i}.{k}");
@@ -195,6 +202,7 @@ pub fn load_fit(path: &Path, overrides: &[Override]) -> Result<LoadedFit, InputE
         sources,
         cell_path,
         starts: usize::try_from(starts).unwrap_or(3),
+        patience: usize::try_from(patience).unwrap_or(crate::calibrate::DEFAULT_PATIENCE),
     })
 }
 

@@ -60,7 +60,7 @@ pub fn forecast_text(f: &Forecast, cycling: bool) -> String {
     }
     let _ = writeln!(
         s,
-        "  {:<34}{:.3} Ah: {:.3} Ah to lithium lost, {:.3} Ah to active material lost",
+        "  {:<34}{:.3} Ah: {:.3} Ah to lithium taken by film and plating, {:.3} Ah to active material lost",
         "capacity lost by the horizon",
         last.fade_lithium_ah + last.fade_active_material_ah,
         last.fade_lithium_ah,
