@@ -6,8 +6,9 @@
 //! [`summarize`] of the same records sorted by index always gives the same numbers.
 
 use super::sampling::Sampler;
+use super::status::SampleStatus;
 use crate::cycle::Scenario;
-use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, StopReason, Threshold};
+use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, Threshold};
 use rayon::prelude::*;
 
 /// Which part of the samples this run computes: sample i belongs to shard `i % count + 1`.
@@ -24,16 +25,6 @@ impl Shard {
     pub fn contains(&self, sample: u64) -> bool {
         sample % self.count + 1 == self.index
     }
-}
-
-/// What one sample came to.
-#[derive(Debug, Clone, PartialEq)]
-pub enum SampleStatus {
-    Ok,
-    /// The drawn inputs break an input rule (e.g. a normal draw gave a negative radius).
-    Invalid(String),
-    /// The forecast failed or the cell was exhausted before the horizon.
-    Failed(String),
 }
 
 /// Quantities kept per reported point for the bands.
@@ -98,11 +89,7 @@ where
         Err(message) => return empty(SampleStatus::Invalid(message)),
     };
     let forecast = run_forecast(&scenario, &plan, config.horizon, &config.options);
-    let status = match &forecast.stop {
-        StopReason::Horizon => SampleStatus::Ok,
-        StopReason::Exhausted { cycle } => SampleStatus::Failed(format!("no usable capacity left at cycle {cycle:.0}")),
-        StopReason::Failed { cycle, detail } => SampleStatus::Failed(format!("at cycle {cycle:.0}: {detail}")),
-    };
+    let status = SampleStatus::of_stop(&forecast.stop);
     reduce(index, values, status, &forecast, config.warranty)
 }
 

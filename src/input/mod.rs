@@ -20,6 +20,7 @@ mod profile;
 mod scenario;
 mod series;
 mod suggest;
+mod template;
 mod uncertainty;
 mod units;
 
@@ -29,11 +30,12 @@ pub use cell::{check_cell, load_cell};
 pub use duty::load_duty;
 pub use error::{InputError, COMMAND_LINE_FLAG_SOURCE, COMMAND_LINE_SOURCE};
 pub use fit::{cell_table_with, load_fit, load_measured, DatasetSource, LoadedFit};
-pub use overrides::{apply_overrides, parse_override, Override, OverrideTarget};
+pub use overrides::{apply_overrides, parse_override, NumberPath, Override, OverrideTarget};
 pub use plan::parse_horizon;
 pub use profile::load_profile;
 pub use scenario::{check_scenario, load_scenario, load_uncertainty_file, LoadedScenario};
 pub use series::load_series;
+pub use template::{number_paths, ScenarioTemplate};
 
 use document::read_text;
 
