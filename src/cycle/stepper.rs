@@ -364,6 +364,14 @@ fn summarise(record: &mut CycleRecord, duration_s: f64, voltage_limited_s: f64) 
     *record = r;
 }
 
+/// What becomes of a trial step.
+enum Judged {
+    Accept(Trial),
+    /// Try again with this step length, s.
+    Retry(f64),
+    GiveUp,
+}
+
 /// Runs steps and series against one cell state.
 struct Stepper<'a> {
     model: &'a CellModel,
@@ -401,6 +409,22 @@ impl Stepper<'_> {
         (self.soc(trial) - previous.soc).abs() > COARSE_STEP_SLACK * s.max_soc_step
             || (trial.temperature_k - previous.temperature_k).abs() > COARSE_STEP_SLACK * s.max_temperature_step_k
             || (check_voltage && (trial.voltage - previous.voltage_v).abs() > COARSE_STEP_SLACK * s.max_voltage_step_v)
+    }
+
+    /// Whether a trial of length `dt` (None: the cell model could not evaluate it) is accepted,
+    /// retried shorter, or cannot be shortened further.
+    fn judge(&self, dt: f64, trial: Option<Trial>, previous: &TracePoint, check_voltage: bool) -> Judged {
+        match trial {
+            None if dt < SHORTEST_RETRY_STEP_S => Judged::GiveUp,
+            None => Judged::Retry(dt * FAILED_TRIAL_SHRINK),
+            Some(trial)
+                if dt > self.settings.first_dt_s * SHORTEST_REFINED_STEP_FRACTION
+                    && self.too_coarse(previous, &trial, check_voltage) =>
+            {
+                Judged::Retry(dt * COARSE_TRIAL_SHRINK)
+            }
+            Some(trial) => Judged::Accept(trial),
+        }
     }
 
     /// Next step length from how much the accepted step changed the state.
@@ -455,19 +479,15 @@ impl Stepper<'_> {
             dt = dt.min(time_end - elapsed).max(MIN_STEP_S);
             let previous = *record.trace.last().expect("trace starts with the initial point");
             let cond = self.model.conditions(self.health, state.temperature_k, self.ambient_at(None));
-            let Some(trial) = self.model.trial(state, &cond, control, dt, self.current_guess, &mut self.scratch) else {
-                if dt < SHORTEST_RETRY_STEP_S {
-                    return Err(self.fail(index, &step.label, describe_failure(step.drive)));
+            let trial = self.model.trial(state, &cond, control, dt, self.current_guess, &mut self.scratch);
+            let trial = match self.judge(dt, trial, &previous, !first) {
+                Judged::Accept(trial) => trial,
+                Judged::Retry(shorter) => {
+                    dt = shorter;
+                    continue;
                 }
-                dt *= FAILED_TRIAL_SHRINK;
-                continue;
+                Judged::GiveUp => return Err(self.fail(index, &step.label, describe_failure(step.drive))),
             };
-            if dt > self.settings.first_dt_s * SHORTEST_REFINED_STEP_FRACTION
-                && self.too_coarse(&previous, &trial, !first)
-            {
-                dt *= COARSE_TRIAL_SHRINK;
-                continue;
-            }
             let soc = self.soc(&trial);
             let passed = charge + trial.current * trial.dt;
             end_margins(
@@ -655,23 +675,17 @@ impl Stepper<'_> {
                     }
                     other => other,
                 };
-                let Some(trial) = trial else {
-                    if dt < SHORTEST_RETRY_STEP_S {
-                        return Err(self.fail(
-                            0,
-                            &series.name,
-                            format!("sample {} at t = {:.0} s cannot be run", k + 2, series.time_s[k]),
-                        ));
+                let trial = match self.judge(dt, trial, &previous, !first) {
+                    Judged::Accept(trial) => trial,
+                    Judged::Retry(shorter) => {
+                        dt = shorter;
+                        continue;
                     }
-                    dt *= FAILED_TRIAL_SHRINK;
-                    continue;
+                    Judged::GiveUp => {
+                        let detail = format!("sample {} at t = {:.0} s cannot be run", k + 2, series.time_s[k]);
+                        return Err(self.fail(0, &series.name, detail));
+                    }
                 };
-                if dt > self.settings.first_dt_s * SHORTEST_REFINED_STEP_FRACTION
-                    && self.too_coarse(&previous, &trial, !first)
-                {
-                    dt *= COARSE_TRIAL_SHRINK;
-                    continue;
-                }
                 self.accept(state, &cond, &trial, 0, record);
                 elapsed += trial.dt;
                 dt = self.next_dt(&previous, &trial, !first, self.settings.max_dt_load_s);
