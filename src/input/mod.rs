@@ -5,6 +5,8 @@
 //! is an [`InputError`] naming the file, line and key; the `check_*` variants return all
 //! problems, the `load_*` ones the first. Loaders only read their input files. A scenario's
 //! `[uncertainty]` section becomes the [`crate::ensemble::UncertaintySpec`] of its loaded form.
+//! A [`ScenarioTemplate`] keeps a scenario's files as parsed, to build it again with numbers
+//! set at [`NumberPath`]s (an ensemble's draws, a fit's trial values) without reading them.
 
 mod cell;
 mod checks;
