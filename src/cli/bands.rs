@@ -129,7 +129,8 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
         )
         .into());
     }
-    let loaded = input::load_scenario(&config.scenario, &config.overrides)?;
+    let template = input::ScenarioTemplate::load(&config.scenario, &config.overrides)?;
+    let loaded = template.loaded();
     let spec = match &config.uncertainty_file {
         Some(file) => input::load_uncertainty_file(file, &config.scenario, &config.overrides)?,
         None => loaded.uncertainty.clone(),
@@ -234,19 +235,9 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
         }
         bar
     };
-    let scenario_path = config.scenario.clone();
-    let base_overrides = config.overrides.clone();
-    let parameters = description.parameters.clone();
-    // One sample's inputs: the scenario files with the drawn values as overrides, so every
-    // input rule applies to drawn values too.
-    let build = |values: &[f64]| {
-        let mut overrides = base_overrides.clone();
-        for (path, value) in parameters.iter().zip(values) {
-            overrides.push(input::parse_override(&format!("{path}={value:e}")).map_err(|e| e.to_string())?);
-        }
-        let loaded = input::load_scenario(&scenario_path, &overrides).map_err(|e| e.to_string())?;
-        Ok((loaded.scenario, loaded.plan))
-    };
+    // One sample's inputs: the scenario with the drawn values set, every input rule applied.
+    let paths = input::number_paths(&description.parameters)?;
+    let build = |values: &[f64]| template.build(&paths, values).map_err(|e| e.to_string());
     let ensemble = EnsembleConfig {
         samples: config.samples,
         seed: config.seed,

@@ -8,6 +8,7 @@
 
 use super::{caution_lines, print_caution, CliError};
 use crate::compare::{self, summarize_comparison, Alternative, CompareConfig, CompareError};
+use crate::ensemble::SampleStatus;
 use crate::forecast::{ForecastOptions, Horizon, WarningKind};
 use crate::input::{self, InputError, Override, OverrideTarget};
 use crate::report;
@@ -146,18 +147,22 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     let overrides_of = |source: &AlternativeSource| -> Vec<Override> {
         config.overrides.iter().chain(&source.overrides).cloned().collect()
     };
-    let mut alternatives = Vec::new();
-    let mut loaded_first = None;
-    for source in &sources {
-        let loaded = input::load_scenario(&config.scenario, &overrides_of(source))?;
-        alternatives.push(Alternative {
+    let templates = sources
+        .iter()
+        .map(|source| input::ScenarioTemplate::load(&config.scenario, &overrides_of(source)))
+        .collect::<Result<Vec<_>, _>>()?;
+    let alternatives: Vec<Alternative> = sources
+        .iter()
+        .zip(&templates)
+        .map(|(source, template)| Alternative {
             name: source.name.clone(),
-            scenario: loaded.scenario.clone(),
-            plan: loaded.plan.clone(),
-        });
-        loaded_first.get_or_insert(loaded);
-    }
-    let Some(first) = loaded_first else { unreachable!("at least two alternatives") };
+            scenario: template.loaded().scenario.clone(),
+            plan: template.loaded().plan.clone(),
+        })
+        .collect();
+    let Some(first) = templates.first().map(input::ScenarioTemplate::loaded) else {
+        unreachable!("at least two alternatives")
+    };
     let horizon = config.horizon.or(first.plan.horizon).ok_or_else(|| {
         InputError::new(&config.scenario, "no horizon: add a [horizon] section or give --cycles N or --years Y")
     })?;
@@ -183,16 +188,11 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     if sampler.is_some() {
         refuse_variants_of_sampled_inputs(&sources, &parameters)?;
     }
-    // One sample of one alternative: the scenario files with the alternative's overrides and
-    // the drawn values appended, so every input rule applies to the draws too.
-    let build = |alternative: usize, values: &[f64]| {
-        let mut overrides = overrides_of(&sources[alternative]);
-        for (path, value) in parameters.iter().zip(values) {
-            overrides.push(Override::number(path, *value).map_err(|e| e.to_string())?);
-        }
-        let loaded = input::load_scenario(&config.scenario, &overrides).map_err(|e| e.to_string())?;
-        Ok((loaded.scenario, loaded.plan))
-    };
+    // One sample of one alternative: the alternative's scenario with the drawn values set,
+    // every input rule applied.
+    let paths = input::number_paths(&parameters)?;
+    let build =
+        |alternative: usize, values: &[f64]| templates[alternative].build(&paths, values).map_err(|e| e.to_string());
     let compare_config =
         CompareConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
     let comparison =
@@ -282,9 +282,7 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         .iter()
         .zip(&comparison.names)
         .filter_map(|(outcomes, name)| match outcomes.first().map(|o| (&o.status, o.life)) {
-            Some((compare::OutcomeStatus::Failed(detail), None)) if !comparison.sampled => {
-                Some(format!("\"{name}\" {detail}"))
-            }
+            Some((SampleStatus::Failed(detail), None)) if !comparison.sampled => Some(format!("\"{name}\" {detail}")),
             _ => None,
         })
         .collect();

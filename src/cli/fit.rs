@@ -35,13 +35,16 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
     let mut problem = loaded.problem.clone();
     problem.holdout_after = config.holdout_after;
     let paths: Vec<String> = problem.parameters.iter().map(|p| p.path.clone()).collect();
-    // Each trial is the dataset's scenario loaded with the trial values as overrides, so every
-    // input rule applies to them as to a `--set` value.
+    // Each trial is the dataset's scenario with the trial values set, so every input rule
+    // applies to them as to a `--set` value.
+    let templates = loaded
+        .sources
+        .iter()
+        .map(|source| input::ScenarioTemplate::load(&source.scenario_path, &source.overrides))
+        .collect::<Result<Vec<_>, _>>()?;
+    let number_paths = input::number_paths(&paths)?;
     let source = |dataset: usize, values: &[f64]| -> Result<_, String> {
-        let scenario = scenario_overrides(&loaded, dataset, &paths, values)?;
-        let scenario_path = &loaded.sources[dataset].scenario_path;
-        let scenario = input::load_scenario(scenario_path, &scenario).map_err(|e| e.to_string())?;
-        Ok((scenario.scenario, scenario.plan))
+        templates[dataset].build(&number_paths, values).map_err(|e| e.to_string())
     };
     let options = FitOptions { starts: loaded.starts, patience: loaded.patience, ..FitOptions::default() };
     let result = calibrate::fit(&problem, &source, &options).map_err(|e| match e {
@@ -78,20 +81,6 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
     out.write_all(text.as_bytes())?;
     print_caution(out)?;
     Ok(())
-}
-
-/// Dataset `dataset`'s overrides followed by the trial values.
-fn scenario_overrides(
-    loaded: &LoadedFit,
-    dataset: usize,
-    paths: &[String],
-    values: &[f64],
-) -> Result<Vec<Override>, String> {
-    let mut overrides = loaded.sources[dataset].overrides.clone();
-    for (path, &value) in paths.iter().zip(values) {
-        overrides.push(Override::number(path, value).map_err(|e| e.to_string())?);
-    }
-    Ok(overrides)
 }
 
 /// The cell file with the fitted cell values and a `[calibration]` table spanning the fitted

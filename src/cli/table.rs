@@ -93,7 +93,8 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
         )
         .into());
     }
-    let loaded = input::load_scenario(&config.scenario, &config.overrides)?;
+    let template = input::ScenarioTemplate::load(&config.scenario, &config.overrides)?;
+    let loaded = template.loaded();
     let cell = &loaded.scenario.cell;
     let (t_min_c, t_max_c) = (cell.temperature_min_k - ZERO_CELSIUS_K, cell.temperature_max_k - ZERO_CELSIUS_K);
     let ambients = parse_number_list("--ambient-c", &config.ambient_c, |t| {
@@ -154,14 +155,8 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
         &mut notes,
     )?;
     let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
-    let build = |values: &[f64]| {
-        let mut overrides = config.overrides.clone();
-        for (path, value) in parameters.iter().zip(values) {
-            overrides.push(Override::number(path, *value).map_err(|e| e.to_string())?);
-        }
-        let loaded = input::load_scenario(&config.scenario, &overrides).map_err(|e| e.to_string())?;
-        Ok((loaded.scenario, loaded.plan))
-    };
+    let paths = input::number_paths(&parameters)?;
+    let build = |values: &[f64]| template.build(&paths, values).map_err(|e| e.to_string());
     let table_config =
         TableConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
     let nominal = (loaded.scenario.clone(), loaded.plan.clone());

@@ -16,9 +16,11 @@ mod run;
 mod summary;
 mod table;
 
+/// The comparison's name for [`SampleStatus`], the one status of a forecast on drawn inputs.
+pub use crate::ensemble::SampleStatus as OutcomeStatus;
 pub use run::{
     charge_time_s, check_runs_at_beginning_of_life, run_comparison, Alternative, CompareConfig, CompareError,
-    Comparison, Life, Outcome, OutcomeStatus,
+    Comparison, Life, Outcome,
 };
 pub use summary::{
     summarize_comparison, AlternativeSummary, CurveBand, PairedDifference, Spread, DIFFERENCE_INTERVAL,

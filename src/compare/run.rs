@@ -2,7 +2,7 @@
 //! every sample (or once each, deterministically), each forecast reduced to an [`Outcome`].
 
 use crate::cycle::{simulate_periodic_cycle, CycleRecord, Health, Scenario, SolverSettings};
-use crate::ensemble::Sampler;
+use crate::ensemble::{SampleStatus, Sampler};
 use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, StopReason, WarningSet};
 use rayon::prelude::*;
 use thiserror::Error;
@@ -59,20 +59,10 @@ impl Life {
     }
 }
 
-/// What one sample of one alternative came to.
-#[derive(Debug, Clone, PartialEq)]
-pub enum OutcomeStatus {
-    Ok,
-    /// The drawn inputs break an input rule for this alternative.
-    Invalid(String),
-    /// The forecast stopped before the horizon; the detail says where and why.
-    Failed(String),
-}
-
 /// One alternative on one sample, reduced to what the comparison reports.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Outcome {
-    pub status: OutcomeStatus,
+    pub status: SampleStatus,
     /// None when the inputs were invalid, or the forecast failed before any end of life.
     pub life: Option<Life>,
     /// Energy delivered on discharge up to the end of life (up to the horizon when censored), Wh.
@@ -180,7 +170,7 @@ where
 
 fn invalid(message: String) -> Outcome {
     Outcome {
-        status: OutcomeStatus::Invalid(message),
+        status: SampleStatus::Invalid(message),
         life: None,
         energy_to_end_wh: f64::NAN,
         soh_at_horizon_pct: f64::NAN,
@@ -207,13 +197,8 @@ pub(crate) fn outcome_of(f: &Forecast) -> Outcome {
         }
         _ => None,
     };
-    let cycling = f.points.iter().any(|p| p.cycle > 0.0);
-    let status = match crate::report::stop_text(&f.stop, cycling) {
-        None => OutcomeStatus::Ok,
-        Some(why) => OutcomeStatus::Failed(why),
-    };
     Outcome {
-        status,
+        status: SampleStatus::of_stop(&f.stop, f.points.iter().any(|p| p.cycle > 0.0)),
         energy_to_end_wh: life.map_or(f64::NAN, |l| energy_at_day(f, l.at().years * DAYS_PER_YEAR)),
         life,
         soh_at_horizon_pct: if horizon_reached { last.map_or(f64::NAN, |p| p.soh_pct) } else { f64::NAN },

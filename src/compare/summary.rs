@@ -4,9 +4,10 @@
 //! `+∞` says "beyond the horizon", which is what is known. Paired differences use a censored
 //! life at the horizon, so a difference involving one is a bound; they are counted.
 
-use super::run::{Comparison, Life, Outcome, OutcomeStatus};
+use super::run::{Comparison, Life, Outcome};
 use crate::ensemble::quantile;
 use crate::ensemble::summary::count_warnings;
+use crate::ensemble::SampleStatus;
 use crate::forecast::WarningKind;
 
 /// The low and high quantiles reported for life and state of health.
@@ -103,10 +104,10 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
                 name: comparison.names[a].clone(),
                 usable: usable.len(),
                 censored: lives.iter().filter(|l| l.is_censored()).count(),
-                invalid: outcomes.iter().filter(|o| matches!(o.status, OutcomeStatus::Invalid(_))).count(),
+                invalid: outcomes.iter().filter(|o| matches!(o.status, SampleStatus::Invalid(_))).count(),
                 failed: outcomes
                     .iter()
-                    .filter(|o| o.life.is_none() && matches!(o.status, OutcomeStatus::Failed(_)))
+                    .filter(|o| o.life.is_none() && matches!(o.status, SampleStatus::Failed(_)))
                     .count(),
                 life_cycles: spread(life_value(|l| l.at().cycles)),
                 life_efc: spread(life_value(|l| l.at().efc)),
@@ -217,7 +218,7 @@ mod tests {
 
     fn outcome(life: Option<Life>) -> Outcome {
         Outcome {
-            status: OutcomeStatus::Ok,
+            status: SampleStatus::Ok,
             life,
             energy_to_end_wh: 1.0,
             soh_at_horizon_pct: 80.0,

@@ -3,8 +3,9 @@
 //!
 //! Single particle per electrode ([`diffusion`]), Butler–Volmer kinetics ([`kinetics`]),
 //! a lumped ohmic and film resistance, a lumped thermal balance with Bernardi's heat
-//! ([`thermal`]), diffusion-induced stress ([`stress`]) and protocol stepping with accurate
-//! step ends ([`simulate`]). [`balance`] finds the electrode stoichiometries at the voltage
+//! ([`thermal`]) and diffusion-induced stress ([`stress`]) make the cell's response over one
+//! time step ([`response`]); protocol stepping with accurate step ends runs a duty cycle
+//! through it ([`stepper`]). [`balance`] finds the electrode stoichiometries at the voltage
 //! window, which gives the low-rate capacity.
 
 pub mod balance;
@@ -13,7 +14,8 @@ pub mod diffusion;
 pub mod kinetics;
 pub mod protocol;
 pub mod record;
-pub mod simulate;
+pub mod response;
+pub mod stepper;
 pub mod stress;
 pub mod thermal;
 
@@ -21,7 +23,7 @@ pub use balance::{balance_cell, Balance};
 pub use cell::{Cell, Electrode};
 pub use protocol::{Drive, DutyCycle, Scenario, SeriesSignal, Step, StepEnd, StepProfile, TimeSeries};
 pub use record::{CycleRecord, EndReason, StepSummary, TracePoint};
-pub use simulate::{
-    simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CellModel, CellState, CycleError, CycleRun,
-    Health, SolverSettings,
+pub use response::{CellModel, CellState, Health};
+pub use stepper::{
+    simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CycleError, CycleRun, SolverSettings,
 };

@@ -6,6 +6,7 @@
 //! [`summarize`] of the same records sorted by index always gives the same numbers.
 
 use super::sampling::Sampler;
+use super::status::SampleStatus;
 use crate::cycle::Scenario;
 use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, Threshold, WarningSet};
 use rayon::prelude::*;
@@ -24,16 +25,6 @@ impl Shard {
     pub fn contains(&self, sample: u64) -> bool {
         sample % self.count + 1 == self.index
     }
-}
-
-/// What one sample came to.
-#[derive(Debug, Clone, PartialEq)]
-pub enum SampleStatus {
-    Ok,
-    /// The drawn inputs break an input rule (e.g. a normal draw gave a negative radius).
-    Invalid(String),
-    /// The forecast failed or the cell was exhausted before the horizon.
-    Failed(String),
 }
 
 /// Quantities kept per reported point for the bands.
@@ -99,11 +90,7 @@ where
         Err(message) => return empty(SampleStatus::Invalid(message)),
     };
     let forecast = run_forecast(&scenario, &plan, config.horizon, &config.options);
-    let cycling = plan.usage.cycles_per_day > 0.0;
-    let status = match crate::report::stop_text(&forecast.stop, cycling) {
-        None => SampleStatus::Ok,
-        Some(why) => SampleStatus::Failed(why),
-    };
+    let status = SampleStatus::of_stop(&forecast.stop, plan.usage.cycles_per_day > 0.0);
     reduce(index, values, status, &forecast, config.warranty)
 }
 

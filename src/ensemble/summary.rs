@@ -2,9 +2,10 @@
 //! the end-of-life distribution with Monte Carlo errors, warranty odds with an exact binomial
 //! interval, and the rank correlation of each uncertain input with life.
 
-use super::run::{SampleRecord, SampleStatus, Warranty, CURVE_QUANTITIES};
+use super::run::{SampleRecord, Warranty, CURVE_QUANTITIES};
 use crate::forecast::{WarningKind, WarningSet};
 use super::stats::{clopper_pearson, quantile, quantile_standard_error, spearman};
+use super::status::SampleStatus;
 use serde::Serialize;
 
 /// One quantile of an end-of-life distribution. `value` None: the quantile lies among samples

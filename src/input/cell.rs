@@ -156,10 +156,14 @@ pub fn load_cell(path: &Path, overrides: &[Override]) -> Result<LoadedCell, Inpu
 
 /// Like [`load_cell`], but returns every problem found (at least one on failure).
 pub fn check_cell(path: &Path, overrides: &[Override]) -> Result<LoadedCell, Vec<InputError>> {
-    let mut document = TomlDocument::read(path, OverrideTarget::Cell).map_err(|e| vec![e])?;
-    document.apply_overrides(overrides).map_err(|e| vec![e])?;
+    let document = TomlDocument::read_overridden(path, OverrideTarget::Cell, overrides).map_err(|e| vec![e])?;
+    check_cell_document(&document)
+}
+
+/// [`check_cell`] on a cell file already read, with its overrides applied.
+pub(super) fn check_cell_document(document: &TomlDocument) -> Result<LoadedCell, Vec<InputError>> {
     let file: CellFile = document.deserialize().map_err(|e| vec![e])?;
-    convert_cell(&document, file)
+    convert_cell(document, file)
 }
 
 /// Whether `overrides` leave the cell file well-formed (known keys, values of the right

@@ -10,6 +10,7 @@ use super::locate::{line_of_offset, KeyIndex, Located};
 use super::overrides::{apply_overrides, Override, OverrideTarget};
 use super::suggest;
 
+#[derive(Debug, Clone)]
 pub(crate) struct TomlDocument {
     path: PathBuf,
     source: String,
@@ -27,6 +28,13 @@ impl TomlDocument {
     pub fn read(path: &Path, target: OverrideTarget) -> Result<Self, InputError> {
         let source = read_text(path)?;
         Self::parse(path, source, target)
+    }
+
+    /// Reads and parses `path` and applies the overrides meant for it.
+    pub fn read_overridden(path: &Path, target: OverrideTarget, overrides: &[Override]) -> Result<Self, InputError> {
+        let mut document = Self::read(path, target)?;
+        document.apply_overrides(overrides)?;
+        Ok(document)
     }
 
     pub fn parse(path: &Path, source: String, target: OverrideTarget) -> Result<Self, InputError> {
@@ -153,9 +161,7 @@ pub(crate) fn check_shape<T: DeserializeOwned>(
     target: OverrideTarget,
     overrides: &[Override],
 ) -> Result<(), InputError> {
-    let mut document = TomlDocument::read(path, target)?;
-    document.apply_overrides(overrides)?;
-    document.deserialize::<T>().map(drop)
+    TomlDocument::read_overridden(path, target, overrides)?.deserialize::<T>().map(drop)
 }
 
 /// Reads a whole input file as UTF-8 text.

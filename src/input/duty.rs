@@ -2,11 +2,12 @@
 
 use std::path::Path;
 
+use super::document::TomlDocument;
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
-use super::profile::{check_profile, check_profile_shape, VoltageWindow};
+use super::profile::{check_profile_document, check_profile_shape, VoltageWindow};
 use super::series::load_series;
-use crate::cycle::DutyCycle;
+use crate::cycle::{DutyCycle, TimeSeries};
 
 /// A measured series starts from a full cell unless the scenario says otherwise.
 const SERIES_START_SOC: f64 = 1.0;
@@ -28,15 +29,57 @@ pub(crate) fn check_duty(
     window: Option<VoltageWindow>,
     overrides: &[Override],
 ) -> Result<(DutyCycle, f64), Vec<InputError>> {
+    let file = read_duty(path, overrides).map_err(|e| vec![e])?;
+    check_duty_file(&file, nominal_capacity_coulomb, window)
+}
+
+/// A duty-cycle file as read, its overrides applied, before its rules are checked.
+#[derive(Debug, Clone)]
+pub(crate) enum DutyFile {
+    Profile(TomlDocument),
+    Series(TimeSeries),
+}
+
+/// Reads the duty-cycle file at `path`, choosing the format by extension, and applies the
+/// overrides meant for it (a CSV series takes none).
+pub(crate) fn read_duty(path: &Path, overrides: &[Override]) -> Result<DutyFile, InputError> {
     match extension(path).as_deref() {
-        Some("toml") => check_profile(path, nominal_capacity_coulomb, window, overrides)
-            .map(|(profile, start_soc)| (DutyCycle::Steps(profile), start_soc)),
+        Some("toml") => TomlDocument::read_overridden(path, OverrideTarget::Profile, overrides).map(DutyFile::Profile),
         Some("csv") => {
-            reject_profile_overrides(path, overrides).map_err(|e| vec![e])?;
-            let series = load_series(path).map_err(|e| vec![e])?;
-            Ok((DutyCycle::Series(series), SERIES_START_SOC))
+            reject_profile_overrides(path, overrides)?;
+            load_series(path).map(DutyFile::Series)
         }
-        _ => Err(vec![not_a_duty_cycle(path)]),
+        _ => Err(not_a_duty_cycle(path)),
+    }
+}
+
+impl DutyFile {
+    /// This file with `extra` overrides applied after those it has; `path` is where it was read.
+    pub(crate) fn with_overrides(&self, path: &Path, extra: &[Override]) -> Result<Self, InputError> {
+        match self {
+            DutyFile::Profile(document) => {
+                let mut document = document.clone();
+                document.apply_overrides(extra)?;
+                Ok(DutyFile::Profile(document))
+            }
+            DutyFile::Series(series) => {
+                reject_profile_overrides(path, extra)?;
+                Ok(DutyFile::Series(series.clone()))
+            }
+        }
+    }
+}
+
+/// [`check_duty`] on a duty-cycle file already read.
+pub(crate) fn check_duty_file(
+    file: &DutyFile,
+    nominal_capacity_coulomb: f64,
+    window: Option<VoltageWindow>,
+) -> Result<(DutyCycle, f64), Vec<InputError>> {
+    match file {
+        DutyFile::Profile(document) => check_profile_document(document, nominal_capacity_coulomb, window)
+            .map(|(profile, start_soc)| (DutyCycle::Steps(profile), start_soc)),
+        DutyFile::Series(series) => Ok((DutyCycle::Series(series.clone()), SERIES_START_SOC)),
     }
 }
 

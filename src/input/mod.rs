@@ -5,6 +5,8 @@
 //! is an [`InputError`] naming the file, line and key; the `check_*` variants return all
 //! problems, the `load_*` ones the first. Loaders only read their input files. A scenario's
 //! `[uncertainty]` section becomes the [`crate::ensemble::UncertaintySpec`] of its loaded form.
+//! A [`ScenarioTemplate`] keeps a scenario's files as parsed, to build it again with numbers
+//! set at [`NumberPath`]s (an ensemble's draws, a fit's trial values) without reading them.
 
 mod cell;
 mod checks;
@@ -20,6 +22,7 @@ mod profile;
 mod scenario;
 mod series;
 mod suggest;
+mod template;
 mod uncertainty;
 mod units;
 
@@ -29,11 +32,12 @@ pub use cell::{check_cell, load_cell, LoadedCell};
 pub use duty::load_duty;
 pub use error::{InputError, COMMAND_LINE_FLAG_SOURCE, COMMAND_LINE_SOURCE};
 pub use fit::{cell_table_with, load_fit, load_measured, DatasetSource, LoadedFit};
-pub use overrides::{apply_overrides, parse_override, Override, OverrideTarget};
+pub use overrides::{apply_overrides, parse_override, NumberPath, Override, OverrideTarget};
 pub use plan::parse_horizon;
 pub use profile::load_profile;
 pub use scenario::{check_scenario, load_scenario, load_uncertainty_file, LoadedScenario};
 pub use series::load_series;
+pub use template::{number_paths, ScenarioTemplate};
 
 use document::read_text;
 

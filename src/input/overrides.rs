@@ -55,9 +55,37 @@ impl Override {
     /// arrives unchanged, which formatting it as text for [`parse_override`] cannot promise:
     /// `1e20` prints as a whole number too large for TOML and would be read as text.
     pub fn number(path: &str, value: f64) -> Result<Self, InputError> {
-        let path = path.trim();
-        let (target, segments) = split_key_path(path)?;
-        Ok(Override { target, path: segments, value: toml::Value::Float(value), text: format!("{path}={value}") })
+        NumberPath::parse(path).map(|path| path.with_value(value))
+    }
+}
+
+/// The path of an input that takes numbers (a sampled input, a fitted parameter), split once
+/// so that each drawn or trial value becomes an [`Override`] without reading text again.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct NumberPath {
+    target: OverrideTarget,
+    /// Inside the target file.
+    path: Vec<String>,
+    /// As given, trimmed.
+    text: String,
+}
+
+impl NumberPath {
+    /// `cell.negative.particle_radius_um` → the file it addresses and the path inside it.
+    pub fn parse(path: &str) -> Result<Self, InputError> {
+        let text = path.trim();
+        let (target, path) = split_key_path(text)?;
+        Ok(NumberPath { target, path, text: text.to_string() })
+    }
+
+    /// The override setting `value` (exactly, as a TOML float) at this path.
+    pub fn with_value(&self, value: f64) -> Override {
+        Override {
+            target: self.target,
+            path: self.path.clone(),
+            value: toml::Value::Float(value),
+            text: format!("{}={value}", self.text),
+        }
     }
 }
 

@@ -116,11 +116,19 @@ pub(crate) fn check_profile(
     window: Option<VoltageWindow>,
     overrides: &[Override],
 ) -> Result<(StepProfile, f64), Vec<InputError>> {
-    let mut document = TomlDocument::read(path, OverrideTarget::Profile).map_err(|e| vec![e])?;
-    document.apply_overrides(overrides).map_err(|e| vec![e])?;
+    let document = TomlDocument::read_overridden(path, OverrideTarget::Profile, overrides).map_err(|e| vec![e])?;
+    check_profile_document(&document, nominal_capacity_coulomb, window)
+}
+
+/// [`check_profile`] on a step profile already read, with its overrides applied.
+pub(crate) fn check_profile_document(
+    document: &TomlDocument,
+    nominal_capacity_coulomb: f64,
+    window: Option<VoltageWindow>,
+) -> Result<(StepProfile, f64), Vec<InputError>> {
     let file: ProfileFile = document.deserialize().map_err(|e| vec![e])?;
     let amps_per_c_rate = nominal_capacity_coulomb / SECONDS_PER_HOUR;
-    convert_profile(&document, file, amps_per_c_rate, window)
+    convert_profile(document, file, amps_per_c_rate, window)
 }
 
 /// Whether `overrides` leave the step profile well-formed (known keys, values of the right

@@ -1,7 +1,7 @@
 //! Scenario files: which cell runs which duty cycle under which conditions.
 //!
 //! Each section of the file is one field of [`ScenarioFile`] plus one conversion step in
-//! [`check_scenario_files`]; later sections slot in the same way. The `[uncertainty]` section
+//! [`convert_scenario`]; later sections slot in the same way. The `[uncertainty]` section
 //! takes one more step once everything else has loaded: each sampled path is tried by loading
 //! the files again with the path set (see `uncertainty.rs`).
 
@@ -9,15 +9,15 @@ use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
 
-use super::cell::{check_cell, LoadedCell};
-use super::cell::check_cell_shape;
+use super::cell::{check_cell_document, check_cell_shape, LoadedCell};
 use super::checks::Checks;
 use super::document::{check_shape, TomlDocument};
-use super::duty::{check_duty, check_duty_shape};
+use super::duty::{check_duty_file, check_duty_shape, read_duty, DutyFile};
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
 use super::plan::{convert_plan, EndOfLifeSection, HorizonSection, PlanSections, UsageSection, MONTH_NAMES};
 use super::profile::VoltageWindow;
+use super::template::ScenarioTemplate;
 use super::uncertainty::{check_sampled_paths, convert_uncertainty, ScenarioProbe, UncertaintySection};
 use crate::cycle::{Cell, Scenario};
 use crate::ensemble::UncertaintySpec;
@@ -63,21 +63,31 @@ pub struct LoadedScenario {
 /// Reads a scenario and the cell and duty cycle it names; the first problem is the error.
 /// Problems inside the cell or profile name that file.
 ///
-/// One ensemble sample is this call with the drawn values appended to `overrides`, each as
-/// [`Override::number`] of its parameter's path: later overrides win, so a draw replaces the
-/// file's value and any `--set` value for the same path.
+/// An ensemble sample or a fit's trial is a [`ScenarioTemplate`] of the same call built with the
+/// drawn values: they come after `overrides`, so a draw replaces the file's value and any
+/// `--set` value for the same path.
 pub fn load_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScenario, InputError> {
     check_scenario(path, overrides).map_err(first_problem)
 }
 
 /// Like [`load_scenario`], but returns every problem found across the three files.
 pub fn check_scenario(path: &Path, overrides: &[Override]) -> Result<LoadedScenario, Vec<InputError>> {
-    let (document, loaded) = check_scenario_files(path, overrides)?;
+    ScenarioTemplate::check(path, overrides).map(ScenarioTemplate::into_loaded)
+}
+
+/// The scenario file at `path` with `overrides` applied, the scenario it makes and the files
+/// it names, once every rule (the `[uncertainty]` section's tries included) has passed.
+pub(super) fn check_scenario_parts(
+    path: &Path,
+    overrides: &[Override],
+) -> Result<(TomlDocument, LoadedScenario, ReferencedFiles), Vec<InputError>> {
+    let document = TomlDocument::read_overridden(path, OverrideTarget::Scenario, overrides).map_err(|e| vec![e])?;
+    let (loaded, files) = convert_scenario(path, &document, &FilesOnDisk { overrides })?;
     let probe =
         FileProbe { scenario_path: path, cell_path: &loaded.cell_path, profile_path: &loaded.profile_path, overrides };
     let problems = check_sampled_paths(&document, &loaded.uncertainty, &probe);
     if problems.is_empty() {
-        Ok(loaded)
+        Ok((document, loaded, files))
     } else {
         Err(problems)
     }
@@ -120,11 +130,58 @@ fn check_scenario_files(
     path: &Path,
     overrides: &[Override],
 ) -> Result<(TomlDocument, LoadedScenario), Vec<InputError>> {
-    let mut document = TomlDocument::read(path, OverrideTarget::Scenario).map_err(|e| vec![e])?;
-    document.apply_overrides(overrides).map_err(|e| vec![e])?;
+    let document = TomlDocument::read_overridden(path, OverrideTarget::Scenario, overrides).map_err(|e| vec![e])?;
+    let (loaded, _) = convert_scenario(path, &document, &FilesOnDisk { overrides })?;
+    Ok((document, loaded))
+}
+
+/// The cell and duty-cycle files of a scenario as read, their overrides applied.
+#[derive(Debug, Clone)]
+pub(super) struct ReferencedFiles {
+    pub cell: TomlDocument,
+    pub duty: DutyFile,
+}
+
+/// Where the files a scenario names come from: the disk, or copies read once (a
+/// [`super::ScenarioTemplate`]).
+pub(super) trait FileSource {
+    /// Whether `path` names a file.
+    fn is_file(&self, path: &Path) -> bool;
+    /// The cell file at `path`, with every override meant for it applied.
+    fn cell(&self, path: &Path) -> Result<TomlDocument, InputError>;
+    /// The duty-cycle file at `path`, with every override meant for it applied.
+    fn duty(&self, path: &Path) -> Result<DutyFile, InputError>;
+}
+
+/// Reads each file when asked, applying `overrides`.
+pub(super) struct FilesOnDisk<'a> {
+    pub overrides: &'a [Override],
+}
+
+impl FileSource for FilesOnDisk<'_> {
+    fn is_file(&self, path: &Path) -> bool {
+        path.is_file()
+    }
+
+    fn cell(&self, path: &Path) -> Result<TomlDocument, InputError> {
+        TomlDocument::read_overridden(path, OverrideTarget::Cell, self.overrides)
+    }
+
+    fn duty(&self, path: &Path) -> Result<DutyFile, InputError> {
+        read_duty(path, self.overrides)
+    }
+}
+
+/// Checks and converts a scenario `document` (its overrides applied, read from `path`) with the
+/// cell and duty cycle it names, taken from `files`; returns those files as read too.
+pub(super) fn convert_scenario(
+    path: &Path,
+    document: &TomlDocument,
+    files: &impl FileSource,
+) -> Result<(LoadedScenario, ReferencedFiles), Vec<InputError>> {
     let file: ScenarioFile = document.deserialize().map_err(|e| vec![e])?;
 
-    let mut checks = Checks::new(&document);
+    let mut checks = Checks::new(document);
     if file.name.trim().is_empty() {
         checks.report("name", "must not be empty");
     }
@@ -133,8 +190,8 @@ fn check_scenario_files(
         checks.within("start_soc_pct", start_soc_pct, 0.0, 100.0);
     }
     let directory = path.parent().unwrap_or(Path::new(""));
-    let cell_path = referenced_file(&mut checks, directory, "cell", &file.cell);
-    let profile_path = referenced_file(&mut checks, directory, "profile", &file.profile);
+    let cell_path = referenced_file(&mut checks, files, directory, "cell", &file.cell);
+    let profile_path = referenced_file(&mut checks, files, directory, "profile", &file.profile);
     let mut plan = convert_plan(
         &mut checks,
         PlanSections {
@@ -148,13 +205,24 @@ fn check_scenario_files(
     let mut problems = checks.finish(()).err().unwrap_or_default();
 
     let cell = match &cell_path {
-        Some(cell_path) => check_cell(cell_path, overrides).map_err(|mut found| problems.append(&mut found)).ok(),
+        Some(cell_path) => files
+            .cell(cell_path)
+            .map_err(|e| vec![e])
+            .and_then(|document| check_cell_document(&document).map(|cell| (cell, document)))
+            .map_err(|mut found| problems.append(&mut found))
+            .ok(),
         None => None,
     };
     let duty = match (&cell, &profile_path) {
-        (Some(cell), Some(profile_path)) => {
+        (Some((cell, _)), Some(profile_path)) => {
             let window = VoltageWindow { min_v: cell.cell.voltage_min_v, max_v: cell.cell.voltage_max_v };
-            check_duty(profile_path, cell.cell.nominal_capacity_coulomb, Some(window), overrides)
+            files
+                .duty(profile_path)
+                .map_err(|e| vec![e])
+                .and_then(|duty_file| {
+                    check_duty_file(&duty_file, cell.cell.nominal_capacity_coulomb, Some(window))
+                        .map(|duty| (duty, duty_file))
+                })
                 .map_err(|mut found| problems.append(&mut found))
                 .ok()
         }
@@ -164,7 +232,7 @@ fn check_scenario_files(
         return Err(problems);
     }
     // With no problems recorded every part loaded; the `else` only keeps this panic-free.
-    let (Some(loaded_cell), Some((duty, profile_start_soc)), Some(cell_path), Some(profile_path)) =
+    let (Some((loaded_cell, cell_file)), Some(((duty, profile_start_soc), duty_file)), Some(cell_path), Some(profile_path)) =
         (cell, duty, cell_path, profile_path)
     else {
         return Err(problems);
@@ -200,7 +268,7 @@ fn check_scenario_files(
         profile_path,
         warnings,
     };
-    Ok((document, loaded))
+    Ok((loaded, ReferencedFiles { cell: cell_file, duty: duty_file }))
 }
 
 /// The files a scenario named, loaded again with extra overrides after the command line's.
@@ -233,13 +301,19 @@ impl ScenarioProbe for FileProbe<'_> {
 }
 
 /// `written` resolved against the scenario's directory, if that file exists.
-fn referenced_file(checks: &mut Checks<'_>, directory: &Path, key: &str, written: &Path) -> Option<PathBuf> {
+fn referenced_file(
+    checks: &mut Checks<'_>,
+    files: &impl FileSource,
+    directory: &Path,
+    key: &str,
+    written: &Path,
+) -> Option<PathBuf> {
     if written.as_os_str().is_empty() {
         checks.report(key, "must name a file");
         return None;
     }
     let resolved = directory.join(written);
-    if resolved.is_file() {
+    if files.is_file(&resolved) {
         return Some(resolved);
     }
     let rule = if resolved.exists() {

@@ -1,46 +1,95 @@
-//! Protocol stepping: runs a duty cycle through the particle, kinetic and thermal models.
+//! Protocol stepping: runs a duty cycle through the cell's response ([`super::response`]),
+//! choosing step lengths, detecting and locating step ends, holding a measured series inside
+//! the voltage window, and repeating the cycle until it returns to its own start.
 //!
-//! Within a time step the current is constant. Diffusion is integrated exactly for that current
-//! ([`super::diffusion`]); the terminal voltage, overpotentials and heat are evaluated at the
-//! end of the step (implicit, so constant-voltage and constant-power steps are stable at any
-//! step length). Constant-voltage and constant-power steps solve for the current that meets
-//! their target at the step's end. Step ends are located by bisection inside the step that
-//! crosses them, so a voltage end is met within `voltage_end_tolerance_v`.
+//! Step length follows the change of state of charge, terminal voltage and temperature over
+//! the last accepted step (limits in [`SolverSettings`]); a trial that changes more than
+//! [`COARSE_STEP_SLACK`] times a limit is retried at half the length. Each end condition of a
+//! step is measured by a scaled margin: positive before the end, ≤ 0 once it is reached, −1 at
+//! one tolerance past it. When a trial passes an end, the step length at which the first end is
+//! met is located by the Illinois variant of false position (regula falsi that halves the
+//! retained endpoint's value when the same endpoint is kept twice, so neither end of the
+//! bracket stalls) on the smallest margin plus ½, i.e. aiming at the middle of the accepted
+//! band [−1, 0]; an iterate outside the bracket or a trial that fails falls back to bisection.
+//! A voltage end is thereby met to within `voltage_end_tolerance_v` past it
+//! ([`END_TOLERANCE_V`] by default).
 
 use super::balance::{balance_cell, Balance};
-use super::diffusion::{Boundary, ModeStep, SphereModes};
-use super::kinetics::{exchange_current_density, overpotential};
 use super::protocol::{Drive, DutyCycle, SeriesSignal, Step, StepEnd};
 use super::record::{CycleRecord, EndReason, StepSummary, TracePoint};
-use super::stress::surface_hoop_stress;
-use super::thermal::{advance_temperature, bernardi_heat};
-use super::{Cell, Electrode, Scenario};
-use crate::material::arrhenius_factor;
-use crate::material::constants::FARADAY;
+use super::response::{CellModel, CellState, Control, Health, Scratch, StepConditions, Trial};
+use super::{Cell, Scenario};
+use crate::material::constants::SECONDS_PER_HOUR;
 use thiserror::Error;
 
-/// The slow (aging) state as the cycle model sees it. `Health::fresh` is beginning of life.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Health {
-    /// Cyclable lithium held in both electrodes, as charge, C.
-    pub lithium_inventory_coulomb: f64,
-    /// Fraction of each electrode's active material still connected, 0–1.
-    pub neg_active_scale: f64,
-    pub pos_active_scale: f64,
-    /// Series resistance added by aging (film growth, contact loss), Ω.
-    pub added_resistance_ohm: f64,
-}
+/// Default largest change of state of charge in one time step (fraction of full: 1 %).
+pub const MAX_SOC_CHANGE_PER_STEP: f64 = 0.01;
+/// Default largest change of terminal voltage in one time step under an unchanged drive, V.
+pub const MAX_VOLTAGE_CHANGE_V: f64 = 0.01;
+/// Default largest change of temperature in one time step, K.
+pub const MAX_TEMPERATURE_CHANGE_K: f64 = 0.5;
+/// Default first time step after a change of drive, s.
+pub const FIRST_STEP_S: f64 = 2.0;
+/// Default longest time step under load, s.
+pub const MAX_STEP_UNDER_LOAD_S: f64 = 300.0;
+/// Default longest time step at rest, s.
+pub const MAX_STEP_AT_REST_S: f64 = 900.0;
+/// Default tolerance on a located voltage end (how far past it the step may end), V.
+pub const END_TOLERANCE_V: f64 = 2e-4;
+/// Default duration after which a step is taken never to end: a week, s.
+pub const MAX_STEP_DURATION_S: f64 = 7.0 * 86_400.0;
+/// Default number of warm-up cycles allowed to reach the periodic state.
+pub const MAX_WARMUP_CYCLES: usize = 8;
+/// Default largest change over a cycle that counts as periodic (see [`state_change`]).
+pub const PERIODIC_TOLERANCE: f64 = 1e-4;
 
-impl Health {
-    pub fn fresh(cell: &Cell) -> Health {
-        Health {
-            lithium_inventory_coulomb: cell.lithium_inventory_coulomb(),
-            neg_active_scale: 1.0,
-            pos_active_scale: 1.0,
-            added_resistance_ohm: 0.0,
-        }
-    }
-}
+/// A trial may change state of charge, voltage or temperature by this many times its limit
+/// before it is retried at [`COARSE_TRIAL_SHRINK`] of its length.
+const COARSE_STEP_SLACK: f64 = 1.5;
+const COARSE_TRIAL_SHRINK: f64 = 0.5;
+/// Steps shorter than this fraction of the first step are accepted however much they change.
+const SHORTEST_REFINED_STEP_FRACTION: f64 = 0.25;
+/// The next step is between these multiples of the last accepted one.
+const MIN_STEP_RATIO: f64 = 0.5;
+const MAX_STEP_RATIO: f64 = 2.0;
+/// A change below this (in the unit of its quantity) does not limit the next step.
+const NEGLIGIBLE_CHANGE: f64 = 1e-12;
+/// Shortest time step, s.
+const MIN_STEP_S: f64 = 1e-9;
+/// A trial the cell model cannot evaluate is retried at this fraction of its length, down to
+/// [`SHORTEST_RETRY_STEP_S`]; a shorter failing step fails the cycle.
+const FAILED_TRIAL_SHRINK: f64 = 0.25;
+const SHORTEST_RETRY_STEP_S: f64 = 1e-3;
+/// First guess of the current of a constant-power step, from the last terminal voltage (at
+/// least the minimum) or, at the start of a cycle, the fallback voltage, V.
+const POWER_GUESS_FALLBACK_V: f64 = 3.0;
+const POWER_GUESS_MIN_V: f64 = 0.5;
+/// First guess of a derated current, as a fraction of the current asked for.
+const DERATED_CURRENT_GUESS_FRACTION: f64 = 0.5;
+
+/// Tolerances of the end conditions other than voltage: each end's margin is its distance
+/// to the end divided by these. Current and charge ends are relative to their threshold.
+const CURRENT_END_TOLERANCE_RELATIVE: f64 = 1e-4;
+const TIME_END_TOLERANCE_S: f64 = 1e-9;
+const SOC_END_TOLERANCE: f64 = 1e-6;
+const CHARGE_END_TOLERANCE_RELATIVE: f64 = 1e-6;
+/// Tolerance of the electrode-limit end on the surface stoichiometry.
+const SURFACE_END_TOLERANCE: f64 = 1e-6;
+/// Stoichiometry margin kept from empty and full at the particle surface.
+const SURFACE_GUARD: f64 = 1e-4;
+
+/// Locating an end: a step end is accepted with its smallest margin in [−1, 0] (up to one
+/// tolerance past the end); the root finder aims at the middle of that band, and takes the
+/// margin at the start of the step as one tolerance before the end.
+const LOCATE_LOWEST_MARGIN: f64 = -1.0;
+const LOCATE_AIM_OFFSET: f64 = 0.5;
+const LOCATE_START_MARGIN: f64 = 1.0;
+const LOCATE_MAX_ITERATIONS: usize = 60;
+/// The search stops when the bracket of step lengths is narrower than this, s.
+const LOCATE_BRACKET_S: f64 = 1e-6;
+/// Temperature scale of the periodic check: a change of this many kelvin counts as much as a
+/// change of 1 in shell stoichiometry, K.
+const PERIODIC_TEMPERATURE_SCALE_K: f64 = 100.0;
 
 /// Step-size and tolerance settings; the defaults suit cycle-life work.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -69,16 +118,16 @@ pub struct SolverSettings {
 impl Default for SolverSettings {
     fn default() -> Self {
         SolverSettings {
-            max_soc_step: 0.01,
-            max_voltage_step_v: 0.01,
-            max_temperature_step_k: 0.5,
-            first_dt_s: 2.0,
-            max_dt_load_s: 300.0,
-            max_dt_rest_s: 900.0,
-            voltage_end_tolerance_v: 2e-4,
-            max_step_duration_s: 7.0 * 86_400.0,
-            max_warmup_cycles: 8,
-            periodic_tolerance: 1e-4,
+            max_soc_step: MAX_SOC_CHANGE_PER_STEP,
+            max_voltage_step_v: MAX_VOLTAGE_CHANGE_V,
+            max_temperature_step_k: MAX_TEMPERATURE_CHANGE_K,
+            first_dt_s: FIRST_STEP_S,
+            max_dt_load_s: MAX_STEP_UNDER_LOAD_S,
+            max_dt_rest_s: MAX_STEP_AT_REST_S,
+            voltage_end_tolerance_v: END_TOLERANCE_V,
+            max_step_duration_s: MAX_STEP_DURATION_S,
+            max_warmup_cycles: MAX_WARMUP_CYCLES,
+            periodic_tolerance: PERIODIC_TOLERANCE,
         }
     }
 }
@@ -91,370 +140,6 @@ pub enum CycleError {
     #[error("no charge can be cycled in the voltage window: the cell has no usable lithium or active material")]
     Unbalanced,
 }
-
-/// The fast state: modal coordinates of each particle (stoichiometry units) and temperature.
-#[derive(Debug, Clone, PartialEq)]
-pub struct CellState {
-    pub neg_modes: Vec<f64>,
-    pub pos_modes: Vec<f64>,
-    pub temperature_k: f64,
-}
-
-/// One electrode with its precomputed diffusion modes.
-#[derive(Debug, Clone)]
-struct ParticleModel {
-    modes: SphereModes,
-    radius_m: f64,
-    max_concentration: f64,
-    surface_area_m2: f64,
-    stress_coefficient: f64,
-}
-
-impl ParticleModel {
-    fn new(electrode: &Electrode, shells: usize) -> ParticleModel {
-        ParticleModel {
-            modes: SphereModes::new(shells, Boundary::Flux),
-            radius_m: electrode.particle_radius_m,
-            max_concentration: electrode.max_concentration_mol_m3,
-            surface_area_m2: electrode.surface_area_m2(),
-            stress_coefficient: electrode.stress_coefficient_pa_m3_mol(),
-        }
-    }
-}
-
-/// A cell prepared for simulation (diffusion modes computed once); reuse it across cycles.
-#[derive(Debug, Clone)]
-pub struct CellModel {
-    pub cell: Cell,
-    neg: ParticleModel,
-    pos: ParticleModel,
-}
-
-/// Everything a trial step needs that stays fixed within it.
-#[derive(Debug, Clone, Copy)]
-struct StepConditions {
-    temperature_k: f64,
-    ambient_k: f64,
-    neg_diffusivity: f64,
-    pos_diffusivity: f64,
-    neg_rate: f64,
-    pos_rate: f64,
-    series_resistance_ohm: f64,
-    neg_area_m2: f64,
-    pos_area_m2: f64,
-}
-
-/// The state at the end of a trial step of length `dt`.
-#[derive(Debug, Clone, Copy, Default)]
-struct Trial {
-    dt: f64,
-    current: f64,
-    voltage: f64,
-    temperature_k: f64,
-    neg_surface: f64,
-    pos_surface: f64,
-    neg_mean: f64,
-    pos_mean: f64,
-    neg_potential: f64,
-}
-
-/// Surface and mean stoichiometry after a step, both affine in the current.
-#[derive(Debug, Clone, Copy)]
-struct Affine {
-    at_zero: f64,
-    per_amp: f64,
-}
-
-impl Affine {
-    fn at(self, current: f64) -> f64 {
-        self.at_zero + self.per_amp * current
-    }
-}
-
-/// Reused buffers, so a cycle allocates nothing per step.
-#[derive(Debug, Default)]
-struct Scratch {
-    neg: ModeStep,
-    pos: ModeStep,
-    /// (dt, negative D, positive D) the factors above were computed for: a step that is
-    /// committed right after its trial reuses them instead of recomputing every exponential.
-    factors_for: Option<(f64, f64, f64)>,
-}
-
-impl Scratch {
-    fn prepare(&mut self, neg: &ParticleModel, pos: &ParticleModel, cond: &StepConditions, dt: f64) {
-        let key = (dt, cond.neg_diffusivity, cond.pos_diffusivity);
-        if self.factors_for == Some(key) {
-            return;
-        }
-        neg.modes.step_factors(neg.radius_m, cond.neg_diffusivity, dt, &mut self.neg);
-        pos.modes.step_factors(pos.radius_m, cond.pos_diffusivity, dt, &mut self.pos);
-        self.factors_for = Some(key);
-    }
-}
-
-/// What the current is set by during a trial.
-#[derive(Debug, Clone, Copy, PartialEq)]
-enum Control {
-    Current(f64),
-    Voltage(f64),
-    Power(f64),
-}
-
-impl CellModel {
-    pub fn new(cell: &Cell) -> CellModel {
-        CellModel {
-            cell: cell.clone(),
-            neg: ParticleModel::new(&cell.negative, cell.shells),
-            pos: ParticleModel::new(&cell.positive, cell.shells),
-        }
-    }
-
-    /// Uniform particles at equilibrium at the given state of charge.
-    pub fn rest_state(&self, balance: &Balance, health: &Health, soc: f64, temperature_k: f64) -> CellState {
-        let (x, y) = balance.stoich_at_soc(soc, health);
-        CellState { neg_modes: self.neg.modes.uniform(x), pos_modes: self.pos.modes.uniform(y), temperature_k }
-    }
-
-    /// Lithium held in both particles, as charge, C.
-    pub fn lithium_coulomb(&self, state: &CellState, balance: &Balance) -> f64 {
-        self.neg.modes.mean(&state.neg_modes) * balance.neg_capacity_coulomb
-            + self.pos.modes.mean(&state.pos_modes) * balance.pos_capacity_coulomb
-    }
-
-    /// Shifts the negative particle's concentration uniformly so the state holds exactly the
-    /// health's lithium inventory (the slow state moves lithium into films and plating between
-    /// cycles; the fast state must follow). Returns false when no shift keeps it inside 0–1.
-    pub fn align_lithium(&self, state: &mut CellState, balance: &Balance, health: &Health) -> bool {
-        let held = self.lithium_coulomb(state, balance);
-        let shift = (health.lithium_inventory_coulomb - held) / balance.neg_capacity_coulomb;
-        let mean = self.neg.modes.mean(&state.neg_modes);
-        if !(0.0..=1.0).contains(&(mean + shift)) {
-            return false;
-        }
-        let uniform = self.neg.modes.uniform(shift);
-        for (q, u) in state.neg_modes.iter_mut().zip(uniform) {
-            *q += u;
-        }
-        true
-    }
-
-    /// DC resistance from a current pulse applied to a rested cell, Ω: the voltage drop after
-    /// `duration_s` over the current (ohmic, film, kinetic and early diffusion polarisation).
-    pub fn pulse_resistance(
-        &self,
-        health: &Health,
-        balance: &Balance,
-        soc: f64,
-        temperature_k: f64,
-        current_a: f64,
-        duration_s: f64,
-    ) -> Option<f64> {
-        let state = self.rest_state(balance, health, soc, temperature_k);
-        let cond = self.conditions(health, temperature_k, temperature_k);
-        let mut scratch = Scratch::default();
-        let rest = self.trial(&state, &cond, Control::Current(0.0), 0.0, 0.0, &mut scratch)?;
-        let loaded = self.trial(&state, &cond, Control::Current(current_a), duration_s, current_a, &mut scratch)?;
-        Some((rest.voltage - loaded.voltage) / current_a)
-    }
-
-    /// Shell stoichiometries of each particle, centre outwards (for inspection and tests).
-    pub fn shell_stoichiometries(&self, state: &CellState) -> (Vec<f64>, Vec<f64>) {
-        (self.neg.modes.shells(&state.neg_modes), self.pos.modes.shells(&state.pos_modes))
-    }
-
-    fn conditions(&self, health: &Health, temperature_k: f64, ambient_k: f64) -> StepConditions {
-        let cell = &self.cell;
-        let t_ref = cell.reference_temperature_k;
-        let (n, p) = (&cell.negative, &cell.positive);
-        StepConditions {
-            temperature_k,
-            ambient_k,
-            neg_diffusivity: n.diffusivity_m2_s
-                * arrhenius_factor(n.diffusivity_activation_j_mol, temperature_k, t_ref),
-            pos_diffusivity: p.diffusivity_m2_s
-                * arrhenius_factor(p.diffusivity_activation_j_mol, temperature_k, t_ref),
-            neg_rate: n.rate_constant_m_s * arrhenius_factor(n.rate_constant_activation_j_mol, temperature_k, t_ref),
-            pos_rate: p.rate_constant_m_s * arrhenius_factor(p.rate_constant_activation_j_mol, temperature_k, t_ref),
-            // Conductances rise with temperature, so resistance falls by the inverse factor.
-            series_resistance_ohm: cell.ohmic_resistance_ohm
-                / arrhenius_factor(cell.ohmic_activation_j_mol, temperature_k, t_ref)
-                + cell.film_resistance_ohm
-                + health.added_resistance_ohm,
-            neg_area_m2: self.neg.surface_area_m2 * health.neg_active_scale,
-            pos_area_m2: self.pos.surface_area_m2 * health.pos_active_scale,
-        }
-    }
-
-    /// Affine maps current → surface and mean stoichiometry after `dt`, per electrode.
-    fn responses(&self, state: &CellState, cond: &StepConditions, dt: f64, scratch: &mut Scratch) -> [Affine; 4] {
-        let neg = &self.neg;
-        let pos = &self.pos;
-        scratch.prepare(neg, pos, cond, dt);
-        // Flux into each particle per ampere, in stoichiometry units: discharge empties the
-        // negative and fills the positive.
-        let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * neg.max_concentration);
-        let pos_flux_per_amp = 1.0 / (FARADAY * cond.pos_area_m2 * pos.max_concentration);
-        let surface = |p: &ParticleModel, step: &ModeStep, modes: &[f64], d: f64, per_amp: f64| {
-            let (outer, second) = p.modes.outer_rows();
-            let (o_free, o_unit) = step.project(outer, modes);
-            let (s_free, s_unit) = step.project(second, modes);
-            let value = |u: f64| p.modes.surface_from_outer(o_free + u * o_unit, s_free + u * s_unit, u, p.radius_m, d);
-            let at_zero = value(0.0);
-            Affine { at_zero, per_amp: (value(1.0) - at_zero) * per_amp }
-        };
-        let mean = |p: &ParticleModel, step: &ModeStep, modes: &[f64], per_amp: f64| {
-            let (free, unit) = step.project(p.modes.mean_row(), modes);
-            Affine { at_zero: free, per_amp: unit * per_amp }
-        };
-        [
-            surface(neg, &scratch.neg, &state.neg_modes, cond.neg_diffusivity, neg_flux_per_amp),
-            surface(pos, &scratch.pos, &state.pos_modes, cond.pos_diffusivity, pos_flux_per_amp),
-            mean(neg, &scratch.neg, &state.neg_modes, neg_flux_per_amp),
-            mean(pos, &scratch.pos, &state.pos_modes, pos_flux_per_amp),
-        ]
-    }
-
-    /// Terminal voltage and negative potential vs Li at the end of the step for a current.
-    fn voltage(&self, cond: &StepConditions, maps: &[Affine; 4], current: f64) -> (f64, f64, f64, f64) {
-        let cell = &self.cell;
-        let t = cond.temperature_k;
-        let dt_ref = t - cell.reference_temperature_k;
-        let x = maps[0].at(current);
-        let y = maps[1].at(current);
-        let u_neg = cell.negative.ocp.potential(x) + dt_ref * cell.negative.entropic_coefficient_v_k;
-        let u_pos = cell.positive.ocp.potential(y) + dt_ref * cell.positive.entropic_coefficient_v_k;
-        let ce = cell.electrolyte_concentration_mol_m3;
-        let i0_neg = exchange_current_density(cond.neg_rate, self.neg.max_concentration, x, ce);
-        let i0_pos = exchange_current_density(cond.pos_rate, self.pos.max_concentration, y, ce);
-        // Discharge is anodic (lithium out) at the negative and cathodic at the positive.
-        let eta_neg = overpotential(current / cond.neg_area_m2, i0_neg, t);
-        let eta_pos = overpotential(-current / cond.pos_area_m2, i0_pos, t);
-        let voltage = u_pos + eta_pos - u_neg - eta_neg - current * cond.series_resistance_ohm;
-        (voltage, u_neg + eta_neg, x, y)
-    }
-
-    /// Solves for the current meeting the control and returns the end-of-step state.
-    fn trial(
-        &self,
-        state: &CellState,
-        cond: &StepConditions,
-        control: Control,
-        dt: f64,
-        guess: f64,
-        scratch: &mut Scratch,
-    ) -> Option<Trial> {
-        let maps = self.responses(state, cond, dt, scratch);
-        let current = match control {
-            Control::Current(i) => i,
-            // V(I) falls with I; I·V(I) rises with I on the branch a cell operates on.
-            Control::Voltage(target) => solve_decreasing(|i| self.voltage(cond, &maps, i).0 - target, guess)?,
-            Control::Power(target) => solve_decreasing(|i| target - i * self.voltage(cond, &maps, i).0, guess)?,
-        };
-        let (voltage, neg_potential, neg_surface, pos_surface) = self.voltage(cond, &maps, current);
-        if !voltage.is_finite() {
-            return None;
-        }
-        let neg_mean = maps[2].at(current);
-        let pos_mean = maps[3].at(current);
-        let cell = &self.cell;
-        let ocv = cell.positive.ocp.potential(pos_mean) - cell.negative.ocp.potential(neg_mean)
-            + (cond.temperature_k - cell.reference_temperature_k) * self.entropic_v_k();
-        let heat = bernardi_heat(current, ocv, voltage, cond.temperature_k, self.entropic_v_k());
-        let temperature_k = advance_temperature(
-            cond.temperature_k,
-            cond.ambient_k,
-            heat,
-            cell.heat_capacity_j_k(),
-            cell.convective_conductance_w_k,
-            dt,
-        );
-        Some(Trial { dt, current, voltage, temperature_k, neg_surface, pos_surface, neg_mean, pos_mean, neg_potential })
-    }
-
-    /// dU_ocv/dT of the cell, V/K.
-    fn entropic_v_k(&self) -> f64 {
-        self.cell.positive.entropic_coefficient_v_k - self.cell.negative.entropic_coefficient_v_k
-    }
-
-    /// Moves the state to the end of an accepted trial.
-    fn commit(&self, state: &mut CellState, cond: &StepConditions, trial: &Trial, scratch: &mut Scratch) {
-        scratch.prepare(&self.neg, &self.pos, cond, trial.dt);
-        let neg_flux = -trial.current / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
-        let pos_flux = trial.current / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
-        scratch.neg.apply(&mut state.neg_modes, neg_flux);
-        scratch.pos.apply(&mut state.pos_modes, pos_flux);
-        state.temperature_k = trial.temperature_k;
-    }
-
-    fn trace_point(&self, time_s: f64, trial: &Trial, balance: &Balance, step: usize) -> TracePoint {
-        TracePoint {
-            time_s,
-            dt_s: trial.dt,
-            current_a: trial.current,
-            voltage_v: trial.voltage,
-            temperature_k: trial.temperature_k,
-            soc: balance.soc_of_neg_stoich(trial.neg_mean),
-            neg_surface_stoich: trial.neg_surface,
-            pos_surface_stoich: trial.pos_surface,
-            neg_potential_v: trial.neg_potential,
-            neg_mean_stoich: trial.neg_mean,
-            pos_mean_stoich: trial.pos_mean,
-            neg_surface_stress_pa: surface_hoop_stress(
-                self.neg.stress_coefficient * self.neg.max_concentration,
-                trial.neg_mean,
-                trial.neg_surface,
-            ),
-            pos_surface_stress_pa: surface_hoop_stress(
-                self.pos.stress_coefficient * self.pos.max_concentration,
-                trial.pos_mean,
-                trial.pos_surface,
-            ),
-            step,
-        }
-    }
-}
-
-/// Root of a decreasing function by Newton steps kept inside an expanding bracket.
-fn solve_decreasing(f: impl Fn(f64) -> f64, guess: f64) -> Option<f64> {
-    let scale = guess.abs().max(1.0);
-    let mut x = guess;
-    let mut fx = f(x);
-    let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
-    for _ in 0..60 {
-        if !fx.is_finite() {
-            return None;
-        }
-        if fx > 0.0 {
-            lo = x;
-        } else {
-            hi = x;
-        }
-        if fx.abs() < 1e-10 {
-            return Some(x);
-        }
-        let h = 1e-6 * scale;
-        let slope = (f(x + h) - fx) / h;
-        let mut next = if slope < 0.0 { x - fx / slope } else { f64::NAN };
-        if !next.is_finite() || next <= lo || next >= hi {
-            next = match (lo.is_finite(), hi.is_finite()) {
-                (true, true) => 0.5 * (lo + hi),
-                (true, false) => x + scale,
-                (false, true) => x - scale,
-                (false, false) => return None,
-            };
-        }
-        if (next - x).abs() < 1e-12 * scale {
-            return Some(next);
-        }
-        x = next;
-        fx = f(x);
-    }
-    (fx.abs() < 1e-6).then_some(x)
-}
-
-/// Stoichiometry margin kept from empty and full at the particle surface.
-const SURFACE_GUARD: f64 = 1e-4;
 
 /// A step as the stepper runs it: its control, its ends and which way lithium moves.
 struct ActiveStep<'a> {
@@ -492,15 +177,15 @@ fn end_margins(
     for end in step.ends {
         let margin = match *end {
             StepEnd::Voltage(v) => direction * (trial.voltage - v) / tolerance_v,
-            StepEnd::CurrentBelow(i) => (trial.current.abs() - i) / (1e-4 * i),
-            StepEnd::Time(t) => (t - progress.elapsed_s) / 1e-9 - 1.0,
+            StepEnd::CurrentBelow(i) => (trial.current.abs() - i) / (CURRENT_END_TOLERANCE_RELATIVE * i),
+            StepEnd::Time(t) => (t - progress.elapsed_s) / TIME_END_TOLERANCE_S - 1.0,
             StepEnd::Soc(s) => {
                 if direction == 0.0 {
                     continue;
                 }
-                direction * (progress.soc - s) / 1e-6
+                direction * (progress.soc - s) / SOC_END_TOLERANCE
             }
-            StepEnd::Charge(q) => (q - progress.charge_passed_coulomb.abs()) / (1e-6 * q),
+            StepEnd::Charge(q) => (q - progress.charge_passed_coulomb.abs()) / (CHARGE_END_TOLERANCE_RELATIVE * q),
         };
         out.push((reason_of(end), margin));
     }
@@ -513,7 +198,7 @@ fn end_margins(
         .iter()
         .map(|&x| (x - SURFACE_GUARD).min(1.0 - SURFACE_GUARD - x))
         .fold(f64::INFINITY, f64::min);
-    out.push((EndReason::ElectrodeLimit, surface_room / 1e-6));
+    out.push((EndReason::ElectrodeLimit, surface_room / SURFACE_END_TOLERANCE));
 }
 
 fn reason_of(end: &StepEnd) -> EndReason {
@@ -629,12 +314,12 @@ pub fn simulate_periodic_with(
 }
 
 /// Largest change between two states: any shell stoichiometry, or temperature in units of
-/// 100 K (so 1e-4 means 0.01 K).
+/// [`PERIODIC_TEMPERATURE_SCALE_K`] (100 K, so 1e-4 means 0.01 K).
 fn state_change(model: &CellModel, a: &CellState, b: &CellState) -> f64 {
     let (an, ap) = model.shell_stoichiometries(a);
     let (bn, bp) = model.shell_stoichiometries(b);
     let shells = an.iter().zip(&bn).chain(ap.iter().zip(&bp)).map(|(x, y)| (x - y).abs()).fold(0.0, f64::max);
-    shells.max((a.temperature_k - b.temperature_k).abs() / 100.0)
+    shells.max((a.temperature_k - b.temperature_k).abs() / PERIODIC_TEMPERATURE_SCALE_K)
 }
 
 /// Totals and extremes of a finished cycle, from its trace.
@@ -679,6 +364,14 @@ fn summarise(record: &mut CycleRecord, duration_s: f64, voltage_limited_s: f64) 
     *record = r;
 }
 
+/// What becomes of a trial step.
+enum Judged {
+    Accept(Trial),
+    /// Try again with this step length, s.
+    Retry(f64),
+    GiveUp,
+}
+
 /// Runs steps and series against one cell state.
 struct Stepper<'a> {
     model: &'a CellModel,
@@ -710,24 +403,40 @@ impl Stepper<'_> {
         self.balance.soc_of_neg_stoich(trial.neg_mean)
     }
 
-    /// True when a trial moved the state more than the settings allow (with 50 % slack).
+    /// True when a trial moved the state more than the settings allow (with [`COARSE_STEP_SLACK`]).
     fn too_coarse(&self, previous: &TracePoint, trial: &Trial, check_voltage: bool) -> bool {
         let s = self.settings;
-        (self.soc(trial) - previous.soc).abs() > 1.5 * s.max_soc_step
-            || (trial.temperature_k - previous.temperature_k).abs() > 1.5 * s.max_temperature_step_k
-            || (check_voltage && (trial.voltage - previous.voltage_v).abs() > 1.5 * s.max_voltage_step_v)
+        (self.soc(trial) - previous.soc).abs() > COARSE_STEP_SLACK * s.max_soc_step
+            || (trial.temperature_k - previous.temperature_k).abs() > COARSE_STEP_SLACK * s.max_temperature_step_k
+            || (check_voltage && (trial.voltage - previous.voltage_v).abs() > COARSE_STEP_SLACK * s.max_voltage_step_v)
+    }
+
+    /// Whether a trial of length `dt` (None: the cell model could not evaluate it) is accepted,
+    /// retried shorter, or cannot be shortened further.
+    fn judge(&self, dt: f64, trial: Option<Trial>, previous: &TracePoint, check_voltage: bool) -> Judged {
+        match trial {
+            None if dt < SHORTEST_RETRY_STEP_S => Judged::GiveUp,
+            None => Judged::Retry(dt * FAILED_TRIAL_SHRINK),
+            Some(trial)
+                if dt > self.settings.first_dt_s * SHORTEST_REFINED_STEP_FRACTION
+                    && self.too_coarse(previous, &trial, check_voltage) =>
+            {
+                Judged::Retry(dt * COARSE_TRIAL_SHRINK)
+            }
+            Some(trial) => Judged::Accept(trial),
+        }
     }
 
     /// Next step length from how much the accepted step changed the state.
     fn next_dt(&self, previous: &TracePoint, trial: &Trial, check_voltage: bool, max_dt: f64) -> f64 {
         let s = self.settings;
-        let ratio = |change: f64, limit: f64| if change > 1e-12 { limit / change } else { f64::INFINITY };
+        let ratio = |change: f64, limit: f64| if change > NEGLIGIBLE_CHANGE { limit / change } else { f64::INFINITY };
         let mut r = ratio((self.soc(trial) - previous.soc).abs(), s.max_soc_step)
             .min(ratio((trial.temperature_k - previous.temperature_k).abs(), s.max_temperature_step_k));
         if check_voltage {
             r = r.min(ratio((trial.voltage - previous.voltage_v).abs(), s.max_voltage_step_v));
         }
-        (trial.dt * r.clamp(0.5, 2.0)).min(max_dt)
+        (trial.dt * r.clamp(MIN_STEP_RATIO, MAX_STEP_RATIO)).min(max_dt)
     }
 
     fn run_step(
@@ -751,7 +460,9 @@ impl Stepper<'_> {
         let mut first = true;
         self.current_guess = match step.drive {
             Drive::Current(i) => i,
-            Drive::Power(p) => p / record.trace.last().map_or(3.0, |p| p.voltage_v.max(0.5)),
+            Drive::Power(p) => {
+                p / record.trace.last().map_or(POWER_GUESS_FALLBACK_V, |p| p.voltage_v.max(POWER_GUESS_MIN_V))
+            }
             _ => record.trace.last().map_or(0.0, |p| p.current_a),
         };
         loop {
@@ -761,24 +472,22 @@ impl Stepper<'_> {
                     &step.label,
                     format!(
                         "did not end within {:.0} h; check its end conditions",
-                        self.settings.max_step_duration_s / 3600.0
+                        self.settings.max_step_duration_s / SECONDS_PER_HOUR
                     ),
                 ));
             }
-            dt = dt.min(time_end - elapsed).max(1e-9);
+            dt = dt.min(time_end - elapsed).max(MIN_STEP_S);
             let previous = *record.trace.last().expect("trace starts with the initial point");
             let cond = self.model.conditions(self.health, state.temperature_k, self.ambient_at(None));
-            let Some(trial) = self.model.trial(state, &cond, control, dt, self.current_guess, &mut self.scratch) else {
-                if dt < 1e-3 {
-                    return Err(self.fail(index, &step.label, describe_failure(step.drive)));
+            let trial = self.model.trial(state, &cond, control, dt, self.current_guess, &mut self.scratch);
+            let trial = match self.judge(dt, trial, &previous, !first) {
+                Judged::Accept(trial) => trial,
+                Judged::Retry(shorter) => {
+                    dt = shorter;
+                    continue;
                 }
-                dt *= 0.25;
-                continue;
+                Judged::GiveUp => return Err(self.fail(index, &step.label, describe_failure(step.drive))),
             };
-            if dt > self.settings.first_dt_s * 0.25 && self.too_coarse(&previous, &trial, !first) {
-                dt *= 0.5;
-                continue;
-            }
             let soc = self.soc(&trial);
             let passed = charge + trial.current * trial.dt;
             end_margins(
@@ -834,8 +543,10 @@ impl Stepper<'_> {
         record.trace.push(self.model.trace_point(self.time_s, trial, self.balance, step));
     }
 
-    /// Finds the step length inside (0, dt] at which the first end is met, by the Illinois
-    /// variant of false position on the smallest scaled margin (target: within tolerance).
+    /// Finds the step length inside (0, dt] at which the first end is met: Illinois false
+    /// position on f(h) = smallest scaled margin + ½ (see the module docs), bisecting when an
+    /// iterate leaves the bracket or a trial fails; stops once the margin is within [−1, 0] or
+    /// the bracket is narrower than [`LOCATE_BRACKET_S`].
     #[allow(clippy::too_many_arguments)]
     fn locate(
         &mut self,
@@ -862,17 +573,17 @@ impl Stepper<'_> {
             let (reason, margin) = this.margins.iter().copied().min_by(|a, b| a.1.total_cmp(&b.1))?;
             Some((trial, reason, margin))
         };
-        let (mut lo, mut f_lo) = (0.0, 1.0_f64);
+        let (mut lo, mut f_lo) = (0.0, LOCATE_START_MARGIN);
         let (mut best, mut best_reason, f_dt) =
             evaluate(self, dt).ok_or_else(|| self.fail(step.index, step.label, "solver failed near a step end"))?;
-        let (mut hi, mut f_hi) = (dt, f_dt + 0.5);
-        if f_dt >= -1.0 {
+        let (mut hi, mut f_hi) = (dt, f_dt + LOCATE_AIM_OFFSET);
+        if f_dt >= LOCATE_LOWEST_MARGIN {
             return Ok((best, best_reason));
         }
         // f(h) = margin + ½: positive before the end, negative past it.
-        f_lo += 0.5;
+        f_lo += LOCATE_AIM_OFFSET;
         let mut side = 0;
-        for _ in 0..60 {
+        for _ in 0..LOCATE_MAX_ITERATIONS {
             let h = if f_lo.is_finite() && f_hi.is_finite() && f_lo > f_hi {
                 (lo * f_hi - hi * f_lo) / (f_hi - f_lo)
             } else {
@@ -883,11 +594,11 @@ impl Stepper<'_> {
                 hi = h;
                 continue;
             };
-            let f = margin + 0.5;
+            let f = margin + LOCATE_AIM_OFFSET;
             if margin <= 0.0 {
                 best = trial;
                 best_reason = reason;
-                if margin >= -1.0 {
+                if margin >= LOCATE_LOWEST_MARGIN {
                     return Ok((best, best_reason));
                 }
                 hi = h;
@@ -904,7 +615,7 @@ impl Stepper<'_> {
                 }
                 side = 1;
             }
-            if hi - lo < 1e-6 {
+            if hi - lo < LOCATE_BRACKET_S {
                 break;
             }
         }
@@ -929,12 +640,13 @@ impl Stepper<'_> {
                 SeriesSignal::PowerW => Control::Power(value),
             };
             if let Control::Power(p) = control {
-                self.current_guess = p / record.trace.last().map_or(3.0, |t| t.voltage_v.max(0.5));
+                self.current_guess =
+                    p / record.trace.last().map_or(POWER_GUESS_FALLBACK_V, |t| t.voltage_v.max(POWER_GUESS_MIN_V));
             }
             let mut elapsed = 0.0;
             let mut dt = duration.min(self.settings.max_dt_load_s);
             let mut first = true;
-            while elapsed < duration - 1e-9 {
+            while elapsed < duration - TIME_END_TOLERANCE_S {
                 dt = dt.min(duration - elapsed);
                 let previous = *record.trace.last().expect("trace starts with the initial point");
                 let cond = self.model.conditions(self.health, state.temperature_k, self.ambient_at(ambient));
@@ -953,7 +665,7 @@ impl Stepper<'_> {
                             &cond,
                             Control::Voltage(limit),
                             dt,
-                            0.5 * t.current,
+                            DERATED_CURRENT_GUESS_FRACTION * t.current,
                             &mut self.scratch,
                         );
                         match held {
@@ -963,21 +675,17 @@ impl Stepper<'_> {
                     }
                     other => other,
                 };
-                let Some(trial) = trial else {
-                    if dt < 1e-3 {
-                        return Err(self.fail(
-                            0,
-                            &series.name,
-                            format!("sample {} at t = {:.0} s cannot be run", k + 2, series.time_s[k]),
-                        ));
+                let trial = match self.judge(dt, trial, &previous, !first) {
+                    Judged::Accept(trial) => trial,
+                    Judged::Retry(shorter) => {
+                        dt = shorter;
+                        continue;
                     }
-                    dt *= 0.25;
-                    continue;
+                    Judged::GiveUp => {
+                        let detail = format!("sample {} at t = {:.0} s cannot be run", k + 2, series.time_s[k]);
+                        return Err(self.fail(0, &series.name, detail));
+                    }
                 };
-                if dt > self.settings.first_dt_s * 0.25 && self.too_coarse(&previous, &trial, !first) {
-                    dt *= 0.5;
-                    continue;
-                }
                 self.accept(state, &cond, &trial, 0, record);
                 elapsed += trial.dt;
                 dt = self.next_dt(&previous, &trial, !first, self.settings.max_dt_load_s);

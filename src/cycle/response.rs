@@ -1,0 +1,424 @@
+//! The cell's response over one time step: given the fast state, the conditions of the step
+//! and what sets the current (a current, or the equation a constant-voltage or constant-power
+//! step imposes), the current, terminal voltage, overpotentials, heat, temperature, surface and
+//! mean stoichiometries and surface stress at the step's end.
+//!
+//! Within a step the current is constant. Diffusion is integrated exactly for that current
+//! ([`super::diffusion`]), so each particle's surface and mean stoichiometry at the step's end
+//! are affine in the current; the terminal voltage, overpotentials and heat are evaluated at
+//! the end of the step (implicit, so constant-voltage and constant-power steps are stable at
+//! any step length). A constant-voltage or constant-power step solves a scalar equation for
+//! its current: Newton's method with a forward-difference slope, each iterate kept inside a
+//! bracket of the root that widens by one current scale while only one side is known and is
+//! bisected when a Newton step would leave it.
+//!
+//! The stepper ([`super::stepper`]) chooses the step lengths and decides when a step ends.
+
+use super::balance::Balance;
+use super::diffusion::{Boundary, ModeStep, SphereModes};
+use super::kinetics::{exchange_current_density, overpotential};
+use super::record::TracePoint;
+use super::stress::surface_hoop_stress;
+use super::thermal::{advance_temperature, bernardi_heat};
+use super::{Cell, Electrode};
+use crate::material::arrhenius_factor;
+use crate::material::constants::FARADAY;
+
+/// The slow (aging) state as the cycle model sees it. `Health::fresh` is beginning of life.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Health {
+    /// Cyclable lithium held in both electrodes, as charge, C.
+    pub lithium_inventory_coulomb: f64,
+    /// Fraction of each electrode's active material still connected, 0–1.
+    pub neg_active_scale: f64,
+    pub pos_active_scale: f64,
+    /// Series resistance added by aging (film growth, contact loss), Ω.
+    pub added_resistance_ohm: f64,
+}
+
+impl Health {
+    pub fn fresh(cell: &Cell) -> Health {
+        Health {
+            lithium_inventory_coulomb: cell.lithium_inventory_coulomb(),
+            neg_active_scale: 1.0,
+            pos_active_scale: 1.0,
+            added_resistance_ohm: 0.0,
+        }
+    }
+}
+
+/// The fast state: modal coordinates of each particle (stoichiometry units) and temperature.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CellState {
+    pub neg_modes: Vec<f64>,
+    pub pos_modes: Vec<f64>,
+    pub temperature_k: f64,
+}
+
+/// One electrode with its precomputed diffusion modes.
+#[derive(Debug, Clone)]
+struct ParticleModel {
+    modes: SphereModes,
+    radius_m: f64,
+    max_concentration: f64,
+    surface_area_m2: f64,
+    stress_coefficient: f64,
+}
+
+impl ParticleModel {
+    fn new(electrode: &Electrode, shells: usize) -> ParticleModel {
+        ParticleModel {
+            modes: SphereModes::new(shells, Boundary::Flux),
+            radius_m: electrode.particle_radius_m,
+            max_concentration: electrode.max_concentration_mol_m3,
+            surface_area_m2: electrode.surface_area_m2(),
+            stress_coefficient: electrode.stress_coefficient_pa_m3_mol(),
+        }
+    }
+}
+
+/// A cell prepared for simulation (diffusion modes computed once); reuse it across cycles.
+#[derive(Debug, Clone)]
+pub struct CellModel {
+    pub cell: Cell,
+    neg: ParticleModel,
+    pos: ParticleModel,
+}
+
+/// Everything a trial step needs that stays fixed within it.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct StepConditions {
+    temperature_k: f64,
+    ambient_k: f64,
+    neg_diffusivity: f64,
+    pos_diffusivity: f64,
+    neg_rate: f64,
+    pos_rate: f64,
+    series_resistance_ohm: f64,
+    neg_area_m2: f64,
+    pos_area_m2: f64,
+}
+
+/// The state at the end of a trial step of length `dt`.
+#[derive(Debug, Clone, Copy, Default)]
+pub(super) struct Trial {
+    pub(super) dt: f64,
+    pub(super) current: f64,
+    pub(super) voltage: f64,
+    pub(super) temperature_k: f64,
+    pub(super) neg_surface: f64,
+    pub(super) pos_surface: f64,
+    pub(super) neg_mean: f64,
+    pub(super) pos_mean: f64,
+    pub(super) neg_potential: f64,
+}
+
+/// Surface and mean stoichiometry after a step, both affine in the current.
+#[derive(Debug, Clone, Copy)]
+struct Affine {
+    at_zero: f64,
+    per_amp: f64,
+}
+
+impl Affine {
+    fn at(self, current: f64) -> f64 {
+        self.at_zero + self.per_amp * current
+    }
+}
+
+/// Reused buffers, so a cycle allocates nothing per step.
+#[derive(Debug, Default)]
+pub(super) struct Scratch {
+    neg: ModeStep,
+    pos: ModeStep,
+    /// (dt, negative D, positive D) the factors above were computed for: a step that is
+    /// committed right after its trial reuses them instead of recomputing every exponential.
+    factors_for: Option<(f64, f64, f64)>,
+}
+
+impl Scratch {
+    fn prepare(&mut self, neg: &ParticleModel, pos: &ParticleModel, cond: &StepConditions, dt: f64) {
+        let key = (dt, cond.neg_diffusivity, cond.pos_diffusivity);
+        if self.factors_for == Some(key) {
+            return;
+        }
+        neg.modes.step_factors(neg.radius_m, cond.neg_diffusivity, dt, &mut self.neg);
+        pos.modes.step_factors(pos.radius_m, cond.pos_diffusivity, dt, &mut self.pos);
+        self.factors_for = Some(key);
+    }
+}
+
+/// What the current is set by during a trial.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) enum Control {
+    Current(f64),
+    Voltage(f64),
+    Power(f64),
+}
+
+impl CellModel {
+    pub fn new(cell: &Cell) -> CellModel {
+        CellModel {
+            cell: cell.clone(),
+            neg: ParticleModel::new(&cell.negative, cell.shells),
+            pos: ParticleModel::new(&cell.positive, cell.shells),
+        }
+    }
+
+    /// Uniform particles at equilibrium at the given state of charge.
+    pub fn rest_state(&self, balance: &Balance, health: &Health, soc: f64, temperature_k: f64) -> CellState {
+        let (x, y) = balance.stoich_at_soc(soc, health);
+        CellState { neg_modes: self.neg.modes.uniform(x), pos_modes: self.pos.modes.uniform(y), temperature_k }
+    }
+
+    /// Lithium held in both particles, as charge, C.
+    pub fn lithium_coulomb(&self, state: &CellState, balance: &Balance) -> f64 {
+        self.neg.modes.mean(&state.neg_modes) * balance.neg_capacity_coulomb
+            + self.pos.modes.mean(&state.pos_modes) * balance.pos_capacity_coulomb
+    }
+
+    /// Shifts the negative particle's concentration uniformly so the state holds exactly the
+    /// health's lithium inventory (the slow state moves lithium into films and plating between
+    /// cycles; the fast state must follow). Returns false when no shift keeps it inside 0–1.
+    pub fn align_lithium(&self, state: &mut CellState, balance: &Balance, health: &Health) -> bool {
+        let held = self.lithium_coulomb(state, balance);
+        let shift = (health.lithium_inventory_coulomb - held) / balance.neg_capacity_coulomb;
+        let mean = self.neg.modes.mean(&state.neg_modes);
+        if !(0.0..=1.0).contains(&(mean + shift)) {
+            return false;
+        }
+        let uniform = self.neg.modes.uniform(shift);
+        for (q, u) in state.neg_modes.iter_mut().zip(uniform) {
+            *q += u;
+        }
+        true
+    }
+
+    /// DC resistance from a current pulse applied to a rested cell, Ω: the voltage drop after
+    /// `duration_s` over the current (ohmic, film, kinetic and early diffusion polarisation).
+    pub fn pulse_resistance(
+        &self,
+        health: &Health,
+        balance: &Balance,
+        soc: f64,
+        temperature_k: f64,
+        current_a: f64,
+        duration_s: f64,
+    ) -> Option<f64> {
+        let state = self.rest_state(balance, health, soc, temperature_k);
+        let cond = self.conditions(health, temperature_k, temperature_k);
+        let mut scratch = Scratch::default();
+        let rest = self.trial(&state, &cond, Control::Current(0.0), 0.0, 0.0, &mut scratch)?;
+        let loaded = self.trial(&state, &cond, Control::Current(current_a), duration_s, current_a, &mut scratch)?;
+        Some((rest.voltage - loaded.voltage) / current_a)
+    }
+
+    /// Shell stoichiometries of each particle, centre outwards (for inspection and tests).
+    pub fn shell_stoichiometries(&self, state: &CellState) -> (Vec<f64>, Vec<f64>) {
+        (self.neg.modes.shells(&state.neg_modes), self.pos.modes.shells(&state.pos_modes))
+    }
+
+    pub(super) fn conditions(&self, health: &Health, temperature_k: f64, ambient_k: f64) -> StepConditions {
+        let cell = &self.cell;
+        let t_ref = cell.reference_temperature_k;
+        let (n, p) = (&cell.negative, &cell.positive);
+        StepConditions {
+            temperature_k,
+            ambient_k,
+            neg_diffusivity: n.diffusivity_m2_s
+                * arrhenius_factor(n.diffusivity_activation_j_mol, temperature_k, t_ref),
+            pos_diffusivity: p.diffusivity_m2_s
+                * arrhenius_factor(p.diffusivity_activation_j_mol, temperature_k, t_ref),
+            neg_rate: n.rate_constant_m_s * arrhenius_factor(n.rate_constant_activation_j_mol, temperature_k, t_ref),
+            pos_rate: p.rate_constant_m_s * arrhenius_factor(p.rate_constant_activation_j_mol, temperature_k, t_ref),
+            // Conductances rise with temperature, so resistance falls by the inverse factor.
+            series_resistance_ohm: cell.ohmic_resistance_ohm
+                / arrhenius_factor(cell.ohmic_activation_j_mol, temperature_k, t_ref)
+                + cell.film_resistance_ohm
+                + health.added_resistance_ohm,
+            neg_area_m2: self.neg.surface_area_m2 * health.neg_active_scale,
+            pos_area_m2: self.pos.surface_area_m2 * health.pos_active_scale,
+        }
+    }
+
+    /// Affine maps current → surface and mean stoichiometry after `dt`, per electrode.
+    fn responses(&self, state: &CellState, cond: &StepConditions, dt: f64, scratch: &mut Scratch) -> [Affine; 4] {
+        let neg = &self.neg;
+        let pos = &self.pos;
+        scratch.prepare(neg, pos, cond, dt);
+        // Flux into each particle per ampere, in stoichiometry units: discharge empties the
+        // negative and fills the positive.
+        let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * neg.max_concentration);
+        let pos_flux_per_amp = 1.0 / (FARADAY * cond.pos_area_m2 * pos.max_concentration);
+        let surface = |p: &ParticleModel, step: &ModeStep, modes: &[f64], d: f64, per_amp: f64| {
+            let (outer, second) = p.modes.outer_rows();
+            let (o_free, o_unit) = step.project(outer, modes);
+            let (s_free, s_unit) = step.project(second, modes);
+            let value = |u: f64| p.modes.surface_from_outer(o_free + u * o_unit, s_free + u * s_unit, u, p.radius_m, d);
+            let at_zero = value(0.0);
+            Affine { at_zero, per_amp: (value(1.0) - at_zero) * per_amp }
+        };
+        let mean = |p: &ParticleModel, step: &ModeStep, modes: &[f64], per_amp: f64| {
+            let (free, unit) = step.project(p.modes.mean_row(), modes);
+            Affine { at_zero: free, per_amp: unit * per_amp }
+        };
+        [
+            surface(neg, &scratch.neg, &state.neg_modes, cond.neg_diffusivity, neg_flux_per_amp),
+            surface(pos, &scratch.pos, &state.pos_modes, cond.pos_diffusivity, pos_flux_per_amp),
+            mean(neg, &scratch.neg, &state.neg_modes, neg_flux_per_amp),
+            mean(pos, &scratch.pos, &state.pos_modes, pos_flux_per_amp),
+        ]
+    }
+
+    /// Terminal voltage and negative potential vs Li at the end of the step for a current.
+    fn voltage(&self, cond: &StepConditions, maps: &[Affine; 4], current: f64) -> (f64, f64, f64, f64) {
+        let cell = &self.cell;
+        let t = cond.temperature_k;
+        let dt_ref = t - cell.reference_temperature_k;
+        let x = maps[0].at(current);
+        let y = maps[1].at(current);
+        let u_neg = cell.negative.ocp.potential(x) + dt_ref * cell.negative.entropic_coefficient_v_k;
+        let u_pos = cell.positive.ocp.potential(y) + dt_ref * cell.positive.entropic_coefficient_v_k;
+        let ce = cell.electrolyte_concentration_mol_m3;
+        let i0_neg = exchange_current_density(cond.neg_rate, self.neg.max_concentration, x, ce);
+        let i0_pos = exchange_current_density(cond.pos_rate, self.pos.max_concentration, y, ce);
+        // Discharge is anodic (lithium out) at the negative and cathodic at the positive.
+        let eta_neg = overpotential(current / cond.neg_area_m2, i0_neg, t);
+        let eta_pos = overpotential(-current / cond.pos_area_m2, i0_pos, t);
+        let voltage = u_pos + eta_pos - u_neg - eta_neg - current * cond.series_resistance_ohm;
+        (voltage, u_neg + eta_neg, x, y)
+    }
+
+    /// Solves for the current meeting the control and returns the end-of-step state.
+    pub(super) fn trial(
+        &self,
+        state: &CellState,
+        cond: &StepConditions,
+        control: Control,
+        dt: f64,
+        guess: f64,
+        scratch: &mut Scratch,
+    ) -> Option<Trial> {
+        let maps = self.responses(state, cond, dt, scratch);
+        let current = match control {
+            Control::Current(i) => i,
+            // V(I) falls with I; I·V(I) rises with I on the branch a cell operates on.
+            Control::Voltage(target) => solve_decreasing(|i| self.voltage(cond, &maps, i).0 - target, guess)?,
+            Control::Power(target) => solve_decreasing(|i| target - i * self.voltage(cond, &maps, i).0, guess)?,
+        };
+        let (voltage, neg_potential, neg_surface, pos_surface) = self.voltage(cond, &maps, current);
+        if !voltage.is_finite() {
+            return None;
+        }
+        let neg_mean = maps[2].at(current);
+        let pos_mean = maps[3].at(current);
+        let cell = &self.cell;
+        let ocv = cell.positive.ocp.potential(pos_mean) - cell.negative.ocp.potential(neg_mean)
+            + (cond.temperature_k - cell.reference_temperature_k) * self.entropic_v_k();
+        let heat = bernardi_heat(current, ocv, voltage, cond.temperature_k, self.entropic_v_k());
+        let temperature_k = advance_temperature(
+            cond.temperature_k,
+            cond.ambient_k,
+            heat,
+            cell.heat_capacity_j_k(),
+            cell.convective_conductance_w_k,
+            dt,
+        );
+        Some(Trial { dt, current, voltage, temperature_k, neg_surface, pos_surface, neg_mean, pos_mean, neg_potential })
+    }
+
+    /// dU_ocv/dT of the cell, V/K.
+    fn entropic_v_k(&self) -> f64 {
+        self.cell.positive.entropic_coefficient_v_k - self.cell.negative.entropic_coefficient_v_k
+    }
+
+    /// Moves the state to the end of an accepted trial.
+    pub(super) fn commit(&self, state: &mut CellState, cond: &StepConditions, trial: &Trial, scratch: &mut Scratch) {
+        scratch.prepare(&self.neg, &self.pos, cond, trial.dt);
+        let neg_flux = -trial.current / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
+        let pos_flux = trial.current / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
+        scratch.neg.apply(&mut state.neg_modes, neg_flux);
+        scratch.pos.apply(&mut state.pos_modes, pos_flux);
+        state.temperature_k = trial.temperature_k;
+    }
+
+    pub(super) fn trace_point(&self, time_s: f64, trial: &Trial, balance: &Balance, step: usize) -> TracePoint {
+        TracePoint {
+            time_s,
+            dt_s: trial.dt,
+            current_a: trial.current,
+            voltage_v: trial.voltage,
+            temperature_k: trial.temperature_k,
+            soc: balance.soc_of_neg_stoich(trial.neg_mean),
+            neg_surface_stoich: trial.neg_surface,
+            pos_surface_stoich: trial.pos_surface,
+            neg_potential_v: trial.neg_potential,
+            neg_mean_stoich: trial.neg_mean,
+            pos_mean_stoich: trial.pos_mean,
+            neg_surface_stress_pa: surface_hoop_stress(
+                self.neg.stress_coefficient * self.neg.max_concentration,
+                trial.neg_mean,
+                trial.neg_surface,
+            ),
+            pos_surface_stress_pa: surface_hoop_stress(
+                self.pos.stress_coefficient * self.pos.max_concentration,
+                trial.pos_mean,
+                trial.pos_surface,
+            ),
+            step,
+        }
+    }
+}
+
+/// Solving for the current of a constant-voltage or constant-power step: the residual (V for
+/// a voltage, W for a power) counts as met below [`CONTROL_RESIDUAL`], or below
+/// [`CONTROL_RESIDUAL_LAST_RESORT`] after [`CONTROL_MAX_ITERATIONS`] iterations; the solve also
+/// ends when an iterate moves the current by less than [`CONTROL_CURRENT_STEP_RELATIVE`] of
+/// the current scale (the guess's magnitude, at least [`CONTROL_MIN_CURRENT_SCALE_A`]). The
+/// slope is a forward difference over [`CONTROL_SLOPE_STEP_RELATIVE`] of that scale.
+const CONTROL_RESIDUAL: f64 = 1e-10;
+const CONTROL_RESIDUAL_LAST_RESORT: f64 = 1e-6;
+const CONTROL_MAX_ITERATIONS: usize = 60;
+const CONTROL_CURRENT_STEP_RELATIVE: f64 = 1e-12;
+const CONTROL_MIN_CURRENT_SCALE_A: f64 = 1.0;
+const CONTROL_SLOPE_STEP_RELATIVE: f64 = 1e-6;
+
+/// Root of a decreasing function by Newton steps kept inside an expanding bracket: while the
+/// root is bracketed on one side only the bracket grows by one current scale, and a Newton
+/// step that would leave the bracket is replaced by bisection.
+fn solve_decreasing(f: impl Fn(f64) -> f64, guess: f64) -> Option<f64> {
+    let scale = guess.abs().max(CONTROL_MIN_CURRENT_SCALE_A);
+    let mut x = guess;
+    let mut fx = f(x);
+    let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
+    for _ in 0..CONTROL_MAX_ITERATIONS {
+        if !fx.is_finite() {
+            return None;
+        }
+        if fx > 0.0 {
+            lo = x;
+        } else {
+            hi = x;
+        }
+        if fx.abs() < CONTROL_RESIDUAL {
+            return Some(x);
+        }
+        let h = CONTROL_SLOPE_STEP_RELATIVE * scale;
+        let slope = (f(x + h) - fx) / h;
+        let mut next = if slope < 0.0 { x - fx / slope } else { f64::NAN };
+        if !next.is_finite() || next <= lo || next >= hi {
+            next = match (lo.is_finite(), hi.is_finite()) {
+                (true, true) => 0.5 * (lo + hi),
+                (true, false) => x + scale,
+                (false, true) => x - scale,
+                (false, false) => return None,
+            };
+        }
+        if (next - x).abs() < CONTROL_CURRENT_STEP_RELATIVE * scale {
+            return Some(next);
+        }
+        x = next;
+        fx = f(x);
+    }
+    (fx.abs() < CONTROL_RESIDUAL_LAST_RESORT).then_some(x)
+}

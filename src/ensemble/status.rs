@@ -1,0 +1,26 @@
+//! What one forecast of drawn inputs came to: one status for an ensemble's samples and for
+//! every alternative of a comparison on each sample.
+
+use crate::forecast::StopReason;
+
+/// What one sample (of an ensemble, or of one alternative in a comparison) came to.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SampleStatus {
+    Ok,
+    /// The drawn inputs break an input rule (e.g. a normal draw gave a negative radius).
+    Invalid(String),
+    /// The forecast stopped before the horizon: the cell was exhausted or the forecast failed;
+    /// the detail says where and why.
+    Failed(String),
+}
+
+impl SampleStatus {
+    /// The status of a forecast that ran, from where it stopped (`cycling`: whether it counts
+    /// cycles or storage days); the note is the stop reason's words from `src/report`.
+    pub fn of_stop(stop: &StopReason, cycling: bool) -> Self {
+        match crate::report::stop_text(stop, cycling) {
+            None => SampleStatus::Ok,
+            Some(why) => SampleStatus::Failed(why),
+        }
+    }
+}
