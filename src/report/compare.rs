@@ -34,7 +34,7 @@ fn spread_cells(s: &Spread) -> [String; 3] {
 }
 
 /// The header of compare.csv.
-pub const COMPARE_CSV_HEADER: [&str; 30] = [
+pub const COMPARE_CSV_HEADER: [&str; 31] = [
     "alternative",
     "samples_usable",
     "samples_censored",
@@ -65,6 +65,7 @@ pub const COMPARE_CSV_HEADER: [&str; 30] = [
     "life_difference_efc_p5",
     "life_difference_efc_p95",
     "probability_outlasts_first",
+    "warnings",
 ];
 
 /// compare.csv: one row per alternative; the difference columns are blank for the first
@@ -94,6 +95,8 @@ pub fn compare_csv(summaries: &[AlternativeSummary]) -> Result<Vec<u8>, ReportEr
             }
             None => row.extend(std::iter::repeat_n(String::new(), 7)),
         }
+        let runs = s.usable + s.invalid + s.failed;
+        row.push(counted_kinds(&s.warning_counts, runs));
         writer.write_record(&row)?;
     }
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
@@ -257,7 +260,7 @@ pub fn compare_svg(summaries: &[AlternativeSummary], title: &str, cycling: bool)
 }
 
 /// The columns of table.csv before the quantile columns.
-pub const TABLE_CSV_HEADER: [&str; 15] = [
+pub const TABLE_CSV_HEADER: [&str; 16] = [
     "ambient_c",
     "c_rate",
     "soc_low_pct",
@@ -273,7 +276,13 @@ pub const TABLE_CSV_HEADER: [&str; 15] = [
     "resistance_mohm",
     "resistance_growth_pct",
     "plating_predicted",
+    "warnings",
 ];
+
+/// Warning kinds with their counts, `kind:count/runs` separated by `;` (empty when none).
+fn counted_kinds(counts: &[(WarningKind, usize)], runs: usize) -> String {
+    counts.iter().map(|(kind, n)| format!("{}:{n}/{runs}", kind.key())).collect::<Vec<_>>().join(";")
+}
 
 /// table.csv, long format: one row per condition and reported point of the nominal forecast;
 /// with samples, `soh_pct_p5`, `soh_pct_p50`, `soh_pct_p95` and the same for resistance growth.
@@ -309,6 +318,7 @@ pub fn table_csv(results: &[ConditionResult]) -> Result<Vec<u8>, ReportError> {
                 cell(Some(p.resistance_growth_pct)),
                 // The condition's forecast as a whole, from its typed warnings.
                 if r.nominal.warning_set().contains(WarningKind::Plating) { "yes" } else { "no" }.into(),
+                r.nominal.warning_set().kinds().map(WarningKind::key).collect::<Vec<_>>().join(";"),
             ];
             if sampled {
                 let q = r.quantiles.as_ref().and_then(|q| q.get(k));

@@ -56,7 +56,7 @@ pub fn samples_csv(records: &[SampleRecord], parameters: &[String], warranty: bo
     if warranty {
         header.push("soh_at_warranty_pct".into());
     }
-    header.extend(["plating".into(), "warnings".into(), "note".into()]);
+    header.extend(["plating_predicted".into(), "warnings".into(), "note".into()]);
     writer.write_record(&header)?;
     for r in records {
         let (status, note) = match &r.status {
