@@ -10,7 +10,8 @@
 //! (from memory); review: J. M. Reniers, G. Mulder, D. A. Howey, J. Electrochem. Soc. 166 (2019)
 //! A3189.
 
-use super::{mean_temperature_k, ActiveLossParams, AgingContext, AgingState, Component, Mechanism, Side};
+use super::{mean_temperature_k, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
+use crate::material::units::MEGA;
 use crate::material::arrhenius_factor;
 
 /// Fraction of the remaining active material lost per cycle at a peak hoop stress.
@@ -24,10 +25,73 @@ pub fn loss_per_cycle(p: &ActiveLossParams, peak_hoop_pa: f64, temperature_k: f6
         * (hydrostatic / p.critical_stress_pa).powf(p.exponent)
 }
 
+/// Stress-driven loss of active material of one electrode: per cycle
+/// k (σ_h,max / σ_c)^m while the surface hydrostatic stress is tensile.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ActiveLossParams {
+    /// Fraction of active material lost per cycle at σ_h,max = σ_c.
+    pub rate_per_cycle: f64,
+    pub critical_stress_pa: f64,
+    pub exponent: f64,
+    pub activation_j_mol: f64,
+    pub reference_temperature_k: f64,
+}
+
+/// `[negative.active_loss]`, `[positive.active_loss]` as written.
+#[derive(Debug, Default, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ActiveLossSection {
+    #[serde(default = "super::params::switched_on")]
+    pub enabled: bool,
+    rate_per_cycle: Option<f64>,
+    critical_stress_mpa: Option<f64>,
+    exponent: Option<f64>,
+    activation_kj_mol: Option<f64>,
+    reference_temperature_c: Option<f64>,
+}
+
+impl ActiveLossSection {
+    /// The parameters in SI units, each value checked against its rule.
+    pub fn read(&self, rules: &mut dyn TableReader) -> ActiveLossParams {
+        ActiveLossParams {
+            rate_per_cycle: rules.non_negative("rate_per_cycle", self.rate_per_cycle),
+            critical_stress_pa: rules.positive("critical_stress_mpa", self.critical_stress_mpa) * MEGA,
+            exponent: rules.positive("exponent", self.exponent),
+            activation_j_mol: rules.activation_j_mol("activation_kj_mol", self.activation_kj_mol),
+            reference_temperature_k: rules.reference_temperature_k(self.reference_temperature_c),
+        }
+    }
+}
+
+impl super::params::MechanismTable for ActiveLossSection {
+    fn enabled(&self) -> bool {
+        self.enabled
+    }
+
+    fn store(&self, rules: &mut dyn TableReader, side: Side, aging: &mut super::AgingParams) {
+        let params = Some(self.read(rules));
+        match side {
+            Side::Negative => aging.neg_active_loss = params,
+            Side::Positive => aging.pos_active_loss = params,
+        }
+    }
+}
+
+/// `[negative.active_loss]` and `[positive.active_loss]`.
+pub const REGISTRATION: Registration = Registration {
+    table: Some("active_loss"),
+    models: "loss of active material",
+    sides: &[Side::Negative, Side::Positive],
+    laws: |a| {
+        let negative = a.neg_active_loss.map(|_| Box::new(ActiveLoss { side: Side::Negative }) as Box<dyn Mechanism>);
+        let positive = a.pos_active_loss.map(|_| Box::new(ActiveLoss { side: Side::Positive }) as Box<dyn Mechanism>);
+        negative.into_iter().chain(positive).collect()
+    },
+};
+
 #[derive(Debug, Clone, Copy)]
 pub struct ActiveLoss {
     pub side: Side,
-    pub params: ActiveLossParams,
 }
 
 impl Mechanism for ActiveLoss {
@@ -39,7 +103,11 @@ impl Mechanism for ActiveLoss {
     }
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
-        let Some(record) = context.record else { return };
+        let params = match self.side {
+            Side::Negative => &context.aging.neg_active_loss,
+            Side::Positive => &context.aging.pos_active_loss,
+        };
+        let (Some(record), Some(params)) = (context.record, params) else { return };
         let cell = context.cell;
         let (stress_of, lost, capacity): (fn(&crate::cycle::TracePoint) -> f64, f64, f64) = match self.side {
             Side::Negative => {
@@ -50,14 +118,14 @@ impl Mechanism for ActiveLoss {
             }
         };
         let Some(peak) = record.trace.iter().map(stress_of).max_by(f64::total_cmp) else { return };
-        let loss = loss_per_cycle(&self.params, peak, mean_temperature_k(record)) * (1.0 - lost);
+        let loss = loss_per_cycle(params, peak, mean_temperature_k(record)) * (1.0 - lost);
         // The lost material's lithium content: its stoichiometry weighted by the tensile stress
         // that breaks it, which varies smoothly with the state (an arg-max would jump).
         let stoich_of = |p: &crate::cycle::TracePoint| match self.side {
             Side::Negative => p.neg_mean_stoich,
             Side::Positive => p.pos_mean_stoich,
         };
-        let weight = |p: &crate::cycle::TracePoint| stress_of(p).max(0.0).powf(self.params.exponent);
+        let weight = |p: &crate::cycle::TracePoint| stress_of(p).max(0.0).powf(params.exponent);
         let total = super::trapezoid(&record.trace, weight);
         let stoich =
             if total > 0.0 { super::trapezoid(&record.trace, |p| weight(p) * stoich_of(p)) / total } else { 0.0 };

@@ -8,7 +8,8 @@
 //! of the range); R. Deshpande, M. Verbrugge, Y.-T. Cheng, J. Wang, P. Liu,
 //! J. Electrochem. Soc. 159 (2012) A1730 (Paris' law for electrode particles).
 
-use super::{crack_length_m, mean_temperature_k, AgingContext, AgingState, Component, CrackingParams, Mechanism, Side};
+use super::{crack_length_m, mean_temperature_k, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
+use crate::material::units::{KILO, NANO, PER_SQUARE_MICROMETRE};
 use crate::cycle::CycleRecord;
 use crate::material::arrhenius_factor;
 
@@ -56,11 +57,111 @@ pub fn growth_in_context(p: &CrackingParams, side: Side, context: &AgingContext,
     growth_per_cycle(p, crack, record_range(record, side), mean_temperature_k(record), radius)
 }
 
+/// Paris-law fatigue cracking of one electrode's particles.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CrackingParams {
+    /// Paris coefficient C in da/dN = C (ΔK)^m, m per cycle per (Pa·m^½)^m.
+    pub paris_coefficient: f64,
+    pub paris_exponent: f64,
+    /// Geometry factor Y of ΔK = Y Δσ √(πa) (about 1.12 for a surface crack).
+    pub geometry_factor: f64,
+    /// Threshold stress-intensity range below which cracks do not grow, Pa·m^½.
+    pub threshold_pa_sqrt_m: f64,
+    pub initial_length_m: f64,
+    /// Cracks per unit particle surface, 1/m².
+    pub density_per_m2: f64,
+    /// Width of one crack along the surface, m.
+    pub width_m: f64,
+    pub activation_j_mol: f64,
+    pub reference_temperature_k: f64,
+}
+
+/// `[negative.cracking]`, `[positive.cracking]` as written.
+#[derive(Debug, Default, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CrackingSection {
+    #[serde(default = "super::params::switched_on")]
+    pub enabled: bool,
+    paris_coefficient: Option<f64>,
+    paris_exponent: Option<f64>,
+    geometry_factor: Option<f64>,
+    threshold_kpa_sqrt_m: Option<f64>,
+    initial_length_nm: Option<f64>,
+    density_per_um2: Option<f64>,
+    width_nm: Option<f64>,
+    activation_kj_mol: Option<f64>,
+    reference_temperature_c: Option<f64>,
+}
+
+/// Y of ΔK = Y Δσ √(πa) for a shallow surface crack.
+const DEFAULT_GEOMETRY_FACTOR: f64 = 1.12;
+const NANOMETRES_PER_MICROMETRE: f64 = 1e3;
+
+impl CrackingSection {
+    /// The parameters in SI units, each value checked against its rule; a crack must start
+    /// shorter than the particle radius.
+    pub fn read(&self, rules: &mut dyn TableReader) -> CrackingParams {
+        let paris_coefficient = rules.positive("paris_coefficient", self.paris_coefficient);
+        let paris_exponent = rules.positive("paris_exponent", self.paris_exponent);
+        let geometry_factor = rules.optional_positive("geometry_factor", self.geometry_factor, DEFAULT_GEOMETRY_FACTOR);
+        let threshold_pa_sqrt_m = rules.non_negative("threshold_kpa_sqrt_m", self.threshold_kpa_sqrt_m) * KILO;
+        let initial_length_nm = rules.positive("initial_length_nm", self.initial_length_nm);
+        let radius_um = rules.particle_radius_um();
+        // Compared only when both are valid; a bad radius is reported at the electrode.
+        if initial_length_nm > 0.0
+            && radius_um > 0.0
+            && radius_um.is_finite()
+            && initial_length_nm >= radius_um * NANOMETRES_PER_MICROMETRE
+        {
+            rules.report(
+                "initial_length_nm",
+                format!("must be below the particle radius ({radius_um} µm), found {initial_length_nm} nm"),
+            );
+        }
+        CrackingParams {
+            paris_coefficient,
+            paris_exponent,
+            geometry_factor,
+            threshold_pa_sqrt_m,
+            initial_length_m: initial_length_nm * NANO,
+            density_per_m2: rules.non_negative("density_per_um2", self.density_per_um2) * PER_SQUARE_MICROMETRE,
+            width_m: rules.positive("width_nm", self.width_nm) * NANO,
+            activation_j_mol: rules.activation_j_mol("activation_kj_mol", self.activation_kj_mol),
+            reference_temperature_k: rules.reference_temperature_k(self.reference_temperature_c),
+        }
+    }
+}
+
+impl super::params::MechanismTable for CrackingSection {
+    fn enabled(&self) -> bool {
+        self.enabled
+    }
+
+    fn store(&self, rules: &mut dyn TableReader, side: Side, aging: &mut super::AgingParams) {
+        let params = Some(self.read(rules));
+        match side {
+            Side::Negative => aging.neg_cracking = params,
+            Side::Positive => aging.pos_cracking = params,
+        }
+    }
+}
+
+/// `[negative.cracking]` and `[positive.cracking]`.
+pub const REGISTRATION: Registration = Registration {
+    table: Some("cracking"),
+    models: "Paris-law cracking",
+    sides: &[Side::Negative, Side::Positive],
+    laws: |a| {
+        let negative = a.neg_cracking.map(|_| Box::new(Cracking { side: Side::Negative }) as Box<dyn Mechanism>);
+        let positive = a.pos_cracking.map(|_| Box::new(Cracking { side: Side::Positive }) as Box<dyn Mechanism>);
+        negative.into_iter().chain(positive).collect()
+    },
+};
+
 /// Paris-law cracking of one electrode's particles.
 #[derive(Debug, Clone, Copy)]
 pub struct Cracking {
     pub side: Side,
-    pub params: CrackingParams,
 }
 
 impl Mechanism for Cracking {
@@ -72,7 +173,12 @@ impl Mechanism for Cracking {
     }
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
-        let growth_nm = growth_in_context(&self.params, self.side, context, state) * 1e9;
+        let params = match self.side {
+            Side::Negative => &context.aging.neg_cracking,
+            Side::Positive => &context.aging.pos_cracking,
+        };
+        let Some(params) = params else { return };
+        let growth_nm = growth_in_context(params, self.side, context, state) * 1e9;
         match self.side {
             Side::Negative => rate[Component::NegCrackNm] += growth_nm,
             Side::Positive => rate[Component::PosCrackNm] += growth_nm,

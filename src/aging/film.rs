@@ -13,10 +13,11 @@
 //! H. J. Pinson, M. Z. Bazant, J. Electrochem. Soc. 160 (2013) A243; B. E. Deal, A. S. Grove,
 //! J. Appl. Phys. 36 (1965) 3770 (the integrated form).
 
-use super::{AgingContext, AgingState, Component, FilmParams, Mechanism};
+use super::{AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
 use crate::cycle::TracePoint;
 use crate::material::arrhenius_factor;
 use crate::material::constants::{FARADAY, GAS_CONSTANT};
+use crate::material::units::{CUBIC_CENTIMETRE, NANO};
 
 /// Reaction rate constant of film formation at potential φ (V vs Li/Li⁺) and temperature, m/s.
 pub fn reaction_rate(p: &FilmParams, potential_v: f64, temperature_k: f64) -> f64 {
@@ -76,11 +77,95 @@ fn trace_integral(p: &FilmParams, thickness_m: f64, trace: &[TracePoint]) -> f64
     super::trapezoid(trace, |t| flux(p, thickness_m, t.neg_potential_v, t.temperature_k))
 }
 
+/// Film (SEI) growth on the negative electrode by a mixed reaction / solvent-diffusion law.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FilmParams {
+    /// Reaction rate constant k at the reference potential and temperature, m/s.
+    pub reaction_rate_m_s: f64,
+    pub reaction_activation_j_mol: f64,
+    /// Diffusivity of solvent through the film, m²/s.
+    pub solvent_diffusivity_m2_s: f64,
+    pub solvent_diffusivity_activation_j_mol: f64,
+    /// Solvent concentration in the electrolyte at the film's outer surface, mol/m³.
+    pub solvent_concentration_mol_m3: f64,
+    /// Cathodic transfer coefficient of the film-forming reaction.
+    pub transfer_coefficient: f64,
+    /// Potential of the film-forming reaction against Li/Li⁺, V: below it the reaction speeds up.
+    pub reference_potential_v: f64,
+    /// Film volume formed per mole of lithium consumed, m³/mol.
+    pub molar_volume_m3_mol: f64,
+    /// Ionic conductivity of the film, S/m.
+    pub conductivity_s_m: f64,
+    /// Film thickness of the fresh cell, m.
+    pub initial_thickness_m: f64,
+    pub reference_temperature_k: f64,
+}
+
+/// `[negative.film]` as written (units in the key suffixes).
+#[derive(Debug, Default, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FilmSection {
+    #[serde(default = "super::params::switched_on")]
+    pub enabled: bool,
+    reaction_rate_m_s: Option<f64>,
+    reaction_activation_kj_mol: Option<f64>,
+    solvent_diffusivity_m2_s: Option<f64>,
+    solvent_diffusivity_activation_kj_mol: Option<f64>,
+    solvent_concentration_mol_m3: Option<f64>,
+    transfer_coefficient: Option<f64>,
+    reference_potential_v: Option<f64>,
+    molar_volume_cm3_mol: Option<f64>,
+    conductivity_s_m: Option<f64>,
+    initial_thickness_nm: Option<f64>,
+    reference_temperature_c: Option<f64>,
+}
+
+/// Film-forming reaction potential against Li/Li⁺ when the file gives none, V.
+const DEFAULT_REFERENCE_POTENTIAL_V: f64 = 0.4;
+
+impl FilmSection {
+    /// The parameters in SI units, each value checked against its rule.
+    pub fn read(&self, rules: &mut dyn TableReader) -> FilmParams {
+        let reference_potential_v = self.reference_potential_v.unwrap_or(DEFAULT_REFERENCE_POTENTIAL_V);
+        FilmParams {
+            reaction_rate_m_s: rules.positive("reaction_rate_m_s", self.reaction_rate_m_s),
+            reaction_activation_j_mol: rules.activation_j_mol("reaction_activation_kj_mol", self.reaction_activation_kj_mol),
+            solvent_diffusivity_m2_s: rules.positive("solvent_diffusivity_m2_s", self.solvent_diffusivity_m2_s),
+            solvent_diffusivity_activation_j_mol: rules
+                .activation_j_mol("solvent_diffusivity_activation_kj_mol", self.solvent_diffusivity_activation_kj_mol),
+            solvent_concentration_mol_m3: rules.positive("solvent_concentration_mol_m3", self.solvent_concentration_mol_m3),
+            transfer_coefficient: rules.transfer_coefficient(self.transfer_coefficient),
+            reference_potential_v: rules.finite("reference_potential_v", reference_potential_v),
+            molar_volume_m3_mol: rules.positive("molar_volume_cm3_mol", self.molar_volume_cm3_mol) * CUBIC_CENTIMETRE,
+            conductivity_s_m: rules.positive("conductivity_s_m", self.conductivity_s_m),
+            initial_thickness_m: rules.non_negative("initial_thickness_nm", self.initial_thickness_nm) * NANO,
+            reference_temperature_k: rules.reference_temperature_k(self.reference_temperature_c),
+        }
+    }
+}
+
+impl super::params::MechanismTable for FilmSection {
+    fn enabled(&self) -> bool {
+        self.enabled
+    }
+
+    fn store(&self, rules: &mut dyn TableReader, side: Side, aging: &mut super::AgingParams) {
+        let _ = side;
+        aging.film = Some(self.read(rules));
+    }
+}
+
+/// `[negative.film]`.
+pub const REGISTRATION: Registration = Registration {
+    table: Some("film"),
+    models: "film growth",
+    sides: &[Side::Negative],
+    laws: |a| a.film.map(|_| Box::new(FilmOnOriginalSurface) as Box<dyn Mechanism>).into_iter().collect(),
+};
+
 /// Film growth on the original surface of the negative electrode.
 #[derive(Debug, Clone, Copy)]
-pub struct FilmOnOriginalSurface {
-    pub params: FilmParams,
-}
+pub struct FilmOnOriginalSurface;
 
 impl Mechanism for FilmOnOriginalSurface {
     fn name(&self) -> &'static str {
@@ -88,7 +173,7 @@ impl Mechanism for FilmOnOriginalSurface {
     }
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
-        let p = &self.params;
+        let Some(p) = &context.aging.film else { return };
         let growth_m = growth_per_cycle(p, state[Component::FilmOriginalNm] * 1e-9, context);
         let area = super::negative_surfaces(context.cell, context.aging, state).original_m2;
         let lithium = growth_m / p.molar_volume_m3_mol * area * FARADAY / context.lithium_fresh_coulomb;

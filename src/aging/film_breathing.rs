@@ -17,7 +17,7 @@
 
 use super::film::growth_per_cycle;
 use super::{mean_temperature_k, negative_surfaces, AgingContext, AgingState, Component, Mechanism};
-use crate::aging::{FilmBreathingParams, FilmParams};
+use super::{Registration, Side, TableReader};
 use crate::material::arrhenius_factor;
 use crate::material::constants::FARADAY;
 
@@ -32,11 +32,72 @@ pub fn broken_fraction(p: &FilmBreathingParams, strain_swing: f64, temperature_k
     .min(1.0)
 }
 
-#[derive(Debug, Clone, Copy)]
-pub struct FilmBreathing {
-    pub params: FilmBreathingParams,
-    pub film: FilmParams,
+/// Film fracture by the breathing of the negative's host lattice: each cycle the particles
+/// swell and shrink with the swing of their lithium content, and a fraction
+/// k(T)·(Δε/ε_ref)^m of the original surface is laid bare and regrows film.
+/// Δε = Ω·c_max·Δθ is the volumetric strain swing of the cycle.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FilmBreathingParams {
+    /// Fraction of the surface laid bare per cycle at a strain swing of `reference_strain`.
+    pub rate_per_cycle: f64,
+    pub reference_strain: f64,
+    pub exponent: f64,
+    pub activation_j_mol: f64,
+    pub reference_temperature_k: f64,
 }
+
+/// `[negative.film_breathing]` as written.
+#[derive(Debug, Default, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FilmBreathingSection {
+    #[serde(default = "super::params::switched_on")]
+    pub enabled: bool,
+    rate_per_cycle: Option<f64>,
+    reference_strain: Option<f64>,
+    exponent: Option<f64>,
+    activation_kj_mol: Option<f64>,
+    reference_temperature_c: Option<f64>,
+}
+
+impl FilmBreathingSection {
+    /// The parameters in SI units, each value checked against its rule.
+    pub fn read(&self, rules: &mut dyn TableReader) -> FilmBreathingParams {
+        FilmBreathingParams {
+            rate_per_cycle: rules.non_negative("rate_per_cycle", self.rate_per_cycle),
+            reference_strain: rules.positive("reference_strain", self.reference_strain),
+            exponent: rules.positive("exponent", self.exponent),
+            activation_j_mol: rules.activation_j_mol("activation_kj_mol", self.activation_kj_mol),
+            reference_temperature_k: rules.reference_temperature_k(self.reference_temperature_c),
+        }
+    }
+}
+
+impl super::params::MechanismTable for FilmBreathingSection {
+    fn enabled(&self) -> bool {
+        self.enabled
+    }
+
+    fn store(&self, rules: &mut dyn TableReader, side: Side, aging: &mut super::AgingParams) {
+        let _ = side;
+        aging.film_breathing = Some(self.read(rules));
+    }
+}
+
+/// `[negative.film_breathing]`; regrowth follows the film law, so it needs `[negative.film]`.
+pub const REGISTRATION: Registration = Registration {
+    table: Some("film_breathing"),
+    models: "film fracture by lattice breathing",
+    sides: &[Side::Negative],
+    laws: |a| {
+        (a.film.is_some() && a.film_breathing.is_some())
+            .then(|| Box::new(FilmBreathing) as Box<dyn Mechanism>)
+            .into_iter()
+            .collect()
+    },
+};
+
+#[derive(Debug, Clone, Copy)]
+pub struct FilmBreathing;
 
 impl Mechanism for FilmBreathing {
     fn name(&self) -> &'static str {
@@ -44,7 +105,10 @@ impl Mechanism for FilmBreathing {
     }
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
-        let Some(record) = context.record else { return };
+        let (Some(record), Some(params), Some(film)) = (context.record, &context.aging.film_breathing, &context.aging.film)
+        else {
+            return;
+        };
         let (lo, hi) = record.trace.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), p| {
             (lo.min(p.neg_mean_stoich), hi.max(p.neg_mean_stoich))
         });
@@ -53,13 +117,13 @@ impl Mechanism for FilmBreathing {
         }
         let negative = &context.cell.negative;
         let strain = negative.partial_molar_volume_m3_mol * negative.max_concentration_mol_m3 * (hi - lo);
-        let fraction = broken_fraction(&self.params, strain, mean_temperature_k(record));
+        let fraction = broken_fraction(params, strain, mean_temperature_k(record));
         if fraction <= 0.0 {
             return;
         }
         let bared_m2 = fraction * negative_surfaces(context.cell, context.aging, state).original_m2;
-        let regrowth_m = growth_per_cycle(&self.film, 0.0, context);
-        let lithium = regrowth_m / self.film.molar_volume_m3_mol * bared_m2 * FARADAY / context.lithium_fresh_coulomb;
+        let regrowth_m = growth_per_cycle(film, 0.0, context);
+        let lithium = regrowth_m / film.molar_volume_m3_mol * bared_m2 * FARADAY / context.lithium_fresh_coulomb;
         // Film on the original surface, counted apart as regrown after fracture.
         rate.move_lithium(Component::LithiumFilmFracture, lithium);
     }

@@ -2,8 +2,10 @@
 //! mechanism that turns the record of one simulated cycle (and the idle time after it) into
 //! rates of change of that state per cycle.
 //!
-//! Adding a mechanism: one new file with a type implementing [`Mechanism`], its parameters in
-//! [`params`], and one line in [`mechanisms_for`].
+//! Adding a mechanism (DEVELOPERS.md has the recipe): one new file declaring its parameters,
+//! the cell-file table they are read from, its [`Mechanism`] and its registration; one line in
+//! [`REGISTRY`] and one field in [`AgingParams`]; a row in [`state::COMPONENTS`] if it has
+//! state of its own.
 
 pub mod active_loss;
 pub mod crack_film;
@@ -14,13 +16,60 @@ pub mod params;
 pub mod plating;
 pub mod state;
 
-pub use params::{
-    ActiveLossParams, AgingParams, CalibrationRange, CrackingParams, FilmBreathingParams, FilmParams, PlatingParams,
-};
+pub use active_loss::ActiveLossParams;
+pub use cracking::CrackingParams;
+pub use film::FilmParams;
+pub use film_breathing::FilmBreathingParams;
+pub use params::{CalibrationRange, MechanismTable, TableReader};
+pub use plating::PlatingParams;
 pub use state::{
     crack_length_m, film_resistance_ohm, health_of, negative_surfaces, AgingState, Component, ComponentSpec, Measure,
     PlotGroup, Surfaces, COMPONENTS, COMPONENT_COUNT,
 };
+
+/// Every aging law of a cell, with its parameters, stored once; `None` means switched off.
+/// One field per registered mechanism table and electrode.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct AgingParams {
+    pub film: Option<FilmParams>,
+    pub film_breathing: Option<FilmBreathingParams>,
+    pub neg_cracking: Option<CrackingParams>,
+    pub pos_cracking: Option<CrackingParams>,
+    pub plating: Option<PlatingParams>,
+    pub neg_active_loss: Option<ActiveLossParams>,
+    pub pos_active_loss: Option<ActiveLossParams>,
+}
+
+/// One mechanism as registered: the cell-file table its parameters come from (None for a law
+/// that follows from others), the electrodes it may sit under, and the laws it puts to work
+/// for a cell's parameters. The table itself is declared and read in the mechanism's file
+/// (its `…Section` type).
+#[derive(Clone, Copy)]
+pub struct Registration {
+    /// Table name under `[negative.…]` / `[positive.…]`.
+    pub table: Option<&'static str>,
+    /// What it models, in a few words (for messages about misplaced tables).
+    pub models: &'static str,
+    pub sides: &'static [Side],
+    /// The laws this registration switches on for a cell's parameters, in order.
+    pub laws: fn(&AgingParams) -> Vec<Box<dyn Mechanism>>,
+}
+
+/// Every mechanism, in the order their rates are added (which fixes the floating-point sums, so
+/// keep it: appending is safe).
+pub const REGISTRY: &[Registration] = &[
+    film::REGISTRATION,
+    crack_film::REGISTRATION,
+    film_breathing::REGISTRATION,
+    cracking::REGISTRATION,
+    plating::REGISTRATION,
+    active_loss::REGISTRATION,
+];
+
+/// The registration of a cell-file table, by its name.
+pub fn registration_of(table: &str) -> Option<&'static Registration> {
+    REGISTRY.iter().find(|r| r.table == Some(table))
+}
 
 use crate::cycle::{Cell, CycleRecord};
 
@@ -54,34 +103,9 @@ pub trait Mechanism: Send + Sync {
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState);
 }
 
-/// The mechanisms a cell's file switches on, in a fixed order.
+/// The mechanisms a cell's parameters switch on, in registry order.
 pub fn mechanisms_for(a: &AgingParams) -> Vec<Box<dyn Mechanism>> {
-    let mut list: Vec<Box<dyn Mechanism>> = Vec::new();
-    if let Some(p) = a.film {
-        list.push(Box::new(film::FilmOnOriginalSurface { params: p }));
-        if a.neg_cracking.is_some() {
-            list.push(Box::new(crack_film::FilmOnCrackSurface { film: p }));
-        }
-        if let Some(b) = a.film_breathing {
-            list.push(Box::new(film_breathing::FilmBreathing { params: b, film: p }));
-        }
-    }
-    if let Some(p) = a.neg_cracking {
-        list.push(Box::new(cracking::Cracking { side: Side::Negative, params: p }));
-    }
-    if let Some(p) = a.pos_cracking {
-        list.push(Box::new(cracking::Cracking { side: Side::Positive, params: p }));
-    }
-    if let Some(p) = a.plating {
-        list.push(Box::new(plating::Plating { params: p }));
-    }
-    if let Some(p) = a.neg_active_loss {
-        list.push(Box::new(active_loss::ActiveLoss { side: Side::Negative, params: p }));
-    }
-    if let Some(p) = a.pos_active_loss {
-        list.push(Box::new(active_loss::ActiveLoss { side: Side::Positive, params: p }));
-    }
-    list
+    REGISTRY.iter().flat_map(|r| (r.laws)(a)).collect()
 }
 
 /// ∫ f dt over a trace by the trapezoidal rule (each point's dt is the step that ended there).

@@ -9,7 +9,7 @@
 //! plating criterion, from memory); M. Petzl, M. A. Danzer, J. Power Sources 254 (2014) 80
 //! (reversible and irreversible plated lithium).
 
-use super::{negative_surfaces, AgingContext, AgingState, Component, Mechanism, PlatingParams};
+use super::{negative_surfaces, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
 use crate::cycle::TracePoint;
 use crate::material::arrhenius_factor;
 use crate::material::constants::{FARADAY, GAS_CONSTANT};
@@ -35,10 +35,66 @@ pub fn plated_charge(p: &PlatingParams, trace: &[TracePoint], area_m2: f64) -> f
     })
 }
 
-#[derive(Debug, Clone, Copy)]
-pub struct Plating {
-    pub params: PlatingParams,
+/// Lithium plating on the negative electrode (Butler–Volmer against Li/Li⁺).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PlatingParams {
+    /// Exchange current density of lithium deposition, A/m².
+    pub exchange_current_a_m2: f64,
+    pub activation_j_mol: f64,
+    pub transfer_coefficient: f64,
+    /// Fraction of plated lithium lost for good (the rest strips back).
+    pub irreversible_fraction: f64,
+    pub reference_temperature_k: f64,
 }
+
+/// `[negative.plating]` as written.
+#[derive(Debug, Default, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlatingSection {
+    #[serde(default = "super::params::switched_on")]
+    pub enabled: bool,
+    exchange_current_a_m2: Option<f64>,
+    activation_kj_mol: Option<f64>,
+    transfer_coefficient: Option<f64>,
+    irreversible_fraction: Option<f64>,
+    reference_temperature_c: Option<f64>,
+}
+
+impl PlatingSection {
+    /// The parameters in SI units, each value checked against its rule.
+    pub fn read(&self, rules: &mut dyn TableReader) -> PlatingParams {
+        let irreversible_fraction = rules.fraction("irreversible_fraction", self.irreversible_fraction);
+        PlatingParams {
+            exchange_current_a_m2: rules.positive("exchange_current_a_m2", self.exchange_current_a_m2),
+            activation_j_mol: rules.activation_j_mol("activation_kj_mol", self.activation_kj_mol),
+            transfer_coefficient: rules.transfer_coefficient(self.transfer_coefficient),
+            irreversible_fraction,
+            reference_temperature_k: rules.reference_temperature_k(self.reference_temperature_c),
+        }
+    }
+}
+
+impl super::params::MechanismTable for PlatingSection {
+    fn enabled(&self) -> bool {
+        self.enabled
+    }
+
+    fn store(&self, rules: &mut dyn TableReader, side: Side, aging: &mut super::AgingParams) {
+        let _ = side;
+        aging.plating = Some(self.read(rules));
+    }
+}
+
+/// `[negative.plating]`.
+pub const REGISTRATION: Registration = Registration {
+    table: Some("plating"),
+    models: "lithium plating",
+    sides: &[Side::Negative],
+    laws: |a| a.plating.map(|_| Box::new(Plating) as Box<dyn Mechanism>).into_iter().collect(),
+};
+
+#[derive(Debug, Clone, Copy)]
+pub struct Plating;
 
 impl Mechanism for Plating {
     fn name(&self) -> &'static str {
@@ -46,11 +102,11 @@ impl Mechanism for Plating {
     }
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
-        let Some(record) = context.record else { return };
+        let (Some(record), Some(params)) = (context.record, &context.aging.plating) else { return };
         let s = negative_surfaces(context.cell, context.aging, state);
         let plated =
-            plated_charge(&self.params, &record.trace, s.original_m2 + s.crack_m2) / context.lithium_fresh_coulomb;
-        let lost = plated * self.params.irreversible_fraction;
+            plated_charge(params, &record.trace, s.original_m2 + s.crack_m2) / context.lithium_fresh_coulomb;
+        let lost = plated * params.irreversible_fraction;
         rate[Component::PlatedTotal] += plated;
         rate.move_lithium(Component::LithiumPlatedDead, lost);
     }

@@ -7,14 +7,11 @@ use serde::Deserialize;
 use super::checks::Checks;
 use super::document::{check_shape, TomlDocument};
 use super::error::{first_problem, InputError};
-use super::mechanisms::{
-    convert_active_loss, convert_calibration, convert_cracking, convert_film, convert_film_breathing, convert_plating,
-    reject_on_positive, ActiveLossSection, CalibrationSection, CrackingSection, FilmBreathingSection, FilmSection,
-    PlatingSection, Surroundings,
-};
+use super::mechanisms::{convert_calibration, reject_on_positive, CalibrationSection, Surroundings, TableRules};
 use super::overrides::{Override, OverrideTarget};
 use super::suggest;
 use super::units::{CUBIC_CENTIMETRE, GIGA, KILO, MICRO, MILLI};
+use crate::aging::{self, MechanismTable};
 use crate::aging::{AgingParams, CalibrationRange};
 use crate::cycle::{Cell, Electrode};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
@@ -97,13 +94,13 @@ struct ElectrodeSection {
     youngs_modulus_gpa: f64,
     poisson_ratio: f64,
     partial_molar_volume_cm3_mol: f64,
-    // Aging-mechanism tables; film growth and plating are read on the negative electrode
-    // only, and rejected under the positive one.
-    film: Option<FilmSection>,
-    film_breathing: Option<FilmBreathingSection>,
-    cracking: Option<CrackingSection>,
-    plating: Option<PlatingSection>,
-    active_loss: Option<ActiveLossSection>,
+    // Aging-mechanism tables, each declared by its mechanism (`src/aging/`); one whose
+    // mechanism does not act on this electrode is rejected.
+    film: Option<aging::film::FilmSection>,
+    film_breathing: Option<aging::film_breathing::FilmBreathingSection>,
+    cracking: Option<aging::cracking::CrackingSection>,
+    plating: Option<aging::plating::PlatingSection>,
+    active_loss: Option<aging::active_loss::ActiveLossSection>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -131,6 +128,13 @@ enum Side {
 }
 
 impl Side {
+    fn of(side: aging::Side) -> Side {
+        match side {
+            aging::Side::Negative => Side::Negative,
+            aging::Side::Positive => Side::Positive,
+        }
+    }
+
     fn key(self) -> &'static str {
         match self {
             Side::Negative => "negative",
@@ -296,47 +300,50 @@ fn convert_electrode(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSec
     }
 }
 
-/// The mechanism tables under both electrodes; absent or switched-off ones become `None`.
+/// The mechanism tables under both electrodes, each read by its mechanism's own section type
+/// (`src/aging/`), in registry order; absent or switched-off ones stay `None`. A table its
+/// mechanism does not allow on an electrode is rejected there.
 fn convert_aging(checks: &mut Checks<'_>, file: &CellFile, reference_temperature_c: f64) -> AgingParams {
-    let (negative, positive) = (&file.negative, &file.positive);
-    let around = |section: &ElectrodeSection| Surroundings {
-        reference_temperature_c,
-        particle_radius_um: section.particle_radius_um,
+    let electrode = |side: aging::Side| match side {
+        aging::Side::Negative => &file.negative,
+        aging::Side::Positive => &file.positive,
     };
-    reject_on_positive(checks, "film", positive.film.is_some(), "film growth");
-    reject_on_positive(checks, "plating", positive.plating.is_some(), "lithium plating");
-    reject_on_positive(
-        checks,
-        "film_breathing",
-        positive.film_breathing.is_some(),
-        "film fracture by lattice breathing",
-    );
-    AgingParams {
-        film: negative.film.as_ref().and_then(|s| convert_film(checks, "negative.film", s, around(negative))),
-        film_breathing: negative
-            .film_breathing
-            .as_ref()
-            .and_then(|s| convert_film_breathing(checks, "negative.film_breathing", s, around(negative))),
-        neg_cracking: negative
-            .cracking
-            .as_ref()
-            .and_then(|s| convert_cracking(checks, "negative.cracking", s, around(negative))),
-        pos_cracking: positive
-            .cracking
-            .as_ref()
-            .and_then(|s| convert_cracking(checks, "positive.cracking", s, around(positive))),
-        plating: negative
-            .plating
-            .as_ref()
-            .and_then(|s| convert_plating(checks, "negative.plating", s, around(negative))),
-        neg_active_loss: negative
-            .active_loss
-            .as_ref()
-            .and_then(|s| convert_active_loss(checks, "negative.active_loss", s, around(negative))),
-        pos_active_loss: positive
-            .active_loss
-            .as_ref()
-            .and_then(|s| convert_active_loss(checks, "positive.active_loss", s, around(positive))),
+    for side in [aging::Side::Negative, aging::Side::Positive] {
+        for (table, _) in electrode(side).mechanism_tables().iter().filter(|(_, s)| s.is_some()) {
+            match aging::registration_of(table) {
+                Some(r) if !r.sides.contains(&side) => reject_on_positive(checks, table, true, r.models),
+                _ => {}
+            }
+        }
+    }
+    let mut aging = AgingParams::default();
+    for registration in aging::REGISTRY {
+        let Some(table) = registration.table else { continue };
+        for &side in registration.sides {
+            let section = electrode(side);
+            let found = section.mechanism_tables().into_iter().find(|(name, _)| *name == table).and_then(|(_, s)| s);
+            let Some(found) = found.filter(|s| s.enabled()) else { continue };
+            let key = format!("{}.{table}", Side::of(side).key());
+            let surroundings = Surroundings { reference_temperature_c, particle_radius_um: section.particle_radius_um };
+            found.store(&mut TableRules { checks: &mut *checks, table: &key, surroundings }, side, &mut aging);
+        }
+    }
+    aging
+}
+
+impl ElectrodeSection {
+    /// The mechanism tables this electrode may hold, by name; one line per mechanism table.
+    fn mechanism_tables(&self) -> [(&'static str, Option<&dyn MechanismTable>); 5] {
+        fn table<T: MechanismTable>(section: &Option<T>) -> Option<&dyn MechanismTable> {
+            section.as_ref().map(|s| s as &dyn MechanismTable)
+        }
+        [
+            ("film", table(&self.film)),
+            ("film_breathing", table(&self.film_breathing)),
+            ("cracking", table(&self.cracking)),
+            ("plating", table(&self.plating)),
+            ("active_loss", table(&self.active_loss)),
+        ]
     }
 }
 

@@ -24,7 +24,7 @@ mod series;
 mod suggest;
 mod template;
 mod uncertainty;
-mod units;
+use crate::material::units;
 
 use std::path::Path;
 

@@ -3,6 +3,7 @@
 pub mod arrhenius;
 pub mod constants;
 pub mod ocp;
+pub mod units;
 
 pub use arrhenius::arrhenius_factor;
 pub use ocp::{BuiltinOcp, OpenCircuit};
