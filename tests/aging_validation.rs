@@ -117,7 +117,13 @@ fn diffusion_limited_rest_aging_grows_as_the_square_root_of_time() {
     let horizon = curve.last().unwrap().0;
     let t = horizon / 4.0;
     let ratio = loss_at(&curve, horizon) / loss_at(&curve, t);
-    check_cases(&[ReferenceCase::new("film loss(4t)/loss(t)", DIFFUSION_LIMITED_FILM, Tolerance::Abs(0.04), ratio, 2.0)]);
+    check_cases(&[ReferenceCase::new(
+        "film loss(4t)/loss(t)",
+        DIFFUSION_LIMITED_FILM,
+        Tolerance::Abs(0.04),
+        ratio,
+        2.0,
+    )]);
 }
 
 #[test]
@@ -130,7 +136,13 @@ fn reaction_limited_rest_aging_is_linear_in_time() {
     ]);
     let horizon = curve.last().unwrap().0;
     let ratio = loss_at(&curve, horizon) / loss_at(&curve, horizon / 4.0);
-    check_cases(&[ReferenceCase::new("film loss(4t)/loss(t)", REACTION_LIMITED_FILM, Tolerance::Abs(0.08), ratio, 4.0)]);
+    check_cases(&[ReferenceCase::new(
+        "film loss(4t)/loss(t)",
+        REACTION_LIMITED_FILM,
+        Tolerance::Abs(0.08),
+        ratio,
+        4.0,
+    )]);
 }
 
 #[test]

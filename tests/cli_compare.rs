@@ -8,22 +8,19 @@
 //! checks a trend (the direction of an effect, "trend, common practice") or a ratio derived from
 //! the model's own law, with the derivation beside it.
 
-use assert_cmd::Command;
+mod common;
+
+use common::fadecast;
+
 use predicates::prelude::*;
 use std::collections::BTreeMap;
 use std::path::Path;
 
-const OVERNIGHT_SCENARIO: &str = "examples/van-fleet-overnight.toml";
-const BANDS_SCENARIO: &str = "examples/van-fleet-bands.toml";
-const OVERNIGHT: &str = "profiles/overnight-charge-1c-drive.toml";
-const FAST_2C: &str = "profiles/fast-charge-2c.toml";
-const MULTISTAGE: &str = "profiles/multistage-fast-charge.toml";
-
-fn fadecast() -> Command {
-    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
-    command.current_dir(env!("CARGO_MANIFEST_DIR"));
-    command
-}
+const OVERNIGHT_SCENARIO: &str = common::OVERNIGHT;
+const BANDS_SCENARIO: &str = common::BANDS;
+const OVERNIGHT: &str = common::PROFILE_OVERNIGHT;
+const FAST_2C: &str = common::PROFILE_FAST_2C;
+const MULTISTAGE: &str = common::PROFILE_MULTISTAGE;
 
 /// compare.csv or table.csv as rows of column → text.
 fn read_csv(path: &Path) -> Vec<BTreeMap<String, String>> {
@@ -357,17 +354,7 @@ fn a_narrower_state_of_charge_window_lasts_longer_in_equivalent_full_cycles() {
     let dir = tempfile::tempdir().unwrap();
     let rows = table(
         dir.path(),
-        &[
-            "examples/lab-cccv-1c.toml",
-            "--ambient-c",
-            "25",
-            "--c-rate",
-            "0.5",
-            "--soc-window",
-            "20-80,0-100",
-            "--cycles",
-            "1500",
-        ],
+        &[common::LAB, "--ambient-c", "25", "--c-rate", "0.5", "--soc-window", "20-80,0-100", "--cycles", "1500"],
     );
     let curve = |low: &str| -> Vec<(f64, f64)> {
         rows.iter()

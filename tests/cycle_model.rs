@@ -19,8 +19,7 @@ const LITHIUM_IN_A_CYCLE: &str = "lithium only moves between the electrodes with
      Dubarry et al. 2012; derived)";
 const LUMPED_COOLING: &str =
     "lumped capacitance T − T∞ = (T₀ − T∞) e^(−t/τ), τ = m c_p/(hA) (Incropera & DeWitt, ch. 5; derived)";
-const LUMPED_STEADY: &str =
-    "steady lumped balance: mean rise = mean heat / (hA) (Incropera & DeWitt, ch. 5; derived)";
+const LUMPED_STEADY: &str = "steady lumped balance: mean rise = mean heat / (hA) (Incropera & DeWitt, ch. 5; derived)";
 
 fn scenario(path: &str, overrides: &[&str]) -> Scenario {
     common::load(path, overrides).0

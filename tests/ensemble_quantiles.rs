@@ -3,15 +3,16 @@
 //! quantiles, within their Monte Carlo standard errors. The input's quantiles come from statrs'
 //! inverse distribution function (a general-purpose reference library).
 
+mod common;
+
 use fadecast::ensemble::{run_ensemble, summarize, Distribution, EnsembleConfig, Sampler, Sampling, Shard};
 use fadecast::ensemble::{UncertainParameter, UncertaintySpec};
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon, Threshold};
-use fadecast::input::{load_scenario, parse_override, Override};
+
 use statrs::distribution::{ContinuousCDF, LogNormal};
 use std::collections::BTreeSet;
-use std::path::Path;
 
-const SCENARIO: &str = "examples/lab-cccv-1c.toml";
+const SCENARIO: &str = common::LAB;
 const PATH: &str = "cell.negative.film.solvent_diffusivity_m2_s";
 /// A threshold the lab cell reaches well inside 3000 cycles.
 const THRESHOLD: &str = "end_of_life.capacity_pct=97";
@@ -19,10 +20,7 @@ const MEDIAN: f64 = 4.0e-22;
 const SIGMA_LN: f64 = 0.3;
 
 fn load_with(diffusivity: f64) -> Result<(fadecast::cycle::Scenario, fadecast::forecast::Plan), String> {
-    let overrides: Vec<Override> =
-        [THRESHOLD.to_string(), format!("{PATH}={diffusivity:e}")].iter().map(|o| parse_override(o).unwrap()).collect();
-    let loaded = load_scenario(Path::new(SCENARIO), &overrides).map_err(|e| e.to_string())?;
-    Ok((loaded.scenario, loaded.plan))
+    common::try_load(SCENARIO, &common::overrides(&[THRESHOLD, &format!("{PATH}={diffusivity:e}")]))
 }
 
 fn deterministic_life(diffusivity: f64, horizon: Horizon) -> f64 {
