@@ -10,7 +10,7 @@
 
 mod common;
 
-use common::fadecast;
+use common::{check_cases, fadecast, ReferenceCase, Tolerance};
 
 use predicates::prelude::*;
 use std::collections::BTreeMap;
@@ -264,7 +264,14 @@ fn higher_ambient_ages_the_film_dominated_cell_faster_by_the_square_root_of_the_
         a.1 + (throughput - a.0) / (b.0 - a.0) * (b.1 - a.1)
     };
     let ratio = loss_at(&warm) / loss_at(&cool);
-    assert!((ratio / expected - 1.0).abs() < 0.10, "loss ratio {ratio:.3}, expected √A_D = {expected:.3}");
+    check_cases(&[ReferenceCase::new(
+        "film loss at 40 °C over 25 °C at equal throughput",
+        "√A_D of the solvent diffusivity, diffusion-limited film growth (Ploehn, Ramadass, White, J. Electrochem. \
+         Soc. 151 (2004) A456; derived above)",
+        Tolerance::Rel(0.10),
+        ratio,
+        expected,
+    )]);
 }
 
 /// Runs a command that must fail as bad input: exit 2, one line naming `names`, nothing written.
