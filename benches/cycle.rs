@@ -2,17 +2,17 @@
 //! its periodic state (as the forecast runs it). Target (issue): ≤ 0.3 ms per simulated cycle
 //! on one core. Run: `cargo bench --bench cycle`.
 
+#[path = "../tests/common/cases.rs"]
+mod cases;
+
 use criterion::{criterion_group, criterion_main, Criterion};
 use fadecast::cycle::{
     balance_cell, simulate_cycle, simulate_periodic_with, CellModel, CycleRecord, CycleRun, Health, SolverSettings,
 };
 use std::hint::black_box;
-use std::path::Path;
 
 fn one_cycle(c: &mut Criterion) {
-    let loaded =
-        fadecast::input::load_scenario(Path::new("examples/lab-cccv-1c.toml"), &[]).expect("demo scenario loads");
-    let scenario = loaded.scenario;
+    let (scenario, _) = cases::load(cases::LAB, &[]);
     let health = Health::fresh(&scenario.cell);
     let settings = SolverSettings::default();
     let model = CellModel::new(&scenario.cell);

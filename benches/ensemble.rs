@@ -8,14 +8,13 @@
 //!
 //! Run: `cargo bench --bench ensemble` (about two minutes).
 
-use fadecast::ensemble::{run_ensemble, summarize, EnsembleConfig, SampleRecord, SampleStatus, Sampler, Shard};
-use fadecast::forecast::{report_grid, ForecastOptions, Horizon, LifeAt};
-use fadecast::input::{load_scenario, parse_override};
-use std::collections::BTreeSet;
-use std::path::Path;
-use std::time::Instant;
+#[path = "../tests/common/cases.rs"]
+mod cases;
 
-const SCENARIO: &str = "examples/van-fleet-bands.toml";
+use fadecast::ensemble::{run_ensemble, summarize, SampleRecord, SampleStatus};
+use fadecast::forecast::{report_grid, ForecastOptions, Horizon, LifeAt};
+use std::collections::BTreeSet;
+use std::time::Instant;
 
 /// Peak resident memory of this process so far, MB (Linux: VmHWM).
 fn peak_memory_mb() -> f64 {
@@ -28,27 +27,11 @@ fn peak_memory_mb() -> f64 {
 }
 
 fn timed_run(samples: u64, jobs: usize) -> (f64, Vec<SampleRecord>) {
-    let loaded = load_scenario(Path::new(SCENARIO), &[]).expect("demo loads");
-    let spec = loaded.uncertainty.clone();
-    let sampler = Sampler::new(&spec, 1, samples).expect("valid spec");
-    let config = EnsembleConfig {
-        samples,
-        seed: 1,
-        shard: Shard::WHOLE,
-        horizon: Horizon::Cycles(5000.0),
-        warranty: None,
-        options: ForecastOptions::default(),
-    };
-    let paths: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
-    let build = |values: &[f64]| {
-        let overrides: Vec<_> = paths
-            .iter()
-            .zip(values)
-            .map(|(p, v)| parse_override(&format!("{p}={v:e}")).map_err(|e| e.to_string()))
-            .collect::<Result<_, _>>()?;
-        let loaded = load_scenario(Path::new(SCENARIO), &overrides).map_err(|e| e.to_string())?;
-        Ok((loaded.scenario, loaded.plan))
-    };
+    // The bands demo as `bands` runs it, built as the tests build it (the jobs property).
+    let case = cases::EnsembleCase::bands_demo(&[]);
+    let sampler = case.sampler(1, samples);
+    let config = case.config(samples, 1, Horizon::Cycles(5000.0), ForecastOptions::default());
+    let build = |values: &[f64]| case.build(values);
     let start = Instant::now();
     let records = run_ensemble(&sampler, &config, &build, jobs, &BTreeSet::new(), &|_| {}).expect("pool starts");
     (start.elapsed().as_secs_f64(), records)
@@ -71,9 +54,10 @@ fn main() {
     );
 
     // Synthetic records of the real size: 101 reported points, six drawn values.
-    let loaded = load_scenario(Path::new(SCENARIO), &[]).unwrap();
-    let grid = report_grid(&loaded.plan, Horizon::Cycles(5000.0), &ForecastOptions::default()).unwrap();
-    let parameters: Vec<String> = loaded.uncertainty.parameters.iter().map(|p| p.path.clone()).collect();
+    let case = cases::EnsembleCase::bands_demo(&[]);
+    let (_, plan) = case.build(&[]).unwrap();
+    let grid = report_grid(&plan, Horizon::Cycles(5000.0), &ForecastOptions::default()).unwrap();
+    let parameters = case.paths.clone();
     let before = peak_memory_mb();
     let records: Vec<SampleRecord> = (0..100_000u64)
         .map(|i| {

@@ -2,21 +2,22 @@
 //! core), and the ratio of the every-cycle reference's time to the jumping time, both measured
 //! in this run (target ≥ 50×). Run: `cargo bench --bench forecast`.
 
+#[path = "../tests/common/cases.rs"]
+mod cases;
+
 use criterion::{criterion_group, criterion_main, Criterion};
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
 use std::hint::black_box;
-use std::path::Path;
 use std::time::Instant;
 
-const SCENARIO: &str = "examples/van-fleet-overnight.toml";
 const CYCLES: f64 = 5000.0;
 
 fn forecast(c: &mut Criterion) {
-    let loaded = fadecast::input::load_scenario(Path::new(SCENARIO), &[]).expect("demo scenario loads");
-    let (scenario, plan) = (loaded.scenario, loaded.plan);
+    // The overnight demo is one of the scenarios the every-cycle comparison test runs.
+    let (scenario, plan) = cases::load(cases::OVERNIGHT, &[]);
     let horizon = Horizon::Cycles(CYCLES);
     let jumping = ForecastOptions::default();
-    let every = ForecastOptions { every_cycle: true, ..ForecastOptions::default() };
+    let every = cases::every_cycle(ForecastOptions::default());
 
     // The ratio, from medians of repeated runs in this process.
     let time = |options: &ForecastOptions, runs: usize| {

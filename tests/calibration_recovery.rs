@@ -8,16 +8,18 @@
 //! whatever the data were generated with, chosen away from the files' values so the fit has to
 //! move.
 
+mod common;
+
 use fadecast::calibrate::{
     fit, Axis, Dataset, FitOptions, FitProblem, FitResult, FreeParameter, MeasuredPoint, Weights,
 };
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
-use fadecast::input::{load_scenario, parse_override, Override};
+use fadecast::input::{load_scenario, Override};
 use rand::distr::Distribution;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use statrs::distribution::Normal;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 const CAPACITY_NOISE_AH: f64 = 0.005;
 const RESISTANCE_NOISE_MOHM: f64 = 0.05;
@@ -37,9 +39,7 @@ struct Experiment {
 
 impl Experiment {
     fn overrides(&self, dataset: usize, values: &[f64]) -> Vec<Override> {
-        let mut o = vec![parse_override(&format!("ambient_c={}", self.temperatures_c[dataset])).unwrap()];
-        o.extend(self.paths.iter().zip(values).map(|(p, &v)| Override::number(p, v).unwrap()));
-        o
+        common::trial_overrides(self.temperatures_c[dataset], &[], &self.paths, values)
     }
 
     /// The model's values at the measurement points, noise-free.
@@ -162,10 +162,6 @@ fn errors_in_standard_errors(result: &FitResult, truth: &[f64]) -> Vec<f64> {
     result.parameters.iter().zip(truth).map(|(p, &t)| (p.value.ln() - t.ln()).abs() / p.sigma_ln.unwrap()).collect()
 }
 
-fn manifest(path: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(path)
-}
-
 /// The demo van cell's values (examples/cells/van-pouch-5ah.toml), where each fit starts.
 const DEMO_FILM_RATE: f64 = 4.7e-16;
 const DEMO_FILM_DIFFUSIVITY: f64 = 4.0e-22;
@@ -176,7 +172,7 @@ fn cycling_fit_recovers_film_rate_film_diffusion_and_paris_coefficient() {
     // Cracking grows only under cycling, so this one is the 1C/1C laboratory cycle (three a
     // day) for 500 cycles, at 25 and 45 °C, measured every 25 cycles.
     let experiment = Experiment {
-        scenario: manifest("examples/airport-tug-2c.toml"),
+        scenario: common::repo(common::TUG),
         temperatures_c: vec![25.0, 35.0],
         paths: vec![
             "cell.negative.film.reaction_rate_m_s",
@@ -216,7 +212,7 @@ fn standard_errors_agree_with_the_scatter_of_repeated_noisy_fits() {
     // 1800 days: cheap enough for many fits. Cracking does not grow at rest, so the Paris
     // coefficient's standard error is checked by the single cycling fit above instead.
     let experiment = Experiment {
-        scenario: manifest("examples/van-depot-storage.toml"),
+        scenario: common::repo(common::STORAGE),
         temperatures_c: vec![25.0, 40.0],
         paths: vec!["cell.negative.film.reaction_rate_m_s", "cell.negative.film.solvent_diffusivity_m2_s"],
         axis: Axis::Day,
@@ -254,7 +250,7 @@ fn paris_coefficient_standard_error_agrees_with_the_scatter_under_cycling() {
     // and 35 °C for 1500 cycles, measured every 75 cycles. The 24 fits run on the rayon pool.
     use rayon::prelude::*;
     let experiment = Experiment {
-        scenario: manifest("examples/airport-tug-2c.toml"),
+        scenario: common::repo(common::TUG),
         temperatures_c: vec![25.0, 35.0],
         paths: vec![
             "cell.negative.cracking.paris_coefficient",

@@ -1,17 +1,16 @@
 //! `fadecast bands` and `fadecast merge` through the real binary: reproducibility (thread
 //! count, shards, seed, interruption) and bad input.
 
-use assert_cmd::Command;
+mod common;
+
+use common::fadecast;
+
 use std::fs;
 use std::path::Path;
 
-const SCENARIO: &str = "examples/van-fleet-bands.toml";
+const SCENARIO: &str = common::BANDS;
 /// Outputs that must be identical byte for byte.
 const OUTPUTS: [&str; 5] = ["bands.csv", "samples.csv", "summary.json", "bands.svg", "sensitivity.svg"];
-
-fn fadecast() -> Command {
-    Command::cargo_bin("fadecast").expect("binary builds")
-}
 
 /// A short, cheap run: few samples, a short horizon.
 fn bands(out: &Path, extra: &[&str]) -> assert_cmd::assert::Assert {
@@ -93,8 +92,8 @@ fn a_killed_run_resumes_to_the_same_bytes() {
     full.assert().success();
 
     // Start the same run and kill it hard once a few samples are in its journal.
-    let binary = assert_cmd::cargo::cargo_bin("fadecast");
-    let mut child = std::process::Command::new(binary)
+    let mut child = std::process::Command::new(common::fadecast_binary())
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
         .args(args)
         .arg(&resumed)
         .stdout(std::process::Stdio::null())

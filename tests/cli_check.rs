@@ -1,14 +1,10 @@
 //! `fadecast check` on the demo inputs, driving the real binary.
 
-use assert_cmd::Command;
-use predicates::prelude::*;
+mod common;
 
-/// The binary, run from the repository root so demo paths read as in the README.
-fn fadecast() -> Command {
-    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
-    command.current_dir(env!("CARGO_MANIFEST_DIR"));
-    command
-}
+use common::fadecast;
+
+use predicates::prelude::*;
 
 fn ends_with_caution() -> impl Predicate<str> {
     predicate::function(|out: &str| out.trim_end().ends_with(fadecast::CAUTION))
@@ -16,7 +12,7 @@ fn ends_with_caution() -> impl Predicate<str> {
 
 #[test]
 fn cell_reports_capacities_and_balance() {
-    fadecast().args(["check", "examples/cells/van-pouch-5ah.toml"]).assert().success().stdout(
+    fadecast().args(["check", common::VAN_CELL]).assert().success().stdout(
         predicate::str::contains("negative electrode")
             .and(predicate::str::contains("positive electrode"))
             .and(predicate::str::contains("N/P capacity ratio"))
@@ -33,10 +29,10 @@ fn several_files_of_every_kind_in_one_run() {
     fadecast()
         .args([
             "check",
-            "examples/cells/ferry-prismatic-100ah.toml",
-            "profiles/fast-charge-2c.toml",
-            "profiles/multistage-fast-charge.toml",
-            "profiles/van-day.csv",
+            common::FERRY_CELL,
+            common::PROFILE_FAST_2C,
+            common::PROFILE_MULTISTAGE,
+            common::PROFILE_VAN_DAY,
         ])
         .assert()
         .success()
@@ -52,7 +48,7 @@ fn several_files_of_every_kind_in_one_run() {
 
 #[test]
 fn profile_steps_read_in_words() {
-    fadecast().args(["check", "profiles/overnight-charge-1c-drive.toml"]).assert().success().stdout(
+    fadecast().args(["check", common::PROFILE_OVERNIGHT]).assert().success().stdout(
         predicate::str::is_match(r"steps\s+\d+ after expanding repeats")
             .unwrap()
             .and(predicate::str::contains(" until ")),
@@ -61,7 +57,7 @@ fn profile_steps_read_in_words() {
 
 #[test]
 fn scenario_includes_its_cell_and_one_simulated_cycle() {
-    fadecast().args(["check", "examples/van-fleet-overnight.toml"]).assert().success().stdout(
+    fadecast().args(["check", common::OVERNIGHT]).assert().success().stdout(
         predicate::str::contains("scenario \"")
             .and(predicate::str::contains("balanced capacity"))
             .and(predicate::str::contains("One periodic cycle at beginning of life"))
@@ -73,7 +69,7 @@ fn scenario_includes_its_cell_and_one_simulated_cycle() {
 #[test]
 fn overrides_apply_before_and_after_the_command_name() {
     fadecast()
-        .args(["--set", "ambient_c=40", "check", "examples/van-fleet-overnight.toml"])
+        .args(["--set", "ambient_c=40", "check", common::OVERNIGHT])
         .args(["--set", "start_soc_pct=90"])
         .assert()
         .success()

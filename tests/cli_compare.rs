@@ -8,22 +8,19 @@
 //! checks a trend (the direction of an effect, "trend, common practice") or a ratio derived from
 //! the model's own law, with the derivation beside it.
 
-use assert_cmd::Command;
+mod common;
+
+use common::{check_cases, fadecast, ReferenceCase, Tolerance};
+
 use predicates::prelude::*;
 use std::collections::BTreeMap;
 use std::path::Path;
 
-const OVERNIGHT_SCENARIO: &str = "examples/van-fleet-overnight.toml";
-const BANDS_SCENARIO: &str = "examples/van-fleet-bands.toml";
-const OVERNIGHT: &str = "profiles/overnight-charge-1c-drive.toml";
-const FAST_2C: &str = "profiles/fast-charge-2c.toml";
-const MULTISTAGE: &str = "profiles/multistage-fast-charge.toml";
-
-fn fadecast() -> Command {
-    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
-    command.current_dir(env!("CARGO_MANIFEST_DIR"));
-    command
-}
+const OVERNIGHT_SCENARIO: &str = common::OVERNIGHT;
+const BANDS_SCENARIO: &str = common::BANDS;
+const OVERNIGHT: &str = common::PROFILE_OVERNIGHT;
+const FAST_2C: &str = common::PROFILE_FAST_2C;
+const MULTISTAGE: &str = common::PROFILE_MULTISTAGE;
 
 /// compare.csv or table.csv as rows of column → text.
 fn read_csv(path: &Path) -> Vec<BTreeMap<String, String>> {
@@ -267,7 +264,14 @@ fn higher_ambient_ages_the_film_dominated_cell_faster_by_the_square_root_of_the_
         a.1 + (throughput - a.0) / (b.0 - a.0) * (b.1 - a.1)
     };
     let ratio = loss_at(&warm) / loss_at(&cool);
-    assert!((ratio / expected - 1.0).abs() < 0.10, "loss ratio {ratio:.3}, expected √A_D = {expected:.3}");
+    check_cases(&[ReferenceCase::new(
+        "film loss at 40 °C over 25 °C at equal throughput",
+        "√A_D of the solvent diffusivity, diffusion-limited film growth (Ploehn, Ramadass, White, J. Electrochem. \
+         Soc. 151 (2004) A456; derived above)",
+        Tolerance::Rel(0.10),
+        ratio,
+        expected,
+    )]);
 }
 
 /// Runs a command that must fail as bad input: exit 2, one line naming `names`, nothing written.
@@ -357,17 +361,7 @@ fn a_narrower_state_of_charge_window_lasts_longer_in_equivalent_full_cycles() {
     let dir = tempfile::tempdir().unwrap();
     let rows = table(
         dir.path(),
-        &[
-            "examples/lab-cccv-1c.toml",
-            "--ambient-c",
-            "25",
-            "--c-rate",
-            "0.5",
-            "--soc-window",
-            "20-80,0-100",
-            "--cycles",
-            "1500",
-        ],
+        &[common::LAB, "--ambient-c", "25", "--c-rate", "0.5", "--soc-window", "20-80,0-100", "--cycles", "1500"],
     );
     let curve = |low: &str| -> Vec<(f64, f64)> {
         rows.iter()

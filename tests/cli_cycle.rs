@@ -1,16 +1,13 @@
 //! `fadecast cycle` on the demo scenario: the files it writes, its summary, and `--set`.
 
-use assert_cmd::Command;
+mod common;
+
+use common::fadecast;
+
 use predicates::prelude::*;
 use std::path::Path;
 
-const SCENARIO: &str = "examples/van-fleet-overnight.toml";
-
-fn fadecast() -> Command {
-    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
-    command.current_dir(env!("CARGO_MANIFEST_DIR"));
-    command
-}
+const SCENARIO: &str = common::OVERNIGHT;
 
 /// Runs `cycle` on the demo scenario with extra arguments, writing into `out`; returns stdout.
 fn run_cycle(out: &Path, extra: &[&str]) -> String {
@@ -101,7 +98,7 @@ fn series_held_back_at_the_voltage_limit_is_warned_about() {
     // cannot go in, so the cycle model must derate it and the summary must say so.
     let dir = tempfile::tempdir().unwrap();
     std::fs::write(dir.path().join("series.csv"), "time_s,current_a\n0,2.5\n3600,-5.0\n10800,0.0\n").unwrap();
-    let cell = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/cells/van-pouch-5ah.toml");
+    let cell = common::repo(common::VAN_CELL);
     let scenario = dir.path().join("scenario.toml");
     let text = format!("name = \"overcharge\"\ncell = {cell:?}\nprofile = \"series.csv\"\nambient_c = 25.0\n");
     std::fs::write(&scenario, text).unwrap();

@@ -1,18 +1,11 @@
 //! Bad input exits with code 2 and one line naming the file, and leaves no output behind.
 
-use assert_cmd::Command;
+mod common;
+
+use common::fadecast;
+
 use predicates::prelude::*;
 use std::path::{Path, PathBuf};
-
-fn fadecast() -> Command {
-    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
-    command.current_dir(env!("CARGO_MANIFEST_DIR"));
-    command
-}
-
-fn repo(path: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(path)
-}
 
 /// Exactly one non-empty line on stderr, containing every piece of `expected`.
 fn one_line_naming(expected: &'static [&'static str]) -> impl Predicate<str> {
@@ -26,8 +19,8 @@ fn one_line_naming(expected: &'static [&'static str]) -> impl Predicate<str> {
 fn scenario_copy(dir: &Path, extra: &str) -> PathBuf {
     let text = format!(
         "{extra}\nname = \"copy\"\ncell = {:?}\nprofile = {:?}\nambient_c = 25.0\n",
-        repo("examples/cells/van-pouch-5ah.toml"),
-        repo("profiles/overnight-charge-1c-drive.toml"),
+        common::repo(common::VAN_CELL),
+        common::repo(common::PROFILE_OVERNIGHT),
     );
     let path = dir.join("scenario.toml");
     std::fs::write(&path, text).unwrap();
@@ -85,7 +78,7 @@ fn unknown_key_in_a_file_exits_2_and_writes_nothing() {
 fn unknown_key_in_a_cell_file_names_file_and_key() {
     let dir = tempfile::tempdir().unwrap();
     let cell = dir.path().join("cell.toml");
-    let original = std::fs::read_to_string(repo("examples/cells/van-pouch-5ah.toml")).unwrap();
+    let original = std::fs::read_to_string(common::repo(common::VAN_CELL)).unwrap();
     std::fs::write(&cell, format!("capacity_typo_ah = 5.0\n{original}")).unwrap();
     fadecast().arg("check").arg(&cell).assert().code(2).stderr(one_line_naming(&["cell.toml", "capacity_typo_ah"]));
 }
@@ -95,7 +88,7 @@ fn unknown_override_key_exits_2() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
     fadecast()
-        .args(["cycle", "examples/van-fleet-overnight.toml", "--set", "ambiant_c=30", "--out"])
+        .args(["cycle", common::OVERNIGHT, "--set", "ambiant_c=30", "--out"])
         .arg(&out)
         .assert()
         .code(2)
@@ -106,7 +99,7 @@ fn unknown_override_key_exits_2() {
 #[test]
 fn malformed_override_exits_2() {
     fadecast()
-        .args(["check", "examples/van-fleet-overnight.toml", "--set", "ambient_c"])
+        .args(["check", common::OVERNIGHT, "--set", "ambient_c"])
         .assert()
         .code(2)
         .stderr(one_line_naming(&["--set"]));
@@ -121,7 +114,7 @@ fn bad_arguments_exit_2() {
 #[test]
 fn one_bad_file_among_good_ones_still_reports_the_good_ones() {
     fadecast()
-        .args(["check", "examples/cells/van-pouch-5ah.toml", "examples/no-such-cell.toml"])
+        .args(["check", common::VAN_CELL, "examples/no-such-cell.toml"])
         .assert()
         .code(2)
         .stdout(predicate::str::contains("balanced capacity"))

@@ -2,7 +2,10 @@
 //! bands from the fit's uncertainty.toml widening beyond the data, and bad data exiting 2 with
 //! the file and line named.
 
-use assert_cmd::Command;
+mod common;
+
+use common::fadecast;
+
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
 use fadecast::input::{load_scenario, parse_override};
 use rand::distr::Distribution;
@@ -12,15 +15,7 @@ use statrs::distribution::Normal;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
-fn manifest(path: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(path)
-}
-
-fn fadecast() -> Command {
-    Command::cargo_bin("fadecast").unwrap()
-}
-
-const STORAGE: &str = "examples/van-depot-storage.toml";
+const STORAGE: &str = common::STORAGE;
 /// Measured every 90 days for 1800 days.
 const DAYS: [f64; 20] = {
     let mut days = [0.0; 20];
@@ -40,7 +35,7 @@ fn storage_csv(ambient_c: f64, seed: u64) -> String {
         parse_override("cell.negative.film.reaction_rate_m_s=7.5e-16").unwrap(),
         parse_override("cell.negative.film.solvent_diffusivity_m2_s=2.8e-22").unwrap(),
     ];
-    let loaded = load_scenario(&manifest(STORAGE), &overrides).unwrap();
+    let loaded = load_scenario(&common::repo(STORAGE), &overrides).unwrap();
     let options = ForecastOptions { report_points: DAYS.len(), ..ForecastOptions::default() };
     let forecast = run_forecast(&loaded.scenario, &loaded.plan, Horizon::Years(1800.0 / 365.25), &options);
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
@@ -59,7 +54,7 @@ fn storage_csv(ambient_c: f64, seed: u64) -> String {
 
 /// A fit description over the two CSVs in `dir` with the given parameter entries.
 fn fit_toml(parameters: &str) -> String {
-    let scenario = manifest(STORAGE).display().to_string();
+    let scenario = common::repo(STORAGE).display().to_string();
     format!(
         "name = \"storage at two temperatures\"\nstarts = 2\n\n[weights]\ncapacity_per_ah = 200.0\nresistance_per_mohm = 20.0\n\n\
          [[dataset]]\nname = \"25 °C\"\ndata = \"storage-25c.csv\"\nscenario = \"{scenario}\"\nset = [\"ambient_c=25\"]\n\n\
@@ -111,7 +106,7 @@ fn fit_writes_its_outputs_and_its_uncertainty_gives_bands_that_widen_beyond_the_
     assert!(std::fs::read_to_string(&cell).unwrap().contains("[calibration]"));
     let set_cell = format!("cell={}", cell.display());
     let forecast = fadecast()
-        .args(["forecast", &manifest(STORAGE).display().to_string(), "--years", "10", "--set", &set_cell, "--out"])
+        .args(["forecast", &common::repo(STORAGE).display().to_string(), "--years", "10", "--set", &set_cell, "--out"])
         .arg(dir.path().join("forecast"))
         .assert()
         .success();
@@ -122,7 +117,7 @@ fn fit_writes_its_outputs_and_its_uncertainty_gives_bands_that_widen_beyond_the_
     // the end of the data (five years).
     let bands_dir = dir.path().join("bands");
     fadecast()
-        .args(["bands", &manifest(STORAGE).display().to_string(), "--samples", "40", "--years", "10", "--quiet"])
+        .args(["bands", &common::repo(STORAGE).display().to_string(), "--samples", "40", "--years", "10", "--quiet"])
         .args(["--jobs", "1", "--set", &set_cell, "--uncertainty"])
         .arg(out.join("uncertainty.toml"))
         .arg("--out")

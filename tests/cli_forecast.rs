@@ -2,16 +2,20 @@
 //! horizon flags, the every-cycle reference, warnings, bad input, and a forecast that fails
 //! part-way. Horizons are kept to a few hundred cycles so the whole file runs in seconds.
 
+mod common;
+
+use common::fadecast;
+
 use assert_cmd::Command;
 use predicates::prelude::*;
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 
-const OVERNIGHT: &str = "examples/van-fleet-overnight.toml";
-const WINTER_FAST_CHARGE: &str = "examples/van-fleet-winter-fast-charge.toml";
-const STORAGE: &str = "examples/van-depot-storage.toml";
+const OVERNIGHT: &str = common::OVERNIGHT;
+const WINTER_FAST_CHARGE: &str = common::WINTER_FAST_CHARGE;
+const STORAGE: &str = common::STORAGE;
 /// Three cycles a day, so cycles and days differ.
-const TUG: &str = "examples/airport-tug-2c.toml";
+const TUG: &str = common::TUG;
 
 const DAYS_PER_YEAR: f64 = 365.25;
 
@@ -35,17 +39,6 @@ const FADE_COLUMNS: [&str; 17] = [
     "neg_crack_nm",
     "peak_temperature_c",
 ];
-
-/// The binary, run from the repository root so demo paths read as in the README.
-fn fadecast() -> Command {
-    let mut command = assert_cmd::cargo::cargo_bin_cmd!("fadecast");
-    command.current_dir(env!("CARGO_MANIFEST_DIR"));
-    command
-}
-
-fn repo(path: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(path)
-}
 
 /// `fadecast forecast SCENARIO --out OUT EXTRA...`, not yet run.
 fn forecast_command(scenario: impl AsRef<Path>, out: &Path, extra: &[&str]) -> Command {
@@ -140,7 +133,7 @@ fn assert_rejected(scenario: impl AsRef<Path>, extra: &[&str], expected: &'stati
 fn write_scenario(dir: &Path, profile: &Path, sections: &str) -> PathBuf {
     let text = format!(
         "name = \"test scenario\"\ncell = {:?}\nprofile = {profile:?}\nambient_c = 25.0\n\n{sections}",
-        repo("examples/cells/van-pouch-5ah.toml"),
+        common::repo(common::VAN_CELL),
     );
     let path = dir.join("scenario.toml");
     std::fs::write(&path, text).unwrap();
@@ -148,7 +141,7 @@ fn write_scenario(dir: &Path, profile: &Path, sections: &str) -> PathBuf {
 }
 
 fn overnight_profile() -> PathBuf {
-    repo("profiles/overnight-charge-1c-drive.toml")
+    common::repo(common::PROFILE_OVERNIGHT)
 }
 
 #[test]

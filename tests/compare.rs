@@ -8,56 +8,30 @@
 //! runs (the variance-reduction technique treated in simulation textbooks, e.g. A. M. Law,
 //! *Simulation Modeling and Analysis*, chapter on variance-reduction techniques).
 
+mod common;
+
+use common::{EnsembleCase, PROFILE_FAST_2C, PROFILE_OVERNIGHT};
 use fadecast::compare::{run_comparison, summarize_comparison, Alternative, CompareConfig, Comparison};
-use fadecast::cycle::Scenario;
-use fadecast::ensemble::Sampler;
-use fadecast::forecast::{ForecastOptions, Horizon, Plan};
-use fadecast::input::{self, Override};
-use std::path::{Path, PathBuf};
+use fadecast::forecast::{ForecastOptions, Horizon};
+use fadecast::input::Override;
 
 const SAMPLES: u64 = 24;
 
-fn repo(path: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(path)
-}
-
-/// The overrides of one alternative: its profile, and an end of life that falls inside a short
-/// horizon for every sample.
-fn overrides_for(profile: &str) -> Vec<Override> {
-    let profile = repo(profile).display().to_string();
-    vec![
-        input::parse_override(&format!("profile={profile}")).unwrap(),
-        input::parse_override("end_of_life.capacity_pct=95").unwrap(),
-    ]
-}
-
-fn load(overrides: &[Override]) -> Result<(Scenario, Plan), String> {
-    input::load_scenario(&repo("examples/van-fleet-bands.toml"), overrides)
-        .map(|l| (l.scenario, l.plan))
-        .map_err(|e| e.to_string())
-}
-
-/// Runs `profiles` on `SAMPLES` samples drawn with `seed`.
+/// Runs `profiles` on `SAMPLES` samples drawn with `seed`, with an end of life that falls
+/// inside a short horizon for every sample.
 fn run(profiles: &[&str], seed: u64) -> Comparison {
-    let per_alternative: Vec<Vec<Override>> = profiles.iter().map(|p| overrides_for(p)).collect();
+    let case = EnsembleCase::bands_demo(&["end_of_life.capacity_pct=95"]);
+    let per_alternative: Vec<Vec<Override>> = profiles.iter().map(|p| vec![common::profile_override(p)]).collect();
     let alternatives: Vec<Alternative> = profiles
         .iter()
         .zip(&per_alternative)
         .map(|(name, o)| {
-            let (scenario, plan) = load(o).unwrap();
+            let (scenario, plan) = case.build_with(o, &[]).unwrap();
             Alternative { name: name.to_string(), scenario, plan }
         })
         .collect();
-    let spec = input::load_scenario(&repo("examples/van-fleet-bands.toml"), &[]).unwrap().uncertainty;
-    let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
-    let sampler = Sampler::new(&spec, seed, SAMPLES).unwrap();
-    let build = |alternative: usize, values: &[f64]| {
-        let mut overrides = per_alternative[alternative].clone();
-        for (path, value) in parameters.iter().zip(values) {
-            overrides.push(input::parse_override(&format!("{path}={value:e}")).map_err(|e| e.to_string())?);
-        }
-        load(&overrides)
-    };
+    let sampler = case.sampler(seed, SAMPLES);
+    let build = |alternative: usize, values: &[f64]| case.build_with(&per_alternative[alternative], values);
     let config = CompareConfig {
         samples: SAMPLES,
         horizon: Horizon::Cycles(2000.0),
@@ -87,8 +61,8 @@ fn standard_deviation(v: &[f64]) -> f64 {
 
 #[test]
 fn common_random_numbers_make_the_paired_difference_tighter_than_independent_runs() {
-    const OVERNIGHT: &str = "profiles/overnight-charge-1c-drive.toml";
-    const FAST: &str = "profiles/fast-charge-2c.toml";
+    const OVERNIGHT: &str = PROFILE_OVERNIGHT;
+    const FAST: &str = PROFILE_FAST_2C;
     let paired = run(&[OVERNIGHT, FAST], 1);
     let other_seed = run(&[FAST], 2);
     let (overnight, fast) = (lives(&paired, 0), lives(&paired, 1));
@@ -120,7 +94,7 @@ fn common_random_numbers_make_the_paired_difference_tighter_than_independent_run
 fn sample_i_uses_the_same_draw_in_every_alternative() {
     // With the same profile twice, common random numbers make the two alternatives identical
     // sample by sample: every paired difference is exactly zero.
-    const OVERNIGHT: &str = "profiles/overnight-charge-1c-drive.toml";
+    const OVERNIGHT: &str = PROFILE_OVERNIGHT;
     let c = run(&[OVERNIGHT, OVERNIGHT], 7);
     assert_eq!(lives(&c, 0), lives(&c, 1));
     let d = summarize_comparison(&c)[1].paired.unwrap();

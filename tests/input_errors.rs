@@ -4,6 +4,8 @@
 //! The numbers in the files below are arbitrary round values chosen for these tests; checks
 //! compare against the unit definitions, never against published data.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 
 use fadecast::cycle::{Drive, DutyCycle, SeriesSignal, StepEnd};
@@ -1418,7 +1420,7 @@ fn truncated_files_never_panic() {
 /// with aging mechanisms in its cell.
 #[test]
 fn demo_scenarios_load() {
-    let examples = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    let examples = common::repo("examples");
     let Ok(entries) = std::fs::read_dir(&examples) else {
         return;
     };
@@ -1474,17 +1476,14 @@ fn demo_scenarios_load() {
 
 #[test]
 fn film_breathing_table_loads_and_is_refused_on_the_positive() {
-    let loaded =
-        fadecast::input::load_scenario(std::path::Path::new("examples/van-fleet-overnight.toml"), &[]).unwrap();
+    let loaded = fadecast::input::load_scenario(&common::repo(common::OVERNIGHT), &[]).unwrap();
     let breathing = loaded.scenario.cell.aging.film_breathing.expect("on in the 5 Ah demo cell");
     assert_eq!(breathing.exponent, 4.0);
     assert!((breathing.activation_j_mol - 20e3).abs() < 1e-9);
     let off = fadecast::input::parse_override("cell.negative.film_breathing.enabled=false").unwrap();
-    let loaded =
-        fadecast::input::load_scenario(std::path::Path::new("examples/van-fleet-overnight.toml"), &[off]).unwrap();
+    let loaded = fadecast::input::load_scenario(&common::repo(common::OVERNIGHT), &[off]).unwrap();
     assert!(loaded.scenario.cell.aging.film_breathing.is_none());
     let misplaced = fadecast::input::parse_override("cell.positive.film_breathing.rate_per_cycle=0.1").unwrap();
-    let error = fadecast::input::load_scenario(std::path::Path::new("examples/van-fleet-overnight.toml"), &[misplaced])
-        .unwrap_err();
+    let error = fadecast::input::load_scenario(&common::repo(common::OVERNIGHT), &[misplaced]).unwrap_err();
     assert!(error.to_string().contains("positive.film_breathing"), "{error}");
 }

@@ -1,11 +1,15 @@
 //! Sphere diffusion and stress against closed-form solutions.
 //!
-//! Each case returns its reference values with the source beside them; one checker compares.
+//! Each check builds reference cases with the source beside each value; `common::check_cases`
+//! compares them all (record: docs/VALIDATION.md §1–2).
 //! Sources: J. Crank, *The Mathematics of Diffusion*, 2nd ed., Oxford (1975), ch. 6 (sphere
 //! solutions); stress: X. Zhang, W. Shyy, A. M. Sastry, J. Electrochem. Soc. 154 (2007) A910
 //! and Y.-T. Cheng, M. W. Verbrugge, J. Power Sources 190 (2009) 453 (quasi-steady magnitude
-//! ΩEJR/(15D(1−ν)), derived in shared VALIDATION.md §2).
+//! ΩEJR/(15D(1−ν)), derived from their stress integrals for the parabolic profile).
 
+mod common;
+
+use common::{check_cases, ReferenceCase, Tolerance};
 use fadecast::cycle::diffusion::{Boundary, ModeStep, SphereModes};
 use fadecast::cycle::stress::{centre_stress, face_stresses, surface_hoop_stress};
 
@@ -43,7 +47,8 @@ fn compute_tan_roots(count: usize) -> Vec<f64> {
 
 /// Crank (1975) eq. 6.18-type constant-flux series, normalised (c − c₀)·D/(J·R):
 /// 3τ + ρ²/2 − 3/10 − 2 Σ sin(λₙρ)/(ρ λₙ² sin λₙ) exp(−λₙ² τ), tan λₙ = λₙ.
-/// Marked "from memory" in VALIDATION.md: `constant_flux_series_meets_its_conditions` checks it.
+/// Recalled, not confirmed in the book ("from memory"): `constant_flux_series_meets_its_conditions`
+/// checks it against its own initial, mass-balance and boundary conditions first.
 fn crank_constant_flux(rho: f64, tau: f64) -> f64 {
     let roots = tan_roots();
     let series: f64 = roots
@@ -69,14 +74,6 @@ fn crank_fixed_surface_uptake(tau: f64) -> f64 {
     1.0 - 6.0 / pi2 * (1..400).map(|n| (-((n * n) as f64) * pi2 * tau).exp() / (n * n) as f64).sum::<f64>()
 }
 
-fn assert_relative(what: &str, computed: f64, reference: f64, tolerance: f64) {
-    let error = (computed - reference).abs() / reference.abs();
-    assert!(
-        error <= tolerance,
-        "{what}: computed {computed:.7}, reference {reference:.7}, relative error {error:.2e} > {tolerance:.0e}"
-    );
-}
-
 /// Runs a particle from a uniform zero state with a constant input to τ, in one exact step.
 fn run(boundary: Boundary, input: f64, tau: f64) -> (SphereModes, Vec<f64>) {
     run_on(SHELLS, boundary, input, tau)
@@ -91,13 +88,32 @@ fn run_on(shells: usize, boundary: Boundary, input: f64, tau: f64) -> (SphereMod
     (modes, q)
 }
 
+const CRANK_FLUX: &str = "Crank (1975) ch. 6, constant-flux sphere series (from memory; its conditions checked \
+     in constant_flux_series_meets_its_conditions)";
+const CRANK_FIXED: &str = "Crank (1975) ch. 6, fixed-surface-concentration sphere series (confirmed form)";
+const CRANK_CHECK_NUMBERS: &str =
+    "Crank (1975) ch. 6 series evaluated once: centre 0.8304935 at τ = 0.25, uptake 0.7704787 at τ = 0.1 (derived)";
+const QUASI_STEADY: &str = "|σ| = ΩEJR/(15D(1−ν)) at surface and centre, galvanostatic quasi-steady state (derived \
+     from Zhang, Shyy, Sastry 2007 and Cheng & Verbrugge 2009)";
+const RADIAL_FREE_SURFACE: &str = "σ_r(R) = 0, traction-free surface (Zhang, Shyy, Sastry 2007, derived)";
+const MASS_BALANCE: &str = "c̄ = c₀ + 3 J t / R, mass balance of the sphere (Crank 1975 ch. 6, derived)";
+
 #[test]
 fn constant_flux_series_meets_its_conditions() {
     // The recalled series must vanish at τ = 0 (c = c₀), conserve mass (c̄ = 3τ) and carry a
     // unit surface gradient; check those before trusting it as a reference.
-    for rho in [0.0, 0.3, 0.7, 1.0] {
-        assert!(crank_constant_flux(rho, 1e-7).abs() < 2e-3, "not zero at τ≈0, ρ={rho}");
-    }
+    let mut cases: Vec<ReferenceCase> = [0.0, 0.3, 0.7, 1.0]
+        .iter()
+        .map(|&rho| {
+            ReferenceCase::new(
+                format!("series at τ ≈ 0, ρ = {rho}"),
+                "initial condition c = c₀ of the constant-flux problem (Crank 1975 ch. 6)",
+                Tolerance::Abs(2e-3),
+                crank_constant_flux(rho, 1e-7),
+                0.0,
+            )
+        })
+        .collect();
     let tau = 0.1;
     let n = 4000;
     let mean: f64 = (0..n)
@@ -106,47 +122,109 @@ fn constant_flux_series_meets_its_conditions() {
             3.0 * rho * rho * crank_constant_flux(rho, tau) / n as f64
         })
         .sum();
-    assert_relative("series mean", mean, 3.0 * tau, 1e-4);
+    cases.push(ReferenceCase::new(
+        "series mean at τ = 0.1",
+        "mass balance c̄ D/(J R) = 3τ (Crank 1975 ch. 6, derived)",
+        Tolerance::Rel(1e-4),
+        mean,
+        3.0 * tau,
+    ));
     let h = 1e-5;
     let gradient = (crank_constant_flux(1.0, tau) - crank_constant_flux(1.0 - h, tau)) / h;
-    assert!((gradient - 1.0).abs() < 1e-3, "surface gradient {gradient}");
+    cases.push(ReferenceCase::new(
+        "series surface gradient at τ = 0.1",
+        "flux boundary condition D ∂c/∂r = J at r = R, unit in these variables (Crank 1975 ch. 6)",
+        Tolerance::Abs(1e-3),
+        gradient,
+        1.0,
+    ));
+    check_cases(&cases);
 }
 
 #[test]
 fn constant_flux_surface_and_centre_match_crank() {
     let flux = 1e-5; // mol/(m² s), into the particle
     let scale = flux * RADIUS_M / DIFFUSIVITY_M2_S;
+    let mut cases = Vec::new();
     for tau in [0.1, 0.25, 1.0] {
         let (modes, q) = run(Boundary::Flux, flux, tau);
         let surface = modes.surface(&q, flux, RADIUS_M, DIFFUSIVITY_M2_S) / scale;
         let centre = modes.centre(&q) / scale;
-        assert_relative(&format!("surface at τ={tau}"), surface, crank_constant_flux(1.0, tau), 1e-3);
-        assert_relative(&format!("centre at τ={tau}"), centre, crank_constant_flux(0.0, tau), 1e-3);
         let (coarse, q) = run_on(DEFAULT_SHELLS, Boundary::Flux, flux, tau);
-        let surface = coarse.surface(&q, flux, RADIUS_M, DIFFUSIVITY_M2_S) / scale;
-        assert_relative(&format!("default-grid surface at τ={tau}"), surface, crank_constant_flux(1.0, tau), 1e-3);
+        let coarse_surface = coarse.surface(&q, flux, RADIUS_M, DIFFUSIVITY_M2_S) / scale;
+        cases.extend([
+            ReferenceCase::new(
+                format!("surface at τ={tau}"),
+                CRANK_FLUX,
+                Tolerance::Rel(1e-3),
+                surface,
+                crank_constant_flux(1.0, tau),
+            ),
+            ReferenceCase::new(
+                format!("centre at τ={tau}"),
+                CRANK_FLUX,
+                Tolerance::Rel(1e-3),
+                centre,
+                crank_constant_flux(0.0, tau),
+            ),
+            ReferenceCase::new(
+                format!("default-grid surface at τ={tau}"),
+                CRANK_FLUX,
+                Tolerance::Rel(1e-3),
+                coarse_surface,
+                crank_constant_flux(1.0, tau),
+            ),
+        ]);
     }
+    check_cases(&cases);
 }
 
 #[test]
 fn fixed_surface_centre_and_uptake_match_crank() {
-    // Check numbers (VALIDATION.md §1, derived): centre 0.8304935 at τ = 0.25, uptake 0.7704787
-    // at τ = 0.1; the series functions reproduce them first.
-    assert!((crank_fixed_surface_centre(0.25) - 0.8304935).abs() < 1e-6);
-    assert!((crank_fixed_surface_uptake(0.1) - 0.7704787).abs() < 1e-6);
+    // The series functions reproduce the check numbers first.
+    let mut cases = vec![
+        ReferenceCase::new(
+            "series centre at τ = 0.25",
+            CRANK_CHECK_NUMBERS,
+            Tolerance::Abs(1e-6),
+            crank_fixed_surface_centre(0.25),
+            0.8304935,
+        ),
+        ReferenceCase::new(
+            "series uptake at τ = 0.1",
+            CRANK_CHECK_NUMBERS,
+            Tolerance::Abs(1e-6),
+            crank_fixed_surface_uptake(0.1),
+            0.7704787,
+        ),
+    ];
     for tau in [0.1, 0.25, 1.0] {
         let (modes, q) = run(Boundary::FixedConcentration, 1.0, tau);
-        assert_relative(&format!("centre at τ={tau}"), modes.centre(&q), crank_fixed_surface_centre(tau), 1e-3);
-        assert_relative(&format!("uptake at τ={tau}"), modes.mean(&q), crank_fixed_surface_uptake(tau), 1e-3);
+        cases.push(ReferenceCase::new(
+            format!("centre at τ={tau}"),
+            CRANK_FIXED,
+            Tolerance::Rel(1e-3),
+            modes.centre(&q),
+            crank_fixed_surface_centre(tau),
+        ));
+        cases.push(ReferenceCase::new(
+            format!("uptake at τ={tau}"),
+            CRANK_FIXED,
+            Tolerance::Rel(1e-3),
+            modes.mean(&q),
+            crank_fixed_surface_uptake(tau),
+        ));
     }
+    check_cases(&cases);
 }
 
 #[test]
 fn quasi_steady_stress_matches_closed_form() {
-    // Galvanostatic quasi-steady state (VALIDATION.md §2, derived): |σ| = ΩEJR/(15D(1−ν)) at
-    // surface and centre; surface compressive on insertion, tensile on extraction.
+    // Galvanostatic quasi-steady state: |σ| = ΩEJR/(15D(1−ν)) at surface and centre; surface
+    // compressive on insertion, tensile on extraction (Christensen & Newman 2006).
     let (omega, young, poisson) = (3.1e-6, 15e9, 0.3);
     let coefficient = omega * young / (3.0 * (1.0 - poisson));
+    let mut cases = Vec::new();
     for flux in [1e-5, -1e-5] {
         let (modes, q) = run(Boundary::Flux, flux, 1.0);
         let mean = modes.mean(&q);
@@ -154,22 +232,48 @@ fn quasi_steady_stress_matches_closed_form() {
         let expected = omega * young * flux.abs() * RADIUS_M / (15.0 * DIFFUSIVITY_M2_S * (1.0 - poisson));
         let at_surface = surface_hoop_stress(coefficient, mean, surface);
         let at_centre = centre_stress(coefficient, mean, modes.centre(&q));
-        assert_relative("surface stress", at_surface.abs(), expected, 1e-3);
-        assert_relative("centre stress", at_centre.abs(), expected, 1e-3);
         assert_eq!(at_surface < 0.0, flux > 0.0, "surface sign on flux {flux}");
         assert_eq!(at_centre > 0.0, flux > 0.0, "centre in tension on insertion");
-        // σ_r(R) = 0 from the profile integrals (Zhang et al. 2007).
         let faces = face_stresses(coefficient, &modes.shells(&q), modes.shell_volumes(), surface);
         let (radial_at_surface, hoop_at_surface) = *faces.last().unwrap();
-        assert!(radial_at_surface.abs() <= 1e-9 * expected, "σ_r(R) = {radial_at_surface}");
-        assert_relative("hoop from profile", hoop_at_surface, at_surface, 1e-9);
+        cases.extend([
+            ReferenceCase::new(
+                format!("|surface stress|, flux {flux:e}"),
+                QUASI_STEADY,
+                Tolerance::Rel(1e-3),
+                at_surface.abs(),
+                expected,
+            ),
+            ReferenceCase::new(
+                format!("|centre stress|, flux {flux:e}"),
+                QUASI_STEADY,
+                Tolerance::Rel(1e-3),
+                at_centre.abs(),
+                expected,
+            ),
+            ReferenceCase::new(
+                format!("σ_r(R) from the profile integrals, flux {flux:e}"),
+                RADIAL_FREE_SURFACE,
+                Tolerance::Abs(1e-9 * expected),
+                radial_at_surface,
+                0.0,
+            ),
+            ReferenceCase::new(
+                format!("σ_t(R) from the profile integrals against ΩE(c̄ − c_s)/(3(1−ν)), flux {flux:e}"),
+                "σ_t(R) = ΩE(c̄ − c_s)/(3(1−ν)) from the stress integrals (Zhang, Shyy, Sastry 2007, derived)",
+                Tolerance::Rel(1e-9),
+                hoop_at_surface,
+                at_surface,
+            ),
+        ]);
     }
+    check_cases(&cases);
 }
 
 #[test]
 fn lithium_is_conserved_over_many_steps() {
-    // Mass balance: the particle's content changes only by the flux through its surface;
-    // ≤ 1e-9 relative over a sequence of steps with changing flux and diffusivity.
+    // The particle's content changes only by the flux through its surface; ≤ 1e-9 relative
+    // over a sequence of steps with changing flux and diffusivity.
     let modes = SphereModes::new(16, Boundary::Flux);
     let mut q = modes.uniform(10_000.0);
     let mut step = ModeStep::default();
@@ -182,5 +286,11 @@ fn lithium_is_conserved_over_many_steps() {
         step.apply(&mut q, flux);
         expected += 3.0 * flux * dt / RADIUS_M;
     }
-    assert_relative("mean after 500 steps", modes.mean(&q), expected, 1e-9);
+    check_cases(&[ReferenceCase::new(
+        "mean after 500 steps",
+        MASS_BALANCE,
+        Tolerance::Rel(1e-9),
+        modes.mean(&q),
+        expected,
+    )]);
 }

@@ -144,7 +144,7 @@ mod tests {
 
     #[test]
     fn doubling_the_stress_multiplies_the_loss_by_two_to_the_m() {
-        // Quasi-steady stress is proportional to current (VALIDATION.md §2, §8, derived).
+        // Quasi-steady stress is proportional to current (docs/VALIDATION.md §2, §9, derived).
         let p = ActiveLossParams {
             rate_per_cycle: 1e-5,
             critical_stress_pa: 10e6,

@@ -223,7 +223,7 @@ mod tests {
 
     #[test]
     fn arrhenius_scaling_of_the_paris_coefficient() {
-        // Rate ratio between two temperatures equals the Arrhenius factor (VALIDATION.md §5).
+        // Rate ratio between two temperatures equals the Arrhenius factor (docs/VALIDATION.md §6).
         let p = params();
         let ratio = growth_per_cycle(&p, 50e-9, 8e6, 318.15, 5e-6) / growth_per_cycle(&p, 50e-9, 8e6, 298.15, 5e-6);
         assert!((ratio - arrhenius_factor(30e3, 318.15, 298.15)).abs() < 1e-12);

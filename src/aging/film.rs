@@ -204,7 +204,7 @@ mod tests {
 
     #[test]
     fn each_limit_scales_with_its_own_arrhenius_factor() {
-        // VALIDATION.md §5: a thin film grows at the reaction rate (activation of k), a thick one
+        // Mixed control (docs/VALIDATION.md §5): a thin film grows at the reaction rate (activation of k), a thick one
         // at the solvent-diffusion rate (activation of D_sol).
         let p = params();
         let (cold, hot, phi) = (298.15, 318.15, 0.4);

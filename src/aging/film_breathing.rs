@@ -145,7 +145,7 @@ mod tests {
 
     #[test]
     fn scales_as_the_strain_swing_to_the_m_and_with_arrhenius() {
-        // The law's own scaling (derived) and VALIDATION.md §5 for temperature.
+        // The law's own scaling (derived) and the Arrhenius factor for temperature (docs/VALIDATION.md §6).
         let p = params();
         let ratio = broken_fraction(&p, 0.08, 298.15) / broken_fraction(&p, 0.04, 298.15);
         assert!((ratio - 8.0).abs() < 1e-12);

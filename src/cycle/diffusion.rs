@@ -279,7 +279,7 @@ mod tests {
 
     #[test]
     fn mean_rises_by_three_j_t_over_r() {
-        // Mass balance (VALIDATION.md §1, derived): c̄ = c₀ + 3 J t / R.
+        // Mass balance (Crank 1975, ch. 6; docs/VALIDATION.md §1, derived): c̄ = c₀ + 3 J t / R.
         let modes = SphereModes::new(16, Boundary::Flux);
         let (r, d, j, t) = (5e-6, 1e-14, 1e-5, 300.0);
         let mut q = modes.uniform(100.0);

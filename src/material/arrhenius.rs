@@ -21,14 +21,14 @@ mod tests {
 
     #[test]
     fn doubling_from_25_to_35_c() {
-        // Derived in shared VALIDATION.md §5: 52.9 kJ/mol doubles a rate from 25 °C to 35 °C.
+        // Derived from k ∝ exp(−E/(RT)) (docs/VALIDATION.md §6): 52.9 kJ/mol doubles a rate from 25 °C to 35 °C.
         let f = arrhenius_factor(52.9e3, 308.15, 298.15);
         assert!((f - 2.0).abs() < 2e-3, "factor {f}");
     }
 
     #[test]
     fn factors_for_31_7_kj_mol() {
-        // Derived (VALIDATION.md §5): 31.7 kJ/mol gives 1.514 (25→35 °C) and 2.234 (25→45 °C).
+        // Derived (docs/VALIDATION.md §6): 31.7 kJ/mol gives 1.514 (25→35 °C) and 2.234 (25→45 °C).
         assert!((arrhenius_factor(31.7e3, 308.15, 298.15) - 1.514).abs() < 1e-3);
         assert!((arrhenius_factor(31.7e3, 318.15, 298.15) - 2.234).abs() < 1e-3);
     }
