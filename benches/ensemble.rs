@@ -71,7 +71,7 @@ fn main() {
                 soh_at_horizon_pct: 75.0 + 5.0 * wobble,
                 resistance_growth_at_horizon_pct: 30.0,
                 soh_at_warranty_pct: 80.0,
-                plating: false,
+                warnings: Default::default(),
                 curves: (0..grid.len())
                     .map(|k| {
                         [5.0 - k as f32 * 0.01, 100.0 - k as f32 * 0.2 * (1.0 + wobble as f32), 16.0 + k as f32 * 0.05]

@@ -8,7 +8,7 @@ use common::{check_cases, load, ReferenceCase, Tolerance, LAB, STORAGE};
 use fadecast::aging::active_loss::loss_per_cycle;
 use fadecast::aging::cracking::{record_range, tensile_range};
 use fadecast::aging::plating::plated_charge;
-use fadecast::aging::{mean_temperature_k, AgingState, Side};
+use fadecast::aging::{mean_temperature_k, AgingState, Component, Side};
 use fadecast::cycle::*;
 use fadecast::forecast::{run_forecast, Forecast, ForecastOptions, Horizon};
 use fadecast::material::{arrhenius_factor, OpenCircuit};
@@ -48,7 +48,7 @@ fn crack_length_follows_the_closed_form_paris_integral() {
     // Closed form at constant Δσ (derived from Paris & Erdogan 1963), m ≠ 2:
     // a(N) = [a₀^(1−m/2) + (1 − m/2) C (Y Δσ √π)^m N]^(1/(1−m/2)).
     let (scenario, plan) = load(LAB, &CRACKING_ONLY);
-    let p = scenario.cell.aging.neg_cracking.unwrap();
+    let p = plan.aging.neg_cracking.unwrap();
     // With nothing else aging, every cycle is the periodic fresh cycle: Δσ and T are constant.
     let record =
         simulate_periodic_cycle(&scenario, &Health::fresh(&scenario.cell), &SolverSettings::default()).unwrap();
@@ -72,7 +72,7 @@ fn crack_length_follows_the_closed_form_paris_integral() {
                 format!("crack length at cycle {}, nm", point.cycle),
                 PARIS_CLOSED_FORM,
                 Tolerance::Rel(1e-4),
-                point.neg_crack_nm,
+                point.state[Component::NegCrackNm],
                 closed(point.cycle) * 1e9,
             )
         })
@@ -81,9 +81,9 @@ fn crack_length_follows_the_closed_form_paris_integral() {
     check_cases(&cases);
     let last = f.points.last().unwrap();
     assert!(
-        last.neg_crack_nm > 1.5 * p.initial_length_m * 1e9,
+        last.state[Component::NegCrackNm] > 1.5 * p.initial_length_m * 1e9,
         "the check needs visible growth: {}",
-        last.neg_crack_nm
+        last.state[Component::NegCrackNm]
     );
 }
 
@@ -94,14 +94,14 @@ fn no_crack_growth_below_the_threshold() {
     overrides.push("cell.negative.cracking.threshold_kpa_sqrt_m=50");
     let f = forecast(LAB, &overrides, ForecastOptions::default());
     for p in &f.points {
-        assert_eq!(p.neg_crack_nm, 20.0, "cycle {}", p.cycle);
+        assert_eq!(p.state[Component::NegCrackNm], 20.0, "cycle {}", p.cycle);
     }
 }
 
 /// Storage-only forecast with only the film law, returning (day, lithium lost to film).
 fn storage_film_loss(overrides: &[&str]) -> Vec<(f64, f64)> {
     let f = forecast(STORAGE, overrides, ForecastOptions { relative_tolerance: 1e-7, ..ForecastOptions::default() });
-    f.points.iter().map(|p| (p.day, p.lithium_film_original_pct)).collect()
+    f.points.iter().map(|p| (p.day, 100.0 * p.state[Component::LithiumFilmOriginal])).collect()
 }
 
 fn loss_at(curve: &[(f64, f64)], day: f64) -> f64 {
@@ -153,7 +153,7 @@ fn lithium_is_conserved_over_3000_cycles() {
     for path in [LAB, common::WINTER_FAST_CHARGE, common::TUG] {
         let f = forecast(path, &[], ForecastOptions::default());
         let state: AgingState = f.final_state.unwrap();
-        assert!(state.lithium_inventory < 0.99, "{path}: the check needs real losses");
+        assert!(state[Component::LithiumInventory] < 0.99, "{path}: the check needs real losses");
         cases.push(ReferenceCase::new(
             format!("{path}: lithium total after 3000 cycles, of fresh"),
             CONSERVATION,
@@ -253,8 +253,8 @@ fn no_plating_at_zero_current_and_onset_falls_with_temperature() {
     // 3543 (from memory: the negative's potential against Li/Li⁺ below 0 V): no plating at zero
     // current; the charge current at which the negative first goes below lithium falls as
     // the cell gets colder.
-    let (scenario, _) = load(LAB, &[]);
-    let params = scenario.cell.aging.plating.unwrap();
+    let (scenario, plan) = load(LAB, &[]);
+    let params = plan.aging.plating.unwrap();
     let charge_record = |rate_c: f64, ambient_c: f64| {
         let mut s = scenario.clone();
         s.ambient_k = ambient_c + 273.15;
@@ -304,8 +304,8 @@ fn no_plating_at_zero_current_and_onset_falls_with_temperature() {
 fn active_material_loss_per_cycle_scales_as_two_to_the_m_with_doubled_current() {
     // Quasi-steady surface stress is proportional to current (derived from the stress integrals
     // of Zhang, Shyy, Sastry 2007), so the per-cycle loss law k(σ_h/σ_c)^m gives 2^m.
-    let (scenario, _) = load(LAB, &[]);
-    let params = scenario.cell.aging.neg_active_loss.unwrap();
+    let (scenario, plan) = load(LAB, &[]);
+    let params = plan.aging.neg_active_loss.unwrap();
     let peak_stress = |rate_c: f64| {
         let mut s = scenario.clone();
         let c = s.cell.nominal_capacity_coulomb / 3600.0;

@@ -98,7 +98,7 @@ impl Experiment {
             let loaded = load_scenario(&self.scenario, &self.overrides(d, values)).map_err(|e| e.to_string())?;
             Ok((loaded.scenario, loaded.plan))
         };
-        let options = FitOptions { starts: 1, forecast: self.forecast, curve_points: 20 };
+        let options = FitOptions { starts: 1, forecast: self.forecast, curve_points: 20, ..FitOptions::default() };
         fit(&problem, &source, &options).unwrap()
     }
 }
@@ -132,7 +132,7 @@ impl Experiment {
             let loaded = load_scenario(&self.scenario, &self.overrides(d, &all)).map_err(|e| e.to_string())?;
             Ok((loaded.scenario, loaded.plan))
         };
-        let options = FitOptions { starts: 1, forecast: self.forecast, curve_points: 20 };
+        let options = FitOptions { starts: 1, forecast: self.forecast, curve_points: 20, ..FitOptions::default() };
         fit(&problem, &source, &options).unwrap()
     }
 }

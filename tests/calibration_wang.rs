@@ -114,6 +114,7 @@ fn fit_to_the_first_40_percent_forecasts_the_rest_within_one_point_of_health() {
         starts: 1,
         forecast: ForecastOptions { every_cycle: false, report_points: 60, relative_tolerance: 1e-5 },
         curve_points: 60,
+        ..FitOptions::default()
     };
     let started = std::time::Instant::now();
     let result = fit(&problem, &source, &options).unwrap();

@@ -141,7 +141,7 @@ fn a_limit_exceeded_by_one_alternative_is_printed_naming_it() {
     let args =
         [OVERNIGHT_SCENARIO, "--variant", "hard drive: profile.block.0.step.0.discharge_c=3.5", "--cycles", "100"];
     let (stdout, _) = compare(dir.path(), &args);
-    assert!(stdout.contains("\"hard drive\": the profile discharges at"), "{stdout}");
+    assert!(stdout.contains("\"hard drive\": WARNING: the profile discharges at"), "{stdout}");
     assert!(stdout.trim_end().ends_with(fadecast::CAUTION));
 }
 

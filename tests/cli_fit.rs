@@ -111,7 +111,7 @@ fn fit_writes_its_outputs_and_its_uncertainty_gives_bands_that_widen_beyond_the_
         .assert()
         .success();
     let stdout = String::from_utf8_lossy(&forecast.get_output().stdout).to_string();
-    assert!(stdout.contains("beyond the aging data the parameters were calibrated on"), "{stdout}");
+    assert!(stdout.contains("beyond the calibration range"), "{stdout}");
 
     // Bands from the fit's uncertainty: no spread at the start, and wider at ten years than at
     // the end of the data (five years).

@@ -6,6 +6,8 @@
 mod common;
 
 use common::{check_cases, every_cycle, ReferenceCase, Tolerance, CYCLING_DEMOS, LAB, STORAGE, TUG};
+use fadecast::aging::Component;
+use fadecast::forecast::WarningKind;
 use fadecast::forecast::{run_forecast, FadePoint, Forecast, ForecastOptions, Horizon, StopReason};
 
 fn forecast_with(path: &str, overrides: &[&str], horizon: Option<Horizon>, options: ForecastOptions) -> Forecast {
@@ -28,20 +30,25 @@ fn a_hotter_ambient_grows_film_faster() {
     let mild = last(LAB, &[]);
     let hot = last(LAB, &["ambient_c=40"]);
     assert!(
-        hot.lithium_film_original_pct > 1.2 * mild.lithium_film_original_pct,
+        hot.state[Component::LithiumFilmOriginal] > 1.2 * mild.state[Component::LithiumFilmOriginal],
         "{} vs {}",
-        hot.lithium_film_original_pct,
-        mild.lithium_film_original_pct
+        hot.state[Component::LithiumFilmOriginal],
+        mild.state[Component::LithiumFilmOriginal]
     );
-    assert!(hot.film_original_nm > mild.film_original_nm);
+    assert!(hot.state[Component::FilmOriginalNm] > mild.state[Component::FilmOriginalNm]);
 }
 
 #[test]
 fn a_higher_c_rate_cracks_more_and_grows_more_film_on_cracks() {
     let gentle = last(LAB, &[]);
     let hard = last(LAB, &["profile.block.0.step.0.discharge_c=2"]);
-    assert!(hard.neg_crack_nm > 2.0 * gentle.neg_crack_nm, "{} vs {} nm", hard.neg_crack_nm, gentle.neg_crack_nm);
-    assert!(hard.lithium_film_crack_pct > 2.0 * gentle.lithium_film_crack_pct);
+    assert!(
+        hard.state[Component::NegCrackNm] > 2.0 * gentle.state[Component::NegCrackNm],
+        "{} vs {} nm",
+        hard.state[Component::NegCrackNm],
+        gentle.state[Component::NegCrackNm]
+    );
+    assert!(hard.state[Component::LithiumFilmCrack] > 2.0 * gentle.state[Component::LithiumFilmCrack]);
 }
 
 #[test]
@@ -52,8 +59,8 @@ fn small_particles_do_not_crack() {
     // particle size for fracture).
     let f = forecast_with(LAB, &["cell.negative.particle_radius_um=1"], None, ForecastOptions::default());
     for p in &f.points {
-        assert_eq!(p.neg_crack_nm, 20.0, "cycle {}", p.cycle);
-        assert_eq!(p.lithium_film_crack_pct, 0.0);
+        assert_eq!(p.state[Component::NegCrackNm], 20.0, "cycle {}", p.cycle);
+        assert_eq!(p.state[Component::LithiumFilmCrack], 0.0);
     }
 }
 
@@ -61,11 +68,14 @@ fn small_particles_do_not_crack() {
 fn a_cold_fast_charge_plates_and_says_so() {
     let f = forecast_with(common::WINTER_FAST_CHARGE, &[], None, ForecastOptions::default());
     let end = f.points.last().unwrap();
-    assert!(end.lithium_plating_pct > 0.0 && end.plated_total_pct > end.lithium_plating_pct);
-    assert!(f.warnings.iter().any(|w| w.contains("plating")), "{:?}", f.warnings);
+    assert!(
+        end.state[Component::LithiumPlatedDead] > 0.0
+            && end.state[Component::PlatedTotal] > end.state[Component::LithiumPlatedDead]
+    );
+    assert!(f.warning_set().contains(WarningKind::Plating), "{:?}", f.warnings);
     let warm = forecast_with(common::FAST_CHARGE, &[], None, ForecastOptions::default());
-    assert_eq!(warm.points.last().unwrap().plated_total_pct, 0.0);
-    assert!(!warm.warnings.iter().any(|w| w.contains("plating")));
+    assert_eq!(warm.points.last().unwrap().state[Component::PlatedTotal], 0.0);
+    assert!(!warm.warning_set().contains(WarningKind::Plating));
 }
 
 #[test]

@@ -293,7 +293,7 @@ fn assert_error(error: &InputError, file: &Path, line: Option<usize>, key: &str,
 #[test]
 fn valid_cell_converts_to_si_units() {
     let files = Files::new();
-    let cell = load_cell(&files.write("cell.toml", CELL), &[]).expect("valid cell");
+    let cell = load_cell(&files.write("cell.toml", CELL), &[]).expect("valid cell").cell;
 
     assert_eq!(cell.name, "test cell");
     assert_close(cell.nominal_capacity_coulomb, 2.0 * 3600.0);
@@ -590,7 +590,7 @@ fn impossible_mechanism_values_name_key_rule_and_line() {
             "[negative.film]",
         ),
         ("days = 365", "days = 0", "calibration.days", "must be positive, found 0", "days"),
-        ("cycles = 1000\ndays = 365\n", "", "calibration", "give `cycles`, `days` or both", "[calibration]"),
+        ("cycles = 1000\ndays = 365\n", "", "calibration", "give `cycles`, `days` or `efc`", "[calibration]"),
     ];
     for (from, to, key, rule, on_line) in cases {
         let files = Files::new();
@@ -1355,7 +1355,7 @@ fn drawn_values_reach_the_files_they_address() {
     let cell = &sample.scenario.cell;
     assert_close(cell.negative.particle_radius_m, 4.5e-6);
     assert_close(cell.ohmic_resistance_ohm, 11.0e-3);
-    let film = cell.aging.film.expect("film table present");
+    let film = sample.plan.aging.film.expect("film table present");
     assert_close(film.solvent_diffusivity_m2_s, 3.0e-21);
     assert_close(film.reaction_rate_m_s, 2.0e-15);
     assert_close(sample.scenario.ambient_k, 27.5 + ZERO_CELSIUS_K);
@@ -1429,9 +1429,9 @@ fn demo_scenarios_load() {
         if path.extension().is_some_and(|e| e == "toml") && detect_kind(&path).ok() == Some(InputKind::Scenario) {
             let loaded = load_scenario(&path, &[]).unwrap_or_else(|error| panic!("{error}"));
             assert!(loaded.plan.horizon.is_some(), "{}: demo scenarios give a horizon", path.display());
-            let aging = &loaded.scenario.cell.aging;
+            let aging = &loaded.plan.aging;
             assert!(aging.film.is_some() && aging.neg_cracking.is_some(), "{}: demo cell has aging", path.display());
-            assert_eq!(loaded.scenario.cell.calibration, None, "demo parameters are uncalibrated");
+            assert_eq!(loaded.plan.calibration, None, "demo parameters are uncalibrated");
             loaded_names.push((path.file_name().map(|n| n.to_string_lossy().into_owned()), loaded));
         }
     }
@@ -1447,7 +1447,7 @@ fn demo_scenarios_load() {
         .map(|(_, loaded)| loaded)
         .expect("the ferry demo is a scenario");
     assert!(matches!(ferry.plan.usage.ambient_k, Ambient::Monthly(_)));
-    assert_eq!(ferry.scenario.cell.aging.pos_cracking, None, "switched off for nano-particles");
+    assert_eq!(ferry.plan.aging.pos_cracking, None, "switched off for nano-particles");
 
     // The bands demo is the overnight van scenario plus an uncertainty section.
     let find = |wanted: &str| {
@@ -1477,12 +1477,12 @@ fn demo_scenarios_load() {
 #[test]
 fn film_breathing_table_loads_and_is_refused_on_the_positive() {
     let loaded = fadecast::input::load_scenario(&common::repo(common::OVERNIGHT), &[]).unwrap();
-    let breathing = loaded.scenario.cell.aging.film_breathing.expect("on in the 5 Ah demo cell");
+    let breathing = loaded.plan.aging.film_breathing.expect("on in the 5 Ah demo cell");
     assert_eq!(breathing.exponent, 4.0);
     assert!((breathing.activation_j_mol - 20e3).abs() < 1e-9);
     let off = fadecast::input::parse_override("cell.negative.film_breathing.enabled=false").unwrap();
     let loaded = fadecast::input::load_scenario(&common::repo(common::OVERNIGHT), &[off]).unwrap();
-    assert!(loaded.scenario.cell.aging.film_breathing.is_none());
+    assert!(loaded.plan.aging.film_breathing.is_none());
     let misplaced = fadecast::input::parse_override("cell.positive.film_breathing.rate_per_cycle=0.1").unwrap();
     let error = fadecast::input::load_scenario(&common::repo(common::OVERNIGHT), &[misplaced]).unwrap_err();
     assert!(error.to_string().contains("positive.film_breathing"), "{error}");

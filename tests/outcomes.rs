@@ -36,7 +36,11 @@ fn warning_kinds(summary: &Value) -> Vec<String> {
 /// Days of the storage data up to `limit`, from the demo data file.
 fn last_day_up_to(file: &str, limit: f64) -> f64 {
     let text = std::fs::read_to_string(repo(file)).unwrap();
-    text.lines().skip(1).filter_map(|l| l.split(',').next()?.parse::<f64>().ok()).filter(|d| *d <= limit).fold(0.0, f64::max)
+    text.lines()
+        .skip(1)
+        .filter_map(|l| l.split(',').next()?.parse::<f64>().ok())
+        .filter(|d| *d <= limit)
+        .fold(0.0, f64::max)
 }
 
 #[test]
@@ -196,8 +200,7 @@ fn compare_and_table_flag_plating_from_the_typed_warning() {
 #[test]
 fn efc_is_throughput_over_nominal_capacity_and_the_lithium_columns_add_up() {
     let loaded = load_scenario(&repo("examples/van-fleet-overnight.toml"), &[]).unwrap();
-    let forecast =
-        run_forecast(&loaded.scenario, &loaded.plan, Horizon::Cycles(1500.0), &ForecastOptions::default());
+    let forecast = run_forecast(&loaded.scenario, &loaded.plan, Horizon::Cycles(1500.0), &ForecastOptions::default());
     let nominal_ah = loaded.scenario.cell.nominal_capacity_coulomb / 3600.0;
     // FORMATS.md: equivalent full cycles = discharge throughput / nominal capacity (5 Ah here).
     assert!((nominal_ah - 5.0).abs() < 1e-12);

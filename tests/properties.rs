@@ -82,7 +82,7 @@ proptest! {
         prop_assert!((total - 1.0).abs() <= 1e-9, "lithium total {total} (state {state:?})");
         if forecast.stop == StopReason::Horizon {
             // Film grows in every draw, so there is always something to conserve.
-            prop_assert!(state.lithium_inventory < 1.0, "no lithium lost: {}", state.lithium_inventory);
+            prop_assert!(state[fadecast::aging::Component::LithiumInventory] < 1.0, "no lithium lost: {}", state[fadecast::aging::Component::LithiumInventory]);
         }
         for w in forecast.points.windows(2) {
             prop_assert!(

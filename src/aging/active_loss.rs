@@ -11,8 +11,8 @@
 //! A3189.
 
 use super::{mean_temperature_k, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
-use crate::material::units::MEGA;
 use crate::material::arrhenius_factor;
+use crate::material::units::MEGA;
 
 /// Fraction of the remaining active material lost per cycle at a peak hoop stress.
 pub fn loss_per_cycle(p: &ActiveLossParams, peak_hoop_pa: f64, temperature_k: f64) -> f64 {

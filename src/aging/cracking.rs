@@ -8,10 +8,12 @@
 //! of the range); R. Deshpande, M. Verbrugge, Y.-T. Cheng, J. Wang, P. Liu,
 //! J. Electrochem. Soc. 159 (2012) A1730 (Paris' law for electrode particles).
 
-use super::{crack_length_m, mean_temperature_k, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
-use crate::material::units::{KILO, NANO, PER_SQUARE_MICROMETRE};
+use super::{
+    crack_length_m, mean_temperature_k, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader,
+};
 use crate::cycle::CycleRecord;
 use crate::material::arrhenius_factor;
+use crate::material::units::{KILO, NANO, PER_SQUARE_MICROMETRE};
 
 /// Tensile part of a stress range: from max(σ_min, 0) up to σ_max, Pa.
 pub fn tensile_range(stress_max_pa: f64, stress_min_pa: f64) -> f64 {

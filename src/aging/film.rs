@@ -129,11 +129,13 @@ impl FilmSection {
         let reference_potential_v = self.reference_potential_v.unwrap_or(DEFAULT_REFERENCE_POTENTIAL_V);
         FilmParams {
             reaction_rate_m_s: rules.positive("reaction_rate_m_s", self.reaction_rate_m_s),
-            reaction_activation_j_mol: rules.activation_j_mol("reaction_activation_kj_mol", self.reaction_activation_kj_mol),
+            reaction_activation_j_mol: rules
+                .activation_j_mol("reaction_activation_kj_mol", self.reaction_activation_kj_mol),
             solvent_diffusivity_m2_s: rules.positive("solvent_diffusivity_m2_s", self.solvent_diffusivity_m2_s),
             solvent_diffusivity_activation_j_mol: rules
                 .activation_j_mol("solvent_diffusivity_activation_kj_mol", self.solvent_diffusivity_activation_kj_mol),
-            solvent_concentration_mol_m3: rules.positive("solvent_concentration_mol_m3", self.solvent_concentration_mol_m3),
+            solvent_concentration_mol_m3: rules
+                .positive("solvent_concentration_mol_m3", self.solvent_concentration_mol_m3),
             transfer_coefficient: rules.transfer_coefficient(self.transfer_coefficient),
             reference_potential_v: rules.finite("reference_potential_v", reference_potential_v),
             molar_volume_m3_mol: rules.positive("molar_volume_cm3_mol", self.molar_volume_cm3_mol) * CUBIC_CENTIMETRE,

@@ -105,7 +105,8 @@ impl Mechanism for FilmBreathing {
     }
 
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
-        let (Some(record), Some(params), Some(film)) = (context.record, &context.aging.film_breathing, &context.aging.film)
+        let (Some(record), Some(params), Some(film)) =
+            (context.record, &context.aging.film_breathing, &context.aging.film)
         else {
             return;
         };

@@ -99,7 +99,14 @@ const fn row(
 
 /// The slow state, declared once. Order = [`Component`] order (checked by a test).
 pub const COMPONENTS: [ComponentSpec; 14] = [
-    row(C::LithiumInventory, "lithium_inventory", "cyclable lithium", Measure::LithiumInventory, PlotGroup::None, "every lithium sink"),
+    row(
+        C::LithiumInventory,
+        "lithium_inventory",
+        "cyclable lithium",
+        Measure::LithiumInventory,
+        PlotGroup::None,
+        "every lithium sink",
+    ),
     row(
         C::LithiumFilmOriginal,
         "lithium_lost_film_original",
@@ -144,7 +151,14 @@ pub const COMPONENTS: [ComponentSpec; 14] = [
         "active material loss",
     ),
     row(C::PlatedTotal, "plated_total", "plated in total", Measure::LithiumCounted, PlotGroup::None, "lithium plating"),
-    row(C::FilmOriginalNm, "film_original", "film on original surface", Measure::Nanometres, PlotGroup::None, "film on original surface"),
+    row(
+        C::FilmOriginalNm,
+        "film_original",
+        "film on original surface",
+        Measure::Nanometres,
+        PlotGroup::None,
+        "film on original surface",
+    ),
     row(
         C::NegCrackNm,
         "neg_crack",
@@ -241,8 +255,7 @@ impl AgingState {
 
     /// A lithium sink's own share: its value less the parts reported separately.
     pub fn own_share(&self, component: Component) -> f64 {
-        let parts: f64 =
-            COMPONENTS.iter().filter(|s| s.part_of == Some(component)).map(|s| self[s.component]).sum();
+        let parts: f64 = COMPONENTS.iter().filter(|s| s.part_of == Some(component)).map(|s| self[s.component]).sum();
         self[component] - parts
     }
 
@@ -297,9 +310,9 @@ pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -
 /// crack film is tracked through its lithium (not its thickness), because fresh crack area
 /// starts at zero and a mean thickness over it would be singular there.
 pub fn crack_film_volume_m3(cell: &Cell, aging: &AgingParams, state: &AgingState) -> f64 {
-    aging
-        .film
-        .map_or(0.0, |f| state[C::LithiumFilmCrack] * cell.lithium_inventory_coulomb() / FARADAY * f.molar_volume_m3_mol)
+    aging.film.map_or(0.0, |f| {
+        state[C::LithiumFilmCrack] * cell.lithium_inventory_coulomb() / FARADAY * f.molar_volume_m3_mol
+    })
 }
 
 /// Mean film thickness on crack surface, m (0 before any crack surface exists).

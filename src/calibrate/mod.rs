@@ -243,12 +243,27 @@ pub struct FittedEnd {
 pub enum FitWarning {
     /// The optimiser stopped without meeting its convergence tests (iteration or patience
     /// limit, or a numerical failure): the values may not be a minimum.
-    NotConverged { termination: String },
+    NotConverged {
+        termination: String,
+    },
     /// JᵀJ is singular: the data do not determine the parameters.
     Singular,
-    StandardErrorExceedsValue { path: String, standard_error: f64, value: f64 },
-    AtBound { path: String, value: f64, low: f64, high: f64 },
-    Correlated { first: String, second: String, correlation: f64 },
+    StandardErrorExceedsValue {
+        path: String,
+        standard_error: f64,
+        value: f64,
+    },
+    AtBound {
+        path: String,
+        value: f64,
+        low: f64,
+        high: f64,
+    },
+    Correlated {
+        first: String,
+        second: String,
+        correlation: f64,
+    },
 }
 
 /// Everything a fit found.

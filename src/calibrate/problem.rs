@@ -50,7 +50,11 @@ pub fn fit(
             (0..n).map(|i| if start == 0 { model.bounds[i].z(initial[i]) } else { quasi_random_z(start, i) }).collect();
         let shifted = z0.iter().map(|z| z + Z_SHIFT).collect();
         let target = LeastSquares { model: &model, shifted_z: DVector::from_vec(shifted), cache: RefCell::new(None) };
-        let solver = LevenbergMarquardt::new().with_ftol(1e-10).with_xtol(1e-8).with_gtol(1e-10).with_patience(options.patience.max(1));
+        let solver = LevenbergMarquardt::new()
+            .with_ftol(1e-10)
+            .with_xtol(1e-8)
+            .with_gtol(1e-10)
+            .with_patience(options.patience.max(1));
         let (solved, report) = solver.minimize(target);
         let values = model.values_of_shifted(&solved.shifted_z);
         match model.residuals(&values) {
@@ -157,7 +161,13 @@ impl<'a> Model<'a> {
     }
 
     /// One forecast of dataset `d`, whole (its warnings included).
-    fn run_forecast(&self, d: usize, values: &[f64], horizon: Horizon, report_points: usize) -> Result<Forecast, String> {
+    fn run_forecast(
+        &self,
+        d: usize,
+        values: &[f64],
+        horizon: Horizon,
+        report_points: usize,
+    ) -> Result<Forecast, String> {
         let (scenario, plan) = self.source.scenario(d, values)?;
         self.evaluations.set(self.evaluations.get() + 1);
         let options = ForecastOptions { report_points, ..self.forecast };
@@ -406,7 +416,8 @@ impl<'a> Model<'a> {
                 crate::forecast::Ambient::Constant(t) => vec![*t],
                 crate::forecast::Ambient::Monthly(months) => months.to_vec(),
             };
-            let ambient_k = ambients.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &t| (lo.min(t), hi.max(t)));
+            let ambient_k =
+                ambients.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &t| (lo.min(t), hi.max(t)));
             // What a fit makes is the calibration, so the trial cell's own calibration warnings say nothing.
             let forecast_warnings = forecast
                 .warnings

@@ -144,9 +144,8 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
         InputError::new(&config.scenario, "no horizon: add a [horizon] section or give --cycles N or --years Y")
     })?;
     let options = ForecastOptions::default();
-    let grid =
-        report_grid(&loaded.plan, horizon, &options)
-            .map_err(|failure| InputError::command_line_flag("--cycles", report::failure_text(&failure)))?;
+    let grid = report_grid(&loaded.plan, horizon, &options)
+        .map_err(|failure| InputError::command_line_flag("--cycles", report::failure_text(&failure)))?;
     let horizon_years = grid.last().map_or(0.0, |g| g.1 / 365.25);
     if let Some(w) = config.warranty {
         if w.years > horizon_years * (1.0 + 1e-9) {

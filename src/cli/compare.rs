@@ -246,12 +246,21 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     // The forecasts' own warnings (limits, calibration; plating is flagged above): once when
     // every alternative raised the same, otherwise naming the alternatives that did.
     let mut raised: Vec<(String, Vec<String>)> = Vec::new();
-    for s in &summaries {
+    for (s, outcomes) in summaries.iter().zip(&comparison.outcomes) {
         let runs = s.usable + s.invalid + s.failed;
         let others: Vec<(WarningKind, usize)> =
             s.warning_counts.iter().copied().filter(|(kind, _)| *kind != WarningKind::Plating).collect();
-        let what = if comparison.sampled { "samples" } else { "runs" };
-        for line in report::counted_warning_lines(&others, runs, what) {
+        // One run each: the warnings in full, with their numbers; sampled: counted by kind.
+        let lines = match (comparison.sampled, outcomes.first()) {
+            (false, Some(only)) => only
+                .warning_details
+                .iter()
+                .filter(|w| w.kind() != WarningKind::Plating)
+                .map(report::warning_text)
+                .collect(),
+            _ => report::counted_warning_lines(&others, runs, "samples"),
+        };
+        for line in lines {
             match raised.iter_mut().find(|(l, _)| *l == line) {
                 Some((_, names)) => names.push(s.name.clone()),
                 None => raised.push((line, vec![s.name.clone()])),

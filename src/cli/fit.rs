@@ -3,8 +3,8 @@
 
 use super::{print_caution, CliError};
 use crate::calibrate::{self, Axis, CalibrationError, FitOptions, FitResult, FittedEnd};
-use crate::material::constants::ZERO_CELSIUS_K;
 use crate::input::{self, InputError, LoadedFit, Override};
+use crate::material::constants::ZERO_CELSIUS_K;
 use crate::report::{self, text::sig};
 use std::fmt::Write as _;
 use std::io::Write;

@@ -57,7 +57,8 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
     match &forecast.stop {
         StopReason::Failed { last_soh_pct, .. } => {
             let why = report::stop_text(&forecast.stop, cycling).unwrap_or_default();
-            let reached = last_soh_pct.map_or(String::new(), |soh| format!("; last reported state: {soh:.2} % state of health"));
+            let reached =
+                last_soh_pct.map_or(String::new(), |soh| format!("; last reported state: {soh:.2} % state of health"));
             Err(CliError::Forecast(format!(
                 "{why}{reached} (the {} rows computed so far were written)",
                 forecast.points.len()

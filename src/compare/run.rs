@@ -3,7 +3,9 @@
 
 use crate::cycle::{simulate_periodic_cycle, CycleRecord, Health, Scenario, SolverSettings};
 use crate::ensemble::{SampleStatus, Sampler};
-use crate::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, LifeAt, Plan, StopReason, WarningSet};
+use crate::forecast::{
+    run_forecast, Forecast, ForecastOptions, ForecastWarning, Horizon, LifeAt, Plan, StopReason, WarningSet,
+};
 use rayon::prelude::*;
 use thiserror::Error;
 
@@ -73,6 +75,8 @@ pub struct Outcome {
     pub peak_temperature_c: f64,
     /// The kinds of warning the forecast gave (plating, limits, calibration).
     pub warnings: WarningSet,
+    /// The warnings themselves, with their numbers (for a deterministic comparison's report).
+    pub warning_details: Vec<ForecastWarning>,
     /// The fade curve at the reported points: (cycle, day, state of health %).
     pub curve: Vec<(f64, f64, f32)>,
 }
@@ -176,6 +180,7 @@ fn invalid(message: String) -> Outcome {
         soh_at_horizon_pct: f64::NAN,
         peak_temperature_c: f64::NAN,
         warnings: WarningSet::default(),
+        warning_details: Vec::new(),
         curve: Vec::new(),
     }
 }
@@ -204,6 +209,7 @@ pub(crate) fn outcome_of(f: &Forecast) -> Outcome {
         soh_at_horizon_pct: if horizon_reached { last.map_or(f64::NAN, |p| p.soh_pct) } else { f64::NAN },
         peak_temperature_c: f.points.iter().map(|p| p.peak_temperature_c).fold(f64::NEG_INFINITY, f64::max),
         warnings: f.warning_set(),
+        warning_details: f.warnings.clone(),
         curve: f.points.iter().map(|p| (p.cycle, p.day, p.soh_pct as f32)).collect(),
     }
 }

@@ -224,6 +224,7 @@ mod tests {
             soh_at_horizon_pct: 80.0,
             peak_temperature_c: 30.0,
             warnings: WarningSet::default(),
+            warning_details: Vec::new(),
             curve: vec![],
         }
     }

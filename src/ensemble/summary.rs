@@ -3,9 +3,9 @@
 //! interval, and the rank correlation of each uncertain input with life.
 
 use super::run::{SampleRecord, Warranty, CURVE_QUANTITIES};
-use crate::forecast::{WarningKind, WarningSet};
 use super::stats::{clopper_pearson, quantile, quantile_standard_error, spearman};
 use super::status::SampleStatus;
+use crate::forecast::{WarningKind, WarningSet};
 use serde::Serialize;
 
 /// One quantile of an end-of-life distribution. `value` None: the quantile lies among samples

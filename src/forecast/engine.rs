@@ -10,12 +10,11 @@
 
 use super::plan::{Ambient, Horizon, Plan};
 use super::result::*;
-use crate::aging::CalibrationRange;
 use super::ForecastOptions;
 use crate::aging::state::{crack_film_thickness_m, lithium_only};
+use crate::aging::CalibrationRange;
 use crate::aging::{
-    health_of, mechanisms_for, AgingContext, AgingParams, AgingState, Component, Mechanism, COMPONENTS,
-    COMPONENT_COUNT,
+    health_of, mechanisms_for, AgingContext, AgingParams, AgingState, Component, Mechanism, COMPONENTS, COMPONENT_COUNT,
 };
 use crate::cycle::cell::LIMIT_SLACK;
 use crate::cycle::{
@@ -191,7 +190,11 @@ impl<'a> Forecaster<'a> {
             .map_err(|e| RateFailure::Cycle(e.to_string()))?;
         *self.simulated.borrow_mut() += 1;
         let step_of_peak = |current: fn(f64) -> f64| {
-            record.trace.iter().max_by(|a, b| current(a.current_a).total_cmp(&current(b.current_a))).map_or(0, |p| p.step)
+            record
+                .trace
+                .iter()
+                .max_by(|a, b| current(a.current_a).total_cmp(&current(b.current_a)))
+                .map_or(0, |p| p.step)
         };
         self.log.borrow_mut().push(CycleSnapshot {
             x,

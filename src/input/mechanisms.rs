@@ -129,7 +129,9 @@ pub(super) fn convert_calibration(checks: &mut Checks<'_>, section: &Calibration
              fitted to reaches (leave the table out for uncalibrated parameters)",
         );
     }
-    for (key, value) in [("calibration.cycles", section.cycles), ("calibration.days", section.days), ("calibration.efc", section.efc)] {
+    for (key, value) in
+        [("calibration.cycles", section.cycles), ("calibration.days", section.days), ("calibration.efc", section.efc)]
+    {
         if let Some(value) = value {
             checks.positive(key, value);
         }

@@ -232,8 +232,12 @@ pub(super) fn convert_scenario(
         return Err(problems);
     }
     // With no problems recorded every part loaded; the `else` only keeps this panic-free.
-    let (Some((loaded_cell, cell_file)), Some(((duty, profile_start_soc), duty_file)), Some(cell_path), Some(profile_path)) =
-        (cell, duty, cell_path, profile_path)
+    let (
+        Some((loaded_cell, cell_file)),
+        Some(((duty, profile_start_soc), duty_file)),
+        Some(cell_path),
+        Some(profile_path),
+    ) = (cell, duty, cell_path, profile_path)
     else {
         return Err(problems);
     };

@@ -50,7 +50,8 @@ mod tests {
 
     #[test]
     fn header_carries_units_and_every_lithium_sink() {
-        let scale = ReportScale { lithium_fresh_ah: 10.0, fresh_capacity_ah: 5.0, neg_radius_nm: 1e4, pos_radius_nm: 1e4 };
+        let scale =
+            ReportScale { lithium_fresh_ah: 10.0, fresh_capacity_ah: 5.0, neg_radius_nm: 1e4, pos_radius_nm: 1e4 };
         let text = String::from_utf8(fade_csv(&[FadePoint::default()], &scale).unwrap()).unwrap();
         let header = text.lines().next().unwrap();
         for column in [

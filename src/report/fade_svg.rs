@@ -164,7 +164,8 @@ mod tests {
                 point
             })
             .collect();
-        let scale = ReportScale { lithium_fresh_ah: 10.0, fresh_capacity_ah: 5.0, neg_radius_nm: 1e4, pos_radius_nm: 1e4 };
+        let scale =
+            ReportScale { lithium_fresh_ah: 10.0, fresh_capacity_ah: 5.0, neg_radius_nm: 1e4, pos_radius_nm: 1e4 };
         let svg = fade_svg(&points, &scale, "test fade", true).unwrap();
         for text in ["test fade", "state of health, %", "resistance growth, %", "film on crack surface", "years"] {
             assert!(svg.contains(text), "missing {text}");

@@ -13,9 +13,9 @@ mod fade_svg;
 mod fit;
 mod forecast_json;
 mod forecast_text;
-mod outcome;
 mod inputs;
 mod journal;
+mod outcome;
 mod summary;
 pub mod text;
 
@@ -30,12 +30,12 @@ pub use fade_svg::fade_svg;
 pub use fit::{fit_json, fit_svg, fit_warning_text, fitted_cell_toml, uncertainty_toml};
 pub use forecast_json::forecast_json;
 pub use forecast_text::forecast_text;
+pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
+pub use journal::{decode_journal, encode_record};
 pub use outcome::{
     counted_warning_lines, counted_warnings_json, failure_text, stop_json, stop_text, warning_json, warning_kind_text,
     warning_text,
 };
-pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
-pub use journal::{decode_journal, encode_record};
 pub use summary::{cycle_cautions, cycle_summary};
 
 use std::path::PathBuf;

@@ -142,9 +142,7 @@ pub fn failure_text(failure: &ForecastFailure) -> String {
     match failure {
         ForecastFailure::FreshCellEmpty => "the fresh cell has no charge in its voltage window".into(),
         ForecastFailure::FreshPulse => "the resistance pulse cannot be run on the fresh cell".into(),
-        ForecastFailure::HorizonNeedsYears => {
-            "storage-only usage (0 cycles per day) needs a horizon in years".into()
-        }
+        ForecastFailure::HorizonNeedsYears => "storage-only usage (0 cycles per day) needs a horizon in years".into(),
         ForecastFailure::Cycle { detail } => detail.clone(),
         ForecastFailure::Integrator { detail } => format!("integrator: {detail}"),
     }
@@ -178,7 +176,8 @@ mod tests {
         for kind in WarningKind::ALL {
             assert!(!warning_kind_text(kind).is_empty());
         }
-        let lines = counted_warning_lines(&[(WarningKind::BeyondCalibration, 200), (WarningKind::Plating, 0)], 200, "samples");
+        let lines =
+            counted_warning_lines(&[(WarningKind::BeyondCalibration, 200), (WarningKind::Plating, 0)], 200, "samples");
         assert_eq!(lines, vec!["WARNING: forecast beyond the calibration range (extrapolation) in 200 of 200 samples"]);
     }
 }
