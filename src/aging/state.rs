@@ -98,7 +98,7 @@ const fn row(
 }
 
 /// The slow state, declared once. Order = [`Component`] order (checked by a test).
-pub const COMPONENTS: [ComponentSpec; 14] = [
+pub const COMPONENTS: &[ComponentSpec] = &[
     row(
         C::LithiumInventory,
         "lithium_inventory",

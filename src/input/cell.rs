@@ -333,11 +333,11 @@ fn convert_aging(checks: &mut Checks<'_>, file: &CellFile, reference_temperature
 
 impl ElectrodeSection {
     /// The mechanism tables this electrode may hold, by name; one line per mechanism table.
-    fn mechanism_tables(&self) -> [(&'static str, Option<&dyn MechanismTable>); 5] {
+    fn mechanism_tables(&self) -> Vec<(&'static str, Option<&dyn MechanismTable>)> {
         fn table<T: MechanismTable>(section: &Option<T>) -> Option<&dyn MechanismTable> {
             section.as_ref().map(|s| s as &dyn MechanismTable)
         }
-        [
+        vec![
             ("film", table(&self.film)),
             ("film_breathing", table(&self.film_breathing)),
             ("cracking", table(&self.cracking)),
