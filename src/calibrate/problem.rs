@@ -172,9 +172,8 @@ impl<'a> Model<'a> {
         self.evaluations.set(self.evaluations.get() + 1);
         let options = ForecastOptions { report_points, ..self.forecast };
         let forecast = run_forecast(&scenario, &plan, horizon, &options);
-        let cycling = plan.usage.cycles_per_day > 0.0;
-        match (&forecast.stop, crate::report::stop_text(&forecast.stop, cycling)) {
-            (StopReason::Failed { .. }, Some(why)) => Err(format!("forecast failed {why}")),
+        match &forecast.stop {
+            StopReason::Failed { at, failure, .. } => Err(format!("forecast failed at {at:.0}: {failure}")),
             _ => Ok(forecast),
         }
     }

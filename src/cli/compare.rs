@@ -291,7 +291,9 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         .iter()
         .zip(&comparison.names)
         .filter_map(|(outcomes, name)| match outcomes.first().map(|o| (&o.status, o.life)) {
-            Some((SampleStatus::Failed(detail), None)) if !comparison.sampled => Some(format!("\"{name}\" {detail}")),
+            Some((SampleStatus::Failed { stop, cycling }, None)) if !comparison.sampled => {
+                Some(format!("\"{name}\" {}", report::stop_text(stop, *cycling).unwrap_or_default()))
+            }
             _ => None,
         })
         .collect();

@@ -107,7 +107,7 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
                 invalid: outcomes.iter().filter(|o| matches!(o.status, SampleStatus::Invalid(_))).count(),
                 failed: outcomes
                     .iter()
-                    .filter(|o| o.life.is_none() && matches!(o.status, SampleStatus::Failed(_)))
+                    .filter(|o| o.life.is_none() && matches!(o.status, SampleStatus::Failed { .. }))
                     .count(),
                 life_cycles: spread(life_value(|l| l.at().cycles)),
                 life_efc: spread(life_value(|l| l.at().efc)),

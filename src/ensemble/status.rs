@@ -9,18 +9,20 @@ pub enum SampleStatus {
     Ok,
     /// The drawn inputs break an input rule (e.g. a normal draw gave a negative radius).
     Invalid(String),
-    /// The forecast stopped before the horizon: the cell was exhausted or the forecast failed;
-    /// the detail says where and why.
-    Failed(String),
+    /// The forecast stopped before the horizon: the cell was exhausted or the forecast failed,
+    /// where and why in the stop reason (`cycling`: whether it counted cycles or storage days).
+    Failed {
+        stop: StopReason,
+        cycling: bool,
+    },
 }
 
 impl SampleStatus {
-    /// The status of a forecast that ran, from where it stopped (`cycling`: whether it counts
-    /// cycles or storage days); the note is the stop reason's words from `src/report`.
+    /// The status of a forecast that ran, from where it stopped.
     pub fn of_stop(stop: &StopReason, cycling: bool) -> Self {
-        match crate::report::stop_text(stop, cycling) {
-            None => SampleStatus::Ok,
-            Some(why) => SampleStatus::Failed(why),
+        match stop {
+            StopReason::Horizon => SampleStatus::Ok,
+            _ => SampleStatus::Failed { stop: stop.clone(), cycling },
         }
     }
 }

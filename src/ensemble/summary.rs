@@ -89,11 +89,11 @@ pub fn summarize(
         .iter()
         .filter(|r| {
             matches!(r.status, SampleStatus::Ok)
-                || (matches!(r.status, SampleStatus::Failed(_)) && r.capacity_end.is_some())
+                || (matches!(r.status, SampleStatus::Failed { .. }) && r.capacity_end.is_some())
         })
         .collect();
     let invalid = records.iter().filter(|r| matches!(r.status, SampleStatus::Invalid(_))).count() as u64;
-    let failed = records.iter().filter(|r| matches!(r.status, SampleStatus::Failed(_))).count() as u64;
+    let failed = records.iter().filter(|r| matches!(r.status, SampleStatus::Failed { .. })).count() as u64;
 
     let distribution = |name: &'static str, end: fn(&SampleRecord) -> Option<crate::forecast::LifeAt>| {
         let mut cycles: Vec<f64> = counted.iter().map(|r| end(r).map_or(f64::INFINITY, |a| a.cycles)).collect();

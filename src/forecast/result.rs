@@ -131,7 +131,7 @@ pub struct LifeAt {
 }
 
 /// Why the forecast stopped.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case", tag = "kind")]
 pub enum StopReason {
     Horizon,
@@ -153,18 +153,21 @@ pub enum StopReason {
 }
 
 /// What failed, with the detail the failing part gave.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize, thiserror::Error)]
 #[serde(rename_all = "snake_case", tag = "kind")]
 pub enum ForecastFailure {
-    /// The fresh cell holds no charge in its voltage window.
+    #[error("the fresh cell has no charge in its voltage window")]
     FreshCellEmpty,
-    /// The resistance pulse cannot be run on the fresh cell.
+    #[error("the resistance pulse cannot be run on the fresh cell")]
     FreshPulse,
     /// The horizon does not suit the usage (cycles asked of a storage-only scenario).
+    #[error("storage-only usage (0 cycles per day) needs a horizon in years")]
     HorizonNeedsYears,
     /// One duty cycle could not be simulated.
+    #[error("{detail}")]
     Cycle { detail: String },
     /// The cycle-jumping integrator gave up.
+    #[error("integrator: {detail}")]
     Integrator { detail: String },
 }
 

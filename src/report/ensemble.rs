@@ -60,9 +60,9 @@ pub fn samples_csv(records: &[SampleRecord], parameters: &[String], warranty: bo
     writer.write_record(&header)?;
     for r in records {
         let (status, note) = match &r.status {
-            SampleStatus::Ok => ("ok", ""),
-            SampleStatus::Invalid(m) => ("invalid", m.as_str()),
-            SampleStatus::Failed(m) => ("failed", m.as_str()),
+            SampleStatus::Ok => ("ok", String::new()),
+            SampleStatus::Invalid(m) => ("invalid", m.clone()),
+            SampleStatus::Failed { stop, cycling } => ("failed", super::stop_text(stop, *cycling).unwrap_or_default()),
         };
         let mut row = vec![r.index.to_string(), status.to_string()];
         row.extend(r.values.iter().map(|v| v.to_string()));

@@ -4,7 +4,8 @@
 //! reading (that sample simply runs again on resume).
 //!
 //! Layout (little-endian): u32 payload length, payload, u32 FNV-1a checksum of the payload.
-//! Payload: u64 index; u8 status (0 ok, 1 invalid, 2 failed), u32 message length, message;
+//! Payload: u64 index; u8 status (0 ok, 1 invalid, 2 failed), u32 message length, message (the
+//! invalid draw's rule, or the failed forecast's typed stop reason as JSON);
 //! u32 value count, f64 values; two ends of life, each u8 present + f64 cycles, efc, years;
 //! f64 state of health at the horizon, resistance growth at the horizon, state of health at the
 //! warranty point; u16 warning kinds (one bit each, `forecast::WarningKind`); u32 point count,
@@ -22,10 +23,15 @@ fn checksum(bytes: &[u8]) -> u32 {
 pub fn encode_record(r: &SampleRecord) -> Vec<u8> {
     let mut p = Vec::with_capacity(128 + 12 * r.curves.len() + 8 * r.values.len());
     p.extend_from_slice(&r.index.to_le_bytes());
+    let stopped;
     let (code, message) = match &r.status {
         SampleStatus::Ok => (0u8, ""),
         SampleStatus::Invalid(m) => (1, m.as_str()),
-        SampleStatus::Failed(m) => (2, m.as_str()),
+        SampleStatus::Failed { stop, cycling } => {
+            // The typed stop reason, as JSON: merged and resumed runs read it back whole.
+            stopped = serde_json::json!({ "stop": stop, "cycling": cycling }).to_string();
+            (2, stopped.as_str())
+        }
     };
     p.push(code);
     p.extend_from_slice(&(message.len() as u32).to_le_bytes());
@@ -96,7 +102,11 @@ fn decode_payload(payload: &[u8]) -> Option<SampleRecord> {
     let status = match code {
         0 => SampleStatus::Ok,
         1 => SampleStatus::Invalid(message),
-        2 => SampleStatus::Failed(message),
+        2 => {
+            let value: serde_json::Value = serde_json::from_str(&message).ok()?;
+            let stop = serde_json::from_value(value.get("stop")?.clone()).ok()?;
+            SampleStatus::Failed { stop, cycling: value.get("cycling")?.as_bool()? }
+        }
         _ => return None,
     };
     let count = r.u32()? as usize;
@@ -160,7 +170,14 @@ mod tests {
             status: if index.is_multiple_of(2) {
                 SampleStatus::Ok
             } else {
-                SampleStatus::Failed("at cycle 3: x".into())
+                SampleStatus::Failed {
+                    stop: crate::forecast::StopReason::Failed {
+                        at: 3.0,
+                        last_soh_pct: Some(71.0),
+                        failure: crate::forecast::ForecastFailure::Cycle { detail: "x".into() },
+                    },
+                    cycling: true,
+                }
             },
             capacity_end: Some(LifeAt { cycles: 1234.5, efc: 1000.25, years: 3.5 }),
             resistance_end: None,

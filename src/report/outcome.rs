@@ -139,13 +139,7 @@ pub fn warning_json(warning: &ForecastWarning) -> Value {
 
 /// What failed, in words.
 pub fn failure_text(failure: &ForecastFailure) -> String {
-    match failure {
-        ForecastFailure::FreshCellEmpty => "the fresh cell has no charge in its voltage window".into(),
-        ForecastFailure::FreshPulse => "the resistance pulse cannot be run on the fresh cell".into(),
-        ForecastFailure::HorizonNeedsYears => "storage-only usage (0 cycles per day) needs a horizon in years".into(),
-        ForecastFailure::Cycle { detail } => detail.clone(),
-        ForecastFailure::Integrator { detail } => format!("integrator: {detail}"),
-    }
+    failure.to_string()
 }
 
 /// Why a forecast stopped before its horizon, in words; None when it reached it.
