@@ -333,3 +333,44 @@ pub fn table_csv(results: &[ConditionResult]) -> Result<Vec<u8>, ReportError> {
     }
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::compare::Condition;
+    use crate::forecast::{FadePoint, Forecast, ForecastWarning, StopReason};
+
+    fn condition_with(warnings: Vec<ForecastWarning>) -> ConditionResult {
+        ConditionResult {
+            condition: Condition { ambient_c: 0.0, c_rate: 2.0, soc_low: 0.0, soc_high: 1.0 },
+            nominal: Forecast {
+                points: vec![FadePoint::default()],
+                end_of_life: vec![],
+                stop: StopReason::Horizon,
+                simulated_cycles: 0,
+                accepted_steps: 0,
+                rejected_steps: 0,
+                every_cycle: false,
+                fresh_capacity_ah: 5.0,
+                fresh_resistance_mohm: 16.0,
+                scale: Default::default(),
+                warnings,
+                final_state: None,
+            },
+            quantiles: None,
+            samples_left_out: 0,
+        }
+    }
+
+    #[test]
+    fn the_plating_column_reads_the_typed_warning_not_its_words() {
+        // Whatever src/report says about plating, the flag follows `WarningKind::Plating`.
+        let plating = ForecastWarning::Plating { lowest_potential_v: -0.01, plated_ah: 0.002 };
+        let csv =
+            String::from_utf8(table_csv(&[condition_with(vec![plating]), condition_with(vec![])]).unwrap()).unwrap();
+        let header: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
+        let column = header.iter().position(|h| *h == "plating_predicted").unwrap();
+        let flags: Vec<&str> = csv.lines().skip(1).map(|l| l.split(',').nth(column).unwrap()).collect();
+        assert_eq!(flags, ["yes", "no"]);
+    }
+}
