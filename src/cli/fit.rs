@@ -5,7 +5,7 @@ use super::{print_caution, CliError};
 use crate::calibrate::{self, Axis, CalibrationError, FitOptions, FitResult, FittedEnd};
 use crate::input::{self, InputError, LoadedFit, Override};
 use crate::material::constants::ZERO_CELSIUS_K;
-use crate::report::{self, text::sig};
+use crate::report;
 use std::fmt::Write as _;
 use std::io::Write;
 use std::path::PathBuf;
@@ -72,7 +72,7 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
     }
     let written = report::write_all_atomic(&config.out_dir, &files)?;
 
-    let mut text = summary(&loaded, &result, config.holdout_after);
+    let mut text = report::fit_text(&loaded.name, loaded.problem.datasets.len(), &result, config.holdout_after);
     if uncertainty.is_none() {
         text.push_str("\nNo uncertainty.toml: the fit has no finite standard errors to carry into bands.\n");
     }
@@ -118,92 +118,4 @@ fn fitted_cell(loaded: &LoadedFit, result: &FitResult, origin: &str) -> Result<S
         let _ = write!(origin, "\nFitted inputs outside the cell (see fit.json): {}", others.join(", "));
     }
     Ok(report::fitted_cell_toml(&table, &origin)?)
-}
-
-fn summary(loaded: &LoadedFit, result: &FitResult, holdout_after: Option<f64>) -> String {
-    let mut text = format!(
-        "{}: fit of {} parameters to {} datasets\n",
-        loaded.name,
-        result.parameters.len(),
-        loaded.problem.datasets.len()
-    );
-    let _ = writeln!(
-        text,
-        "  {} model evaluations over {} starts; {} residuals, residual variance {} ({})",
-        result.model_evaluations,
-        result.starts,
-        result.residual_count,
-        sig(result.residual_variance, 3),
-        result.termination
-    );
-    text.push_str("Parameters (± one standard error)\n");
-    for p in &result.parameters {
-        let spread = match p.sigma_ln {
-            Some(sigma_ln) => format!("± {} (sigma_ln {})", number(p.standard_error), sig(sigma_ln, 3)),
-            None => format!("± {}", number(p.standard_error)),
-        };
-        let _ = writeln!(text, "  {:<48}{:>11} {spread}   (start {})", p.path, number(p.value), number(p.initial));
-    }
-    if result.parameters.len() >= 2 {
-        text.push_str("Correlation\n");
-        for (p, row) in result.parameters.iter().zip(&result.correlation) {
-            let cells: Vec<String> = row.iter().map(|c| format!("{c:>7.3}")).collect();
-            let _ = writeln!(text, "  {:<48}{}", p.path, cells.join(""));
-        }
-    }
-    text.push_str("Residuals (model − data, fitted points)\n");
-    for r in &result.residuals {
-        let resistance = r.resistance_rms_mohm.map_or(String::new(), |v| format!(", resistance rms {} mΩ", sig(v, 3)));
-        let _ = writeln!(
-            text,
-            "  {:<24}{} points: capacity rms {} Ah, max {} Ah, mean {} Ah{resistance}",
-            r.dataset,
-            r.points_fitted,
-            sig(r.capacity_rms_ah, 3),
-            sig(r.capacity_max_abs_ah, 3),
-            sig(r.capacity_mean_ah, 3)
-        );
-    }
-    if let Some(limit) = holdout_after {
-        let _ = writeln!(text, "Forecast error beyond {limit} (held-out points)");
-        for h in &result.holdout {
-            let _ = writeln!(
-                text,
-                "  {:<24}{} points: state of health rms {} pp, max {} pp",
-                h.dataset,
-                h.points,
-                sig(h.soh_rms_pp, 3),
-                sig(h.soh_max_abs_pp, 3)
-            );
-        }
-    }
-    let forecast_warnings: Vec<String> = result
-        .curves
-        .iter()
-        .flat_map(|c| c.forecast_warnings.iter().map(move |w| format!("{}: {}", c.dataset, report::warning_text(w))))
-        .collect();
-    if !result.warnings.is_empty() || !forecast_warnings.is_empty() {
-        text.push_str("Warnings\n");
-        for w in &result.warnings {
-            let _ = writeln!(text, "  {}", report::fit_warning_text(w));
-        }
-        for w in &forecast_warnings {
-            let _ = writeln!(text, "  {w}");
-        }
-    }
-    text.push_str(
-        "\nA fit is only as good as its data: forecasts beyond the fitted range are extrapolations, \
-         and the fitted cell's [calibration] table makes forecasts beyond it say so.\n",
-    );
-    text
-}
-
-/// Four significant figures, in exponent form for the very small or large values rates and
-/// diffusivities take.
-fn number(value: f64) -> String {
-    if value != 0.0 && !(1e-3..1e5).contains(&value.abs()) {
-        format!("{value:.3e}")
-    } else {
-        sig(value, 4)
-    }
 }

@@ -2,6 +2,7 @@
 //! section `bands` reads, and the plot of data, fitted curves and residuals.
 
 use super::cycle_svg::{padded_range, plot_error};
+use super::text::sig;
 use super::ReportError;
 use crate::calibrate::{Axis, FitResult, FitWarning, FittedParameter, HoldoutError, ResidualStats};
 use plotters::prelude::*;
@@ -58,6 +59,91 @@ fn with_message(warning: &FitWarning) -> serde_json::Value {
         map.insert("message".into(), serde_json::Value::String(fit_warning_text(warning)));
     }
     value
+}
+
+/// The fit as the terminal shows it: parameters, correlations, residuals, hold-out errors,
+/// warnings (the fit's and each dataset's forecast's) and the extrapolation caution.
+pub fn fit_text(name: &str, datasets: usize, result: &FitResult, holdout_after: Option<f64>) -> String {
+    let mut text = format!("{}: fit of {} parameters to {} datasets\n", name, result.parameters.len(), datasets);
+    let _ = writeln!(
+        text,
+        "  {} model evaluations over {} starts; {} residuals, residual variance {} ({})",
+        result.model_evaluations,
+        result.starts,
+        result.residual_count,
+        sig(result.residual_variance, 3),
+        result.termination
+    );
+    text.push_str("Parameters (± one standard error)\n");
+    for p in &result.parameters {
+        let spread = match p.sigma_ln {
+            Some(sigma_ln) => format!("± {} (sigma_ln {})", number(p.standard_error), sig(sigma_ln, 3)),
+            None => format!("± {}", number(p.standard_error)),
+        };
+        let _ = writeln!(text, "  {:<48}{:>11} {spread}   (start {})", p.path, number(p.value), number(p.initial));
+    }
+    if result.parameters.len() >= 2 {
+        text.push_str("Correlation\n");
+        for (p, row) in result.parameters.iter().zip(&result.correlation) {
+            let cells: Vec<String> = row.iter().map(|c| format!("{c:>7.3}")).collect();
+            let _ = writeln!(text, "  {:<48}{}", p.path, cells.join(""));
+        }
+    }
+    text.push_str("Residuals (model − data, fitted points)\n");
+    for r in &result.residuals {
+        let resistance = r.resistance_rms_mohm.map_or(String::new(), |v| format!(", resistance rms {} mΩ", sig(v, 3)));
+        let _ = writeln!(
+            text,
+            "  {:<24}{} points: capacity rms {} Ah, max {} Ah, mean {} Ah{resistance}",
+            r.dataset,
+            r.points_fitted,
+            sig(r.capacity_rms_ah, 3),
+            sig(r.capacity_max_abs_ah, 3),
+            sig(r.capacity_mean_ah, 3)
+        );
+    }
+    if let Some(limit) = holdout_after {
+        let _ = writeln!(text, "Forecast error beyond {limit} (held-out points)");
+        for h in &result.holdout {
+            let _ = writeln!(
+                text,
+                "  {:<24}{} points: state of health rms {} pp, max {} pp",
+                h.dataset,
+                h.points,
+                sig(h.soh_rms_pp, 3),
+                sig(h.soh_max_abs_pp, 3)
+            );
+        }
+    }
+    let forecast_warnings: Vec<String> = result
+        .curves
+        .iter()
+        .flat_map(|c| c.forecast_warnings.iter().map(move |w| format!("{}: {}", c.dataset, super::warning_text(w))))
+        .collect();
+    if !result.warnings.is_empty() || !forecast_warnings.is_empty() {
+        text.push_str("Warnings\n");
+        for w in &result.warnings {
+            let _ = writeln!(text, "  {}", fit_warning_text(w));
+        }
+        for w in &forecast_warnings {
+            let _ = writeln!(text, "  {w}");
+        }
+    }
+    text.push_str(
+        "\nA fit is only as good as its data: forecasts beyond the fitted range are extrapolations, \
+         and the fitted cell's [calibration] table makes forecasts beyond it say so.\n",
+    );
+    text
+}
+
+/// Four significant figures, in exponent form for the very small or large values rates and
+/// diffusivities take.
+fn number(value: f64) -> String {
+    if value != 0.0 && !(1e-3..1e5).contains(&value.abs()) {
+        format!("{value:.3e}")
+    } else {
+        sig(value, 4)
+    }
 }
 
 /// fit.json.

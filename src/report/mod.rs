@@ -27,7 +27,7 @@ pub use cycle_svg::cycle_svg;
 pub use ensemble::{bands_csv, ensemble_json, percent_label, samples_csv};
 pub use fade_csv::{fade_columns, fade_csv};
 pub use fade_svg::fade_svg;
-pub use fit::{fit_json, fit_svg, fit_warning_text, fitted_cell_toml, uncertainty_toml};
+pub use fit::{fit_json, fit_svg, fit_text, fit_warning_text, fitted_cell_toml, uncertainty_toml};
 pub use forecast_json::forecast_json;
 pub use forecast_text::forecast_text;
 pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
