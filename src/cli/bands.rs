@@ -7,7 +7,7 @@
 use super::{print_caution, CliError};
 use crate::ensemble::Sampler;
 use crate::ensemble::{run_ensemble, summarize, EnsembleConfig, SampleRecord, Shard, Warranty};
-use crate::forecast::{report_grid, ForecastOptions, Horizon, WarningKind};
+use crate::forecast::{report_grid, ForecastOptions, Horizon};
 use crate::input::{self, InputError, Override};
 use crate::report;
 use serde::{Deserialize, Serialize};
@@ -312,31 +312,12 @@ fn finish(
         _ => None,
     };
     let summary = summarize(records, &description.parameters, quantiles, &description.grid, warranty);
-    let mut warnings: Vec<String> = description.input_warnings.clone();
     let complete = records.len() as u64
         == (0..description.samples)
             .filter(|&i| (Shard { index: description.shard_index, count: description.shard_count }).contains(i))
             .count() as u64;
-    if description.shard_count > 1 {
-        warnings.push(format!(
-            "shard {}/{}: these outputs cover this shard's samples only; merge all shards with `fadecast merge`",
-            description.shard_index, description.shard_count
-        ));
-    }
-    if summary.invalid > 0 {
-        warnings.push(format!(
-            "{} samples drew inputs that break an input rule and were left out (see samples.csv)",
-            summary.invalid
-        ));
-    }
-    if summary.failed > 0 {
-        warnings.push(format!("{} samples stopped before the horizon (see samples.csv)", summary.failed));
-    }
-    // The forecasts' own warnings (plating, limits, calibration), counted over samples.
-    warnings.extend(report::counted_warning_lines(&summary.warning_counts, summary.counted as usize, "samples"));
-    if !complete {
-        warnings.push("the run is incomplete; continue it with --resume".into());
-    }
+    let shard = (description.shard_index, description.shard_count);
+    let warnings = report::ensemble_notes(&description.input_warnings, &summary, shard, complete);
     let run_value = serde_json::json!({
         "scenario": description.scenario_name,
         "samples": description.samples,
@@ -370,56 +351,7 @@ fn finish(
         ],
     )?;
 
-    let mut text = format!("{}: {} samples (seed {})\n", description.scenario, summary.samples, description.seed);
-    let _ = writeln!(
-        text,
-        "  counted {}, invalid draws {}, stopped early {}",
-        summary.counted, summary.invalid, summary.failed
-    );
-    for life in &summary.life {
-        let _ = write!(text, "  end of life ({}), reached by {:.1} %:", life.threshold, 100.0 * life.reached_fraction);
-        for (c, y) in life.cycles.iter().zip(&life.years) {
-            let p = report::percent_label(c.p);
-            match (c.value, y.value) {
-                (Some(cv), Some(yv)) => {
-                    let _ =
-                        write!(text, "  P{p} {cv:.0} cycles ({yv:.2} y ± {:.2})", y.standard_error.unwrap_or(f64::NAN));
-                }
-                _ => {
-                    let _ = write!(text, "  P{p} not reached");
-                }
-            }
-        }
-        text.push('\n');
-    }
-    if let Some(w) = &summary.warranty {
-        let _ = writeln!(
-            text,
-            "  warranty {} years at {} %: met by {:.1} % of samples (95 % interval {:.1}–{:.1} %, {} of {})",
-            w.years,
-            w.soh_pct,
-            100.0 * w.probability,
-            100.0 * w.interval_95.0,
-            100.0 * w.interval_95.1,
-            w.met,
-            w.trials
-        );
-        let beyond = summary.warning_counts.iter().find(|(kind, _)| *kind == WarningKind::BeyondCalibration);
-        if let Some((_, n)) = beyond {
-            let _ = writeln!(
-                text,
-                "    (an extrapolation: {n} of {} samples run beyond the aging data the cell was calibrated on)",
-                summary.counted
-            );
-        }
-    }
-    let _ = writeln!(text, "  strongest influence on {}:", summary.sensitivity_measure);
-    for s in summary.sensitivity.iter().take(5) {
-        let _ = writeln!(text, "    {:+.2}  {}", s.rank_correlation, s.path);
-    }
-    for w in &warnings {
-        let _ = writeln!(text, "\n{w}");
-    }
+    let mut text = report::ensemble_text(&description.scenario, description.seed, &summary, &warnings);
     let names: Vec<String> = written.iter().take(5).map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;

@@ -5,6 +5,7 @@ use crate::ensemble::summary::QuantileEstimate;
 use crate::ensemble::{EnsembleSummary, SampleRecord, SampleStatus, CURVE_QUANTITIES};
 use crate::forecast::WarningKind;
 use serde_json::{json, Value};
+use std::fmt::Write as _;
 
 /// `5` for 0.05, `2.5` for 0.025: the quantile as a percent in column names.
 pub fn percent_label(p: f64) -> String {
@@ -133,4 +134,91 @@ pub fn ensemble_json(summary: &EnsembleSummary, run: &Value, warnings: &[String]
     let mut bytes = serde_json::to_vec_pretty(&value)?;
     bytes.push(b'\n');
     Ok(bytes)
+}
+
+/// The notes of an ensemble run, for the terminal and `summary.json`: the scenario's input
+/// warnings, what a shard covers, samples left out, the forecasts' warnings counted over the
+/// samples, and whether the run is complete.
+pub fn ensemble_notes(
+    input_warnings: &[String],
+    summary: &EnsembleSummary,
+    (shard_index, shard_count): (u64, u64),
+    complete: bool,
+) -> Vec<String> {
+    let mut notes = input_warnings.to_vec();
+    if shard_count > 1 {
+        notes.push(format!(
+            "shard {shard_index}/{shard_count}: these outputs cover this shard's samples only; merge all shards with `fadecast merge`"
+        ));
+    }
+    if summary.invalid > 0 {
+        notes.push(format!(
+            "{} samples drew inputs that break an input rule and were left out (see samples.csv)",
+            summary.invalid
+        ));
+    }
+    if summary.failed > 0 {
+        notes.push(format!("{} samples stopped before the horizon (see samples.csv)", summary.failed));
+    }
+    notes.extend(super::counted_warning_lines(&summary.warning_counts, summary.counted as usize, "samples"));
+    if !complete {
+        notes.push("the run is incomplete; continue it with --resume".into());
+    }
+    notes
+}
+
+/// An ensemble run as the terminal shows it: counts, end-of-life quantiles, warranty odds
+/// (marked when the samples extrapolate past the calibration range), sensitivity, notes.
+pub fn ensemble_text(scenario: &str, seed: u64, summary: &EnsembleSummary, notes: &[String]) -> String {
+    let mut text = format!("{scenario}: {} samples (seed {seed})\n", summary.samples);
+    let _ = writeln!(
+        text,
+        "  counted {}, invalid draws {}, stopped early {}",
+        summary.counted, summary.invalid, summary.failed
+    );
+    for life in &summary.life {
+        let _ = write!(text, "  end of life ({}), reached by {:.1} %:", life.threshold, 100.0 * life.reached_fraction);
+        for (c, y) in life.cycles.iter().zip(&life.years) {
+            let p = percent_label(c.p);
+            match (c.value, y.value) {
+                (Some(cv), Some(yv)) => {
+                    let _ =
+                        write!(text, "  P{p} {cv:.0} cycles ({yv:.2} y ± {:.2})", y.standard_error.unwrap_or(f64::NAN));
+                }
+                _ => {
+                    let _ = write!(text, "  P{p} not reached");
+                }
+            }
+        }
+        text.push('\n');
+    }
+    if let Some(w) = &summary.warranty {
+        let _ = writeln!(
+            text,
+            "  warranty {} years at {} %: met by {:.1} % of samples (95 % interval {:.1}–{:.1} %, {} of {})",
+            w.years,
+            w.soh_pct,
+            100.0 * w.probability,
+            100.0 * w.interval_95.0,
+            100.0 * w.interval_95.1,
+            w.met,
+            w.trials
+        );
+        let beyond = summary.warning_counts.iter().find(|(kind, _)| *kind == WarningKind::BeyondCalibration);
+        if let Some((_, n)) = beyond {
+            let _ = writeln!(
+                text,
+                "    (an extrapolation: {n} of {} samples run beyond the aging data the cell was calibrated on)",
+                summary.counted
+            );
+        }
+    }
+    let _ = writeln!(text, "  strongest influence on {}:", summary.sensitivity_measure);
+    for s in summary.sensitivity.iter().take(5) {
+        let _ = writeln!(text, "    {:+.2}  {}", s.rank_correlation, s.path);
+    }
+    for w in notes {
+        let _ = writeln!(text, "\n{w}");
+    }
+    text
 }

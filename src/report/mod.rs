@@ -24,7 +24,7 @@ pub use bands_svg::{bands_svg, sensitivity_svg};
 pub use compare::{compare_csv, compare_svg, compare_text, table_csv, COMPARE_CSV_HEADER, TABLE_CSV_HEADER};
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
 pub use cycle_svg::cycle_svg;
-pub use ensemble::{bands_csv, ensemble_json, percent_label, samples_csv};
+pub use ensemble::{bands_csv, ensemble_json, ensemble_notes, ensemble_text, percent_label, samples_csv};
 pub use fade_csv::{fade_columns, fade_csv};
 pub use fade_svg::fade_svg;
 pub use fit::{fit_json, fit_svg, fit_text, fit_warning_text, fitted_cell_toml, uncertainty_toml};
