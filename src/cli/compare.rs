@@ -9,7 +9,7 @@
 use super::{caution_lines, print_caution, CliError};
 use crate::compare::{self, summarize_comparison, Alternative, CompareConfig, CompareError};
 use crate::ensemble::SampleStatus;
-use crate::forecast::{ForecastOptions, Horizon, WarningKind};
+use crate::forecast::{ForecastOptions, Horizon};
 use crate::input::{self, InputError, Override, OverrideTarget};
 use crate::report;
 use std::fmt::Write as _;
@@ -226,59 +226,7 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         );
     }
     text.push_str(&report::compare_text(&summaries, comparison.sampled));
-    let mut cautions = notes;
-    for s in &summaries {
-        if s.plating_fraction > 0.0 {
-            cautions.push(format!(
-                "\"{}\": lithium plating predicted in {:.0} % of runs — a safety concern, not only a capacity loss; \
-                 do not adopt this protocol without testing it against the cell maker's limits and the applicable standards",
-                s.name,
-                100.0 * s.plating_fraction
-            ));
-        }
-        if s.invalid + s.failed > 0 {
-            cautions.push(format!(
-                "\"{}\": {} samples were left out of its statistics ({} drew inputs breaking an input rule, {} forecasts failed before end of life)",
-                s.name, s.invalid + s.failed, s.invalid, s.failed
-            ));
-        }
-    }
-    // The forecasts' own warnings (limits, calibration; plating is flagged above): once when
-    // every alternative raised the same, otherwise naming the alternatives that did.
-    let mut raised: Vec<(String, Vec<String>)> = Vec::new();
-    for (s, outcomes) in summaries.iter().zip(&comparison.outcomes) {
-        let runs = s.usable + s.invalid + s.failed;
-        let others: Vec<(WarningKind, usize)> =
-            s.warning_counts.iter().copied().filter(|(kind, _)| *kind != WarningKind::Plating).collect();
-        // One run each: the warnings in full, with their numbers; sampled: counted by kind.
-        let lines = match (comparison.sampled, outcomes.first()) {
-            (false, Some(only)) => only
-                .warning_details
-                .iter()
-                .filter(|w| w.kind() != WarningKind::Plating)
-                .map(report::warning_text)
-                .collect(),
-            _ => report::counted_warning_lines(&others, runs, "samples"),
-        };
-        for line in lines {
-            match raised.iter_mut().find(|(l, _)| *l == line) {
-                Some((_, names)) => names.push(s.name.clone()),
-                None => raised.push((line, vec![s.name.clone()])),
-            }
-        }
-    }
-    for (line, names) in raised {
-        if names.len() == summaries.len() {
-            cautions.push(line);
-        } else {
-            let names: Vec<String> = names.iter().map(|n| format!("\"{n}\"")).collect();
-            cautions.push(format!("{}: {line}", names.join(", ")));
-        }
-    }
-    cautions.push(
-        "each alternative's life is a model estimate; choose a protocol on test evidence, not on this ranking alone"
-            .into(),
-    );
+    let cautions = report::compare_cautions(notes, &summaries, &comparison);
     text.push_str(&caution_lines(&cautions));
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));

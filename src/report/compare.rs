@@ -3,7 +3,7 @@
 
 use super::cycle_svg::{padded_range, plot_error};
 use super::ReportError;
-use crate::compare::{AlternativeSummary, ConditionResult, Spread, TABLE_QUANTILES};
+use crate::compare::{AlternativeSummary, Comparison, ConditionResult, Spread, TABLE_QUANTILES};
 use crate::forecast::WarningKind;
 use plotters::prelude::*;
 use std::fmt::Write as _;
@@ -332,6 +332,67 @@ pub fn table_csv(results: &[ConditionResult]) -> Result<Vec<u8>, ReportError> {
         }
     }
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
+}
+
+/// The cautions of a comparison: the scenario's notes, plating per alternative, samples left
+/// out, the forecasts' own warnings (once when every alternative raised the same, else naming
+/// the alternatives; in full with their numbers for one run each, counted when sampled) and
+/// the closing reminder that a ranking is a model estimate.
+pub fn compare_cautions(notes: Vec<String>, summaries: &[AlternativeSummary], comparison: &Comparison) -> Vec<String> {
+    let mut cautions = notes;
+    for s in summaries {
+        if s.plating_fraction > 0.0 {
+            cautions.push(format!(
+                "\"{}\": lithium plating predicted in {:.0} % of runs — a safety concern, not only a capacity loss; \
+                 do not adopt this protocol without testing it against the cell maker's limits and the applicable standards",
+                s.name,
+                100.0 * s.plating_fraction
+            ));
+        }
+        if s.invalid + s.failed > 0 {
+            cautions.push(format!(
+                "\"{}\": {} samples were left out of its statistics ({} drew inputs breaking an input rule, {} forecasts failed before end of life)",
+                s.name, s.invalid + s.failed, s.invalid, s.failed
+            ));
+        }
+    }
+    // The forecasts' own warnings (limits, calibration; plating is flagged above): once when
+    // every alternative raised the same, otherwise naming the alternatives that did.
+    let mut raised: Vec<(String, Vec<String>)> = Vec::new();
+    for (s, outcomes) in summaries.iter().zip(&comparison.outcomes) {
+        let runs = s.usable + s.invalid + s.failed;
+        let others: Vec<(WarningKind, usize)> =
+            s.warning_counts.iter().copied().filter(|(kind, _)| *kind != WarningKind::Plating).collect();
+        // One run each: the warnings in full, with their numbers; sampled: counted by kind.
+        let lines = match (comparison.sampled, outcomes.first()) {
+            (false, Some(only)) => only
+                .warning_details
+                .iter()
+                .filter(|w| w.kind() != WarningKind::Plating)
+                .map(super::warning_text)
+                .collect(),
+            _ => super::counted_warning_lines(&others, runs, "samples"),
+        };
+        for line in lines {
+            match raised.iter_mut().find(|(l, _)| *l == line) {
+                Some((_, names)) => names.push(s.name.clone()),
+                None => raised.push((line, vec![s.name.clone()])),
+            }
+        }
+    }
+    for (line, names) in raised {
+        if names.len() == summaries.len() {
+            cautions.push(line);
+        } else {
+            let names: Vec<String> = names.iter().map(|n| format!("\"{n}\"")).collect();
+            cautions.push(format!("{}: {line}", names.join(", ")));
+        }
+    }
+    cautions.push(
+        "each alternative's life is a model estimate; choose a protocol on test evidence, not on this ranking alone"
+            .into(),
+    );
+    cautions
 }
 
 #[cfg(test)]
