@@ -4,7 +4,7 @@
 
 use super::{caution_lines, print_caution, CliError};
 use crate::compare::{run_table, CompareError, Condition, TableConfig};
-use crate::forecast::{ForecastOptions, ForecastWarning, Horizon, StopReason, WarningKind};
+use crate::forecast::{ForecastOptions, Horizon, StopReason};
 use crate::input::{self, InputError, Override};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use crate::report;
@@ -188,37 +188,13 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
     if let Some(sampler) = &sampler {
         let _ = writeln!(text, "  {} samples per condition (seed {})", sampler.samples(), config.seed);
     }
-    let _ = writeln!(text, "\n  {:<28}{:>14}{:>14}{:>18}", "condition", "horizon EFC", "SOH, %", "resistance, %");
-    let mut cautions = notes;
-    let mut failures = Vec::new();
-    let mut other_warnings: Vec<&ForecastWarning> = Vec::new();
-    for r in &results {
-        let label = r.condition.label();
-        if let Some(last) = r.nominal.points.last() {
-            let _ = writeln!(
-                text,
-                "  {:<28}{:>14.0}{:>14.1}{:>+18.1}",
-                label, last.efc, last.soh_pct, last.resistance_growth_pct
-            );
-        }
-        for w in &r.nominal.warnings {
-            if w.kind() == WarningKind::Plating {
-                cautions.push(format!("{label}: {}", report::warning_text(w)));
-            } else if !other_warnings.iter().any(|o| o.kind() == w.kind()) {
-                other_warnings.push(w);
-            }
-        }
-        if r.samples_left_out > 0 {
-            cautions.push(format!(
-                "{label}: {} samples left out of the quantiles (invalid draws or forecasts stopping before the horizon)",
-                r.samples_left_out
-            ));
-        }
-        if let (StopReason::Failed { .. }, Some(why)) = (&r.nominal.stop, report::stop_text(&r.nominal.stop, true)) {
-            failures.push(format!("{label} {why}"));
-        }
-    }
-    cautions.extend(other_warnings.into_iter().map(report::warning_text));
+    let (rows, cautions) = report::table_text(&results, notes);
+    text.push_str(&rows);
+    let failures: Vec<String> = results
+        .iter()
+        .filter(|r| matches!(r.nominal.stop, StopReason::Failed { .. }))
+        .filter_map(|r| report::stop_text(&r.nominal.stop, true).map(|why| format!("{} {why}", r.condition.label())))
+        .collect();
     text.push_str(&caution_lines(&cautions));
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));

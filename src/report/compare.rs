@@ -4,7 +4,7 @@
 use super::cycle_svg::{padded_range, plot_error};
 use super::ReportError;
 use crate::compare::{AlternativeSummary, Comparison, ConditionResult, Spread, TABLE_QUANTILES};
-use crate::forecast::WarningKind;
+use crate::forecast::{ForecastWarning, WarningKind};
 use plotters::prelude::*;
 use std::fmt::Write as _;
 
@@ -393,6 +393,41 @@ pub fn compare_cautions(notes: Vec<String>, summaries: &[AlternativeSummary], co
             .into(),
     );
     cautions
+}
+
+/// A fade table's rows at the horizon as the terminal shows them, and its cautions: the
+/// scenario's notes, plating per condition (from the typed warning), samples left out, and
+/// each other kind of warning once.
+pub fn table_text(results: &[ConditionResult], notes: Vec<String>) -> (String, Vec<String>) {
+    let mut text = String::new();
+    let _ = writeln!(text, "\n  {:<28}{:>14}{:>14}{:>18}", "condition", "horizon EFC", "SOH, %", "resistance, %");
+    let mut cautions = notes;
+    let mut other_warnings: Vec<&ForecastWarning> = Vec::new();
+    for r in results {
+        let label = r.condition.label();
+        if let Some(last) = r.nominal.points.last() {
+            let _ = writeln!(
+                text,
+                "  {:<28}{:>14.0}{:>14.1}{:>+18.1}",
+                label, last.efc, last.soh_pct, last.resistance_growth_pct
+            );
+        }
+        for w in &r.nominal.warnings {
+            if w.kind() == WarningKind::Plating {
+                cautions.push(format!("{label}: {}", super::warning_text(w)));
+            } else if !other_warnings.iter().any(|o| o.kind() == w.kind()) {
+                other_warnings.push(w);
+            }
+        }
+        if r.samples_left_out > 0 {
+            cautions.push(format!(
+                "{label}: {} samples left out of the quantiles (invalid draws or forecasts stopping before the horizon)",
+                r.samples_left_out
+            ));
+        }
+    }
+    cautions.extend(other_warnings.into_iter().map(super::warning_text));
+    (text, cautions)
 }
 
 #[cfg(test)]

@@ -22,7 +22,8 @@ pub mod text;
 pub use atomic::{write_all_atomic, write_atomic, write_atomic_streamed};
 pub use bands_svg::{bands_svg, sensitivity_svg};
 pub use compare::{
-    compare_cautions, compare_csv, compare_svg, compare_text, table_csv, COMPARE_CSV_HEADER, TABLE_CSV_HEADER,
+    compare_cautions, compare_csv, compare_svg, compare_text, table_csv, table_text, COMPARE_CSV_HEADER,
+    TABLE_CSV_HEADER,
 };
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
 pub use cycle_svg::cycle_svg;
