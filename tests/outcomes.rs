@@ -247,3 +247,31 @@ fn forecast_repeats_the_held_series_warning_of_cycle() {
     let kinds = warning_kinds(&json(&out.join("summary.json")));
     assert!(kinds.contains(&"held_at_voltage_limit".to_string()), "{kinds:?}");
 }
+
+#[test]
+fn runs_of_an_earlier_journal_format_are_refused_not_read_as_empty() {
+    // Journal records now carry warning kinds and typed stop reasons; an older run must say so
+    // rather than look unfinished.
+    let dir = tempfile::tempdir().unwrap();
+    let run = dir.path().join("run");
+    let scenario = repo("examples/van-fleet-bands.toml");
+    run_ok(&[
+        "bands",
+        scenario.to_str().unwrap(),
+        "--samples",
+        "2",
+        "--cycles",
+        "20",
+        "--quiet",
+        "--out",
+        run.to_str().unwrap(),
+    ]);
+    let description = std::fs::read_to_string(run.join("run.json")).unwrap();
+    assert!(description.contains("\"format\": 2"), "{description}");
+    std::fs::write(run.join("run.json"), description.replace("\"format\": 2", "\"format\": 1")).unwrap();
+    let merged = dir.path().join("merged");
+    let output = fadecast().args(["merge", run.to_str().unwrap(), "--out", merged.to_str().unwrap()]).output().unwrap();
+    assert_eq!(output.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(stderr.contains("another version of fadecast"), "{stderr}");
+}

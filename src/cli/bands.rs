@@ -20,6 +20,9 @@ use std::sync::Mutex;
 
 pub const JOURNAL_NAME: &str = "samples.journal";
 pub const RUN_NAME: &str = "run.json";
+/// Version of `run.json` and the journal's records; 2 since records carry warning kinds and
+/// typed stop reasons.
+pub const RUN_FORMAT: u32 = 2;
 /// Most samples one run may ask for: a million samples keep about 1.2 GB of curves in memory.
 pub const MAX_SAMPLES: u64 = 1_000_000;
 
@@ -159,7 +162,7 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
     let sampler = Sampler::new(&spec, config.seed, config.samples)
         .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?;
     let description = RunDescription {
-        format: 1,
+        format: RUN_FORMAT,
         scenario: config.scenario.display().to_string(),
         overrides: config.overrides_text.clone(),
         samples: config.samples,
@@ -294,8 +297,19 @@ pub(super) fn optional_sampler(
 fn read_description(dir: &Path) -> Result<RunDescription, CliError> {
     let path = dir.join(RUN_NAME);
     let text = fs::read_to_string(&path).map_err(|e| InputError::unreadable(&path, &e))?;
-    serde_json::from_str(&text)
-        .map_err(|e| InputError::new(&path, format!("not a fadecast run description: {e}")).into())
+    let description: RunDescription = serde_json::from_str(&text)
+        .map_err(|e| InputError::new(&path, format!("not a fadecast run description: {e}")))?;
+    if description.format != RUN_FORMAT {
+        return Err(InputError::new(
+            &path,
+            format!(
+                "written by another version of fadecast (run format {}, this version reads {RUN_FORMAT}): run it again",
+                description.format
+            ),
+        )
+        .into());
+    }
+    Ok(description)
 }
 
 /// Writes every output of a run from its records (sorted by index): the same bytes whatever
