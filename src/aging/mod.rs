@@ -80,6 +80,16 @@ pub enum Side {
     Positive,
 }
 
+impl Side {
+    /// The electrode's table in a cell file (`[negative]`, `[positive]`).
+    pub fn key(self) -> &'static str {
+        match self {
+            Side::Negative => "negative",
+            Side::Positive => "positive",
+        }
+    }
+}
+
 /// What a mechanism may read to compute its rates for one cycle.
 #[derive(Debug, Clone, Copy)]
 pub struct AgingContext<'a> {

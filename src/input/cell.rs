@@ -11,7 +11,7 @@ use super::mechanisms::{convert_calibration, reject_on_positive, CalibrationSect
 use super::overrides::{Override, OverrideTarget};
 use super::suggest;
 use super::units::{CUBIC_CENTIMETRE, GIGA, KILO, MICRO, MILLI};
-use crate::aging::{self, MechanismTable};
+use crate::aging::{self, MechanismTable, Side};
 use crate::aging::{AgingParams, CalibrationRange};
 use crate::cycle::{Cell, Electrode};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
@@ -118,29 +118,6 @@ impl Default for NumericsSection {
 
 fn default_shells() -> i64 {
     DEFAULT_SHELLS
-}
-
-/// Which way an electrode's stoichiometry moves as the cell charges.
-#[derive(Debug, Clone, Copy)]
-enum Side {
-    Negative,
-    Positive,
-}
-
-impl Side {
-    fn of(side: aging::Side) -> Side {
-        match side {
-            aging::Side::Negative => Side::Negative,
-            aging::Side::Positive => Side::Positive,
-        }
-    }
-
-    fn key(self) -> &'static str {
-        match self {
-            Side::Negative => "negative",
-            Side::Positive => "positive",
-        }
-    }
 }
 
 /// A cell file as understood: the cycle model's cell and, apart from it, its aging laws.
@@ -304,11 +281,11 @@ fn convert_electrode(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSec
 /// (`src/aging/`), in registry order; absent or switched-off ones stay `None`. A table its
 /// mechanism does not allow on an electrode is rejected there.
 fn convert_aging(checks: &mut Checks<'_>, file: &CellFile, reference_temperature_c: f64) -> AgingParams {
-    let electrode = |side: aging::Side| match side {
-        aging::Side::Negative => &file.negative,
-        aging::Side::Positive => &file.positive,
+    let electrode = |side: Side| match side {
+        Side::Negative => &file.negative,
+        Side::Positive => &file.positive,
     };
-    for side in [aging::Side::Negative, aging::Side::Positive] {
+    for side in [Side::Negative, Side::Positive] {
         for (table, _) in electrode(side).mechanism_tables().iter().filter(|(_, s)| s.is_some()) {
             match aging::registration_of(table) {
                 Some(r) if !r.sides.contains(&side) => reject_on_positive(checks, table, true, r.models),
@@ -323,7 +300,7 @@ fn convert_aging(checks: &mut Checks<'_>, file: &CellFile, reference_temperature
             let section = electrode(side);
             let found = section.mechanism_tables().into_iter().find(|(name, _)| *name == table).and_then(|(_, s)| s);
             let Some(found) = found.filter(|s| s.enabled()) else { continue };
-            let key = format!("{}.{table}", Side::of(side).key());
+            let key = format!("{}.{table}", side.key());
             let surroundings = Surroundings { reference_temperature_c, particle_radius_um: section.particle_radius_um };
             found.store(&mut TableRules { checks: &mut *checks, table: &key, surroundings }, side, &mut aging);
         }
