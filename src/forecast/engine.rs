@@ -57,8 +57,12 @@ struct CycleSnapshot {
 enum RateFailure {
     /// No charge can be cycled in the voltage window any more: the cell is used up.
     Exhausted,
-    Cycle(String),
-    Integrator(String),
+    Failed(ForecastFailure),
+}
+
+/// A cycle that could not be simulated.
+fn cycle_failure(error: impl std::fmt::Display) -> RateFailure {
+    RateFailure::Failed(ForecastFailure::Cycle { detail: error.to_string() })
 }
 
 /// Everything one forecast needs, with the mutable parts behind RefCells because the
@@ -179,15 +183,14 @@ impl<'a> Forecaster<'a> {
                 // First cycle (or the last end state no longer fits): reach the periodic state.
                 let mut start = scenario.clone();
                 start.ambient_k = ambient_k;
-                let (first, end) = simulate_periodic_with(&self.model, &start, health, &self.settings)
-                    .map_err(|e| RateFailure::Cycle(e.to_string()))?;
+                let (first, end) =
+                    simulate_periodic_with(&self.model, &start, health, &self.settings).map_err(cycle_failure)?;
                 *self.simulated.borrow_mut() += first.warmup_cycles;
                 end
             }
         };
         let run = CycleRun { duty: &scenario.duty, ambient_k, health, balance };
-        simulate_cycle(&self.model, &run, &mut state, &self.settings, record)
-            .map_err(|e| RateFailure::Cycle(e.to_string()))?;
+        simulate_cycle(&self.model, &run, &mut state, &self.settings, record).map_err(cycle_failure)?;
         *self.simulated.borrow_mut() += 1;
         let step_of_peak = |current: fn(f64) -> f64| {
             record
@@ -436,12 +439,7 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         let last_soh_pct = forecast.points.last().map(|p| p.soh_pct);
         forecast.stop = match failure {
             RateFailure::Exhausted => StopReason::Exhausted { at, last_soh_pct },
-            RateFailure::Cycle(detail) => {
-                StopReason::Failed { at, last_soh_pct, failure: ForecastFailure::Cycle { detail } }
-            }
-            RateFailure::Integrator(detail) => {
-                StopReason::Failed { at, last_soh_pct, failure: ForecastFailure::Integrator { detail } }
-            }
+            RateFailure::Failed(failure) => StopReason::Failed { at, last_soh_pct, failure },
         };
     }
     forecast.end_of_life = end_of_life(&forecast.points, plan, forecaster.cycling(), plan.usage.cycles_per_day);
@@ -490,7 +488,10 @@ fn integrate_jumping(
         }
         Err(e) => {
             let x = stepper.x_out().last().copied().map_or(0.0, unstretched);
-            forecaster.failure.borrow_mut().get_or_insert((x, RateFailure::Integrator(e.to_string())));
+            forecaster
+                .failure
+                .borrow_mut()
+                .get_or_insert((x, RateFailure::Failed(ForecastFailure::Integrator { detail: e.to_string() })));
         }
     }
     let mut xs = vec![0.0];
