@@ -82,13 +82,7 @@ impl ReportScale {
                 vec![value("ah", ah), value("pct", 100.0 * ah / self.fresh_capacity_ah)]
             }
             Measure::Nanometres => vec![value("nm", raw)],
-            Measure::CrackNanometres(side) => {
-                let radius = match side {
-                    Side::Negative => self.neg_radius_nm,
-                    Side::Positive => self.pos_radius_nm,
-                };
-                vec![value("nm", raw.min(radius))]
-            }
+            Measure::CrackNanometres(side) => vec![value("nm", self.crack_nm(state, side))],
             Measure::ElectrodeFraction => vec![value("pct", 100.0 * raw)],
             Measure::AmpereHours => vec![value("ah", raw)],
             Measure::WattHours => vec![value("wh", raw)],
@@ -98,6 +92,15 @@ impl ReportScale {
     /// Every reported value of a state, in table order.
     pub fn all_values(&self, state: &AgingState) -> Vec<ReportedValue> {
         COMPONENTS.iter().flat_map(|spec| self.values(spec, state)).collect()
+    }
+
+    /// Crack length of one electrode as reported, nm: no longer than the particle radius (the
+    /// integrator may step slightly past it; the physics caps it in `aging::crack_length_m`).
+    pub fn crack_nm(&self, state: &AgingState, side: Side) -> f64 {
+        match side {
+            Side::Negative => state[Component::NegCrackNm].min(self.neg_radius_nm),
+            Side::Positive => state[Component::PosCrackNm].min(self.pos_radius_nm),
+        }
     }
 
     /// Lithium of one sink in Ah (its own share).

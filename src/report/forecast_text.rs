@@ -1,7 +1,7 @@
 //! The forecast as the terminal shows it.
 
 use super::outcome::{stop_text, warning_text};
-use crate::aging::{Component, Measure, COMPONENTS};
+use crate::aging::{Component, Measure, Side, COMPONENTS};
 use crate::forecast::{Forecast, StopReason, Threshold};
 use std::fmt::Write as _;
 
@@ -86,7 +86,7 @@ pub fn forecast_text(f: &Forecast, cycling: bool) -> String {
         "state",
         last.state[Component::FilmOriginalNm],
         last.film_crack_nm,
-        last.state[Component::NegCrackNm].min(scale.neg_radius_nm)
+        scale.crack_nm(&last.state, Side::Negative)
     );
     match &f.stop {
         StopReason::Exhausted { at, .. } => {
