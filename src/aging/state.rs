@@ -268,11 +268,6 @@ impl AgingState {
                 .map(|s| self[s.component])
                 .sum::<f64>()
     }
-
-    /// Cyclable lithium lost to every sink, fraction of fresh.
-    pub fn lithium_lost(&self) -> f64 {
-        self.lithium_total() - self[C::LithiumInventory]
-    }
 }
 
 /// Crack length of one electrode, m. Cracks stop at the particle centre; the integrator may
@@ -385,6 +380,6 @@ mod tests {
         assert!((state.lithium_total() - 1.0).abs() < 1e-15);
         assert!((state[C::LithiumFilmOriginal] - 0.014).abs() < 1e-15);
         assert!((state.own_share(C::LithiumFilmOriginal) - 0.01).abs() < 1e-15);
-        assert!((state.lithium_lost() - 0.016).abs() < 1e-15);
+        assert!((state.lithium_total() - state[C::LithiumInventory] - 0.016).abs() < 1e-15);
     }
 }

@@ -53,14 +53,6 @@ pub fn fit_warning_text(warning: &FitWarning) -> String {
     }
 }
 
-fn with_message(warning: &FitWarning) -> serde_json::Value {
-    let mut value = serde_json::to_value(warning).unwrap_or(serde_json::Value::Null);
-    if let serde_json::Value::Object(map) = &mut value {
-        map.insert("message".into(), serde_json::Value::String(fit_warning_text(warning)));
-    }
-    value
-}
-
 /// The fit as the terminal shows it: parameters, correlations, residuals, hold-out errors,
 /// warnings (the fit's and each dataset's forecast's) and the extrapolation caution.
 pub fn fit_text(name: &str, datasets: usize, result: &FitResult, holdout_after: Option<f64>) -> String {
@@ -163,7 +155,7 @@ pub fn fit_json(result: &FitResult, name: &str, holdout_after: Option<f64>) -> R
         starts: result.starts,
         termination: &result.termination,
         converged: result.converged,
-        warnings: result.warnings.iter().map(with_message).collect(),
+        warnings: result.warnings.iter().map(|w| super::outcome::with_message(w, Some(fit_warning_text(w)))).collect(),
         forecast_warnings: result
             .curves
             .iter()

@@ -130,9 +130,14 @@ pub fn counted_warnings_json(counts: &[(WarningKind, usize)], samples: usize, wh
 
 /// One warning as JSON: its typed fields plus the message.
 pub fn warning_json(warning: &ForecastWarning) -> Value {
-    let mut value = serde_json::to_value(warning).unwrap_or(Value::Null);
-    if let Value::Object(map) = &mut value {
-        map.insert("message".into(), Value::String(warning_text(warning)));
+    with_message(warning, Some(warning_text(warning)))
+}
+
+/// A typed outcome as JSON (its serde fields) with its words added as `message`, when it has any.
+pub(super) fn with_message(typed: &impl serde::Serialize, message: Option<String>) -> Value {
+    let mut value = serde_json::to_value(typed).unwrap_or(Value::Null);
+    if let (Value::Object(map), Some(message)) = (&mut value, message) {
+        map.insert("message".into(), Value::String(message));
     }
     value
 }
@@ -154,11 +159,7 @@ pub fn stop_text(stop: &StopReason, cycling: bool) -> Option<String> {
 
 /// A stop reason as JSON: its typed fields plus the message.
 pub fn stop_json(stop: &StopReason, cycling: bool) -> Value {
-    let mut value = serde_json::to_value(stop).unwrap_or(Value::Null);
-    if let (Value::Object(map), Some(text)) = (&mut value, stop_text(stop, cycling)) {
-        map.insert("message".into(), Value::String(text));
-    }
-    value
+    with_message(stop, stop_text(stop, cycling))
 }
 
 #[cfg(test)]
