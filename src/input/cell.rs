@@ -7,7 +7,7 @@ use serde::Deserialize;
 use super::checks::Checks;
 use super::document::{check_shape, TomlDocument};
 use super::error::{first_problem, InputError};
-use super::mechanisms::{convert_calibration, reject_on_positive, CalibrationSection, Surroundings, TableRules};
+use super::mechanisms::{convert_calibration, reject_misplaced, CalibrationSection, Surroundings, TableRules};
 use super::overrides::{Override, OverrideTarget};
 use super::suggest;
 use super::units::{CUBIC_CENTIMETRE, GIGA, KILO, MICRO, MILLI};
@@ -287,9 +287,8 @@ fn convert_aging(checks: &mut Checks<'_>, file: &CellFile, reference_temperature
     };
     for side in [Side::Negative, Side::Positive] {
         for (table, _) in electrode(side).mechanism_tables().iter().filter(|(_, s)| s.is_some()) {
-            match aging::registration_of(table) {
-                Some(r) if !r.sides.contains(&side) => reject_on_positive(checks, table, true, r.models),
-                _ => {}
+            if let Some(registration) = aging::registration_of(table).filter(|r| !r.sides.contains(&side)) {
+                reject_misplaced(checks, side, table, registration);
             }
         }
     }

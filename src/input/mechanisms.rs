@@ -11,7 +11,7 @@
 use serde::Deserialize;
 
 use super::checks::Checks;
-use crate::aging::{CalibrationRange, TableReader};
+use crate::aging::{CalibrationRange, Registration, Side, TableReader};
 use crate::material::constants::ZERO_CELSIUS_K;
 use crate::material::units::KILO;
 
@@ -161,12 +161,17 @@ pub(super) fn convert_calibration(checks: &mut Checks<'_>, section: &Calibration
     CalibrationRange { cycles: section.cycles, days: section.days, efc: section.efc, temperature_k }
 }
 
-/// Reports a table that only the negative electrode may have, found under the positive one.
-pub(super) fn reject_on_positive(checks: &mut Checks<'_>, table: &str, present: bool, what: &str) {
-    if present {
-        checks.report(
-            &format!("positive.{table}"),
-            format!("unknown key; {what} is modelled on the negative electrode only (`[negative.{table}]`)"),
-        );
-    }
+/// Reports a mechanism table found under an electrode its mechanism does not act on.
+pub(super) fn reject_misplaced(checks: &mut Checks<'_>, side: Side, table: &str, registration: &Registration) {
+    let allowed: Vec<String> = registration.sides.iter().map(|s| format!("`[{}.{table}]`", s.key())).collect();
+    let electrodes: Vec<&str> = registration.sides.iter().map(|s| s.key()).collect();
+    checks.report(
+        &format!("{}.{table}", side.key()),
+        format!(
+            "unknown key; {} is modelled on the {} electrode only ({})",
+            registration.models,
+            electrodes.join(" and "),
+            allowed.join(", ")
+        ),
+    );
 }
