@@ -450,7 +450,6 @@ fn mechanism_tables_convert_to_si_units() {
     assert_close(cracking.initial_length_m, 10.0e-9);
     assert_close(cracking.density_per_m2, 3.0e12);
     assert_close(cracking.width_m, 100.0e-9);
-    assert_close(cracking.geometry_factor, 1.12);
     assert_close(cracking.reference_temperature_k, 20.0 + ZERO_CELSIUS_K);
 
     let plating = aging.plating.expect("plating table present");

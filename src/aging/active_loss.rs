@@ -1,22 +1,28 @@
 //! Stress-driven loss of active material of one electrode.
 //!
-//! Per cycle a fraction k(T)·(σ_h,max/σ_c)^m of the remaining material is lost while the surface
-//! hydrostatic stress is tensile; at the particle surface σ_r = 0, so σ_h = 2σ_t/3. The lost
-//! material keeps the lithium it held while under tension (it is counted as stranded).
-//! Per cycle, not per second: doubling the current doubles the stress and multiplies the loss
-//! per cycle by 2^m in the quasi-steady regime.
+//! The surface hydrostatic stress (σ_r = 0 at the surface, so σ_h = 2σ_t/3) is rainflow counted
+//! over the duty cycle ([`super::rainflow`]); every counted cycle loses a fraction
+//! k·A(T)·(Δσ_h/σ_c)^m of the remaining material, Δσ_h the tensile part of its range and A(T)
+//! the Arrhenius factor at the temperature of its peak. For a duty cycle with one tensile
+//! excursion from rest this is the per-cycle law on the peak stress; each further reversal adds
+//! its own share. Fragments so detached lose contact with the lithium they held while under
+//! tension (counted as stranded). Doubling the current doubles the stress and multiplies the
+//! loss by 2^m in the quasi-steady regime.
 //!
 //! References: I. Laresgoiti, S. Käbitz, M. Ecker, D. U. Sauer, J. Power Sources 300 (2015) 112
 //! (from memory); review: J. M. Reniers, G. Mulder, D. A. Howey, J. Electrochem. Soc. 166 (2019)
 //! A3189.
 
-use super::{mean_temperature_k, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
+use super::cracking::tensile_range;
+use super::rainflow::count_periodic;
+use super::{AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
 use crate::material::arrhenius_factor;
 use crate::material::units::MEGA;
 
-/// Fraction of the remaining active material lost per cycle at a peak hoop stress.
-pub fn loss_per_cycle(p: &ActiveLossParams, peak_hoop_pa: f64, temperature_k: f64) -> f64 {
-    let hydrostatic = 2.0 / 3.0 * peak_hoop_pa;
+/// Fraction of the remaining active material lost by one counted cycle whose tensile hoop-stress
+/// range is `range_hoop_pa`, at the temperature of its peak.
+pub fn loss_per_cycle(p: &ActiveLossParams, range_hoop_pa: f64, temperature_k: f64) -> f64 {
+    let hydrostatic = 2.0 / 3.0 * range_hoop_pa;
     if hydrostatic <= 0.0 {
         return 0.0;
     }
@@ -117,8 +123,13 @@ impl Mechanism for ActiveLoss {
                 (|p| p.pos_surface_stress_pa, state[Component::PosActiveLost], cell.positive.capacity_coulomb())
             }
         };
-        let Some(peak) = record.trace.iter().map(stress_of).max_by(f64::total_cmp) else { return };
-        let loss = loss_per_cycle(params, peak, mean_temperature_k(record)) * (1.0 - lost);
+        let history: Vec<f64> = record.trace.iter().map(stress_of).collect();
+        let mut counted = 0.0;
+        count_periodic(&history, &mut Vec::new(), |cycle| {
+            let range = tensile_range(cycle.high, cycle.low);
+            counted += cycle.count * loss_per_cycle(params, range, record.trace[cycle.high_index].temperature_k);
+        });
+        let loss = counted * (1.0 - lost);
         // The lost material's lithium content: its stoichiometry weighted by the tensile stress
         // that breaks it, which varies smoothly with the state (an arg-max would jump).
         let stoich_of = |p: &crate::cycle::TracePoint| match self.side {

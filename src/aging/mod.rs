@@ -12,8 +12,10 @@ pub mod crack_film;
 pub mod cracking;
 pub mod film;
 pub mod film_breathing;
+pub mod fracture;
 pub mod params;
 pub mod plating;
+pub mod rainflow;
 pub mod state;
 
 pub use active_loss::ActiveLossParams;
@@ -23,8 +25,8 @@ pub use film_breathing::FilmBreathingParams;
 pub use params::{CalibrationRange, MechanismTable, TableReader};
 pub use plating::PlatingParams;
 pub use state::{
-    crack_length_m, film_resistance_ohm, health_of, negative_surfaces, AgingState, Component, ComponentSpec, Measure,
-    PlotGroup, Surfaces, COMPONENTS, COMPONENT_COUNT,
+    crack_length_m, film_resistance_ohm, health_of, interface_rise, negative_surfaces, AgingState, Component,
+    ComponentSpec, InterfaceRise, Measure, PlotGroup, Surfaces, COMPONENTS, COMPONENT_COUNT, CRACK_FILM_BINS, STATE_LEN,
 };
 
 /// Every aging law of a cell, with its parameters, stored once; `None` means switched off.

@@ -104,7 +104,7 @@ impl Mechanism for Plating {
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
         let (Some(record), Some(params)) = (context.record, &context.aging.plating) else { return };
         let s = negative_surfaces(context.cell, context.aging, state);
-        let plated = plated_charge(params, &record.trace, s.original_m2 + s.crack_m2) / context.lithium_fresh_coulomb;
+        let plated = plated_charge(params, &record.trace, s.original_m2 + s.crack_m2()) / context.lithium_fresh_coulomb;
         let lost = plated * params.irreversible_fraction;
         rate[Component::PlatedTotal] += plated;
         rate.move_lithium(Component::LithiumPlatedDead, lost);

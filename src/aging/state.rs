@@ -26,6 +26,8 @@ pub enum Component {
     FilmOriginalNm,
     NegCrackNm,
     PosCrackNm,
+    NegCentreCrackNm,
+    PosCentreCrackNm,
     NegActiveLost,
     PosActiveLost,
     ThroughputAh,
@@ -162,7 +164,7 @@ pub const COMPONENTS: &[ComponentSpec] = &[
     row(
         C::NegCrackNm,
         "neg_crack",
-        "crack length (negative)",
+        "surface crack depth (negative)",
         Measure::CrackNanometres(Side::Negative),
         PlotGroup::None,
         "cracking (negative)",
@@ -170,7 +172,23 @@ pub const COMPONENTS: &[ComponentSpec] = &[
     row(
         C::PosCrackNm,
         "pos_crack",
-        "crack length (positive)",
+        "surface crack depth (positive)",
+        Measure::CrackNanometres(Side::Positive),
+        PlotGroup::None,
+        "cracking (positive)",
+    ),
+    row(
+        C::NegCentreCrackNm,
+        "neg_centre_crack",
+        "centre crack radius (negative)",
+        Measure::CrackNanometres(Side::Negative),
+        PlotGroup::None,
+        "cracking (negative)",
+    ),
+    row(
+        C::PosCentreCrackNm,
+        "pos_centre_crack",
+        "centre crack radius (positive)",
         Measure::CrackNanometres(Side::Positive),
         PlotGroup::None,
         "cracking (positive)",
@@ -198,12 +216,29 @@ pub const COMPONENTS: &[ComponentSpec] = &[
 /// Number of components of the slow state.
 pub const COMPONENT_COUNT: usize = COMPONENTS.len();
 
-/// The slow state: one value per row of [`COMPONENTS`], indexed by [`Component`].
-/// `LithiumInventory` is integrated as its own component (not derived from the sinks), so
-/// conservation can be checked rather than assumed.
-#[derive(Debug, Clone, Copy, PartialEq, Default)]
+/// Depth bins of the negative's surface crack whose faces carry film of their own age
+/// ([`super::crack_film`]): the crack depth from its initial length to the particle radius in
+/// equal steps.
+pub const CRACK_FILM_BINS: usize = 24;
+
+/// Length of the integrated vector: the components, then the crack-film bins.
+pub const STATE_LEN: usize = COMPONENT_COUNT + CRACK_FILM_BINS;
+
+/// The slow state: one value per row of [`COMPONENTS`], indexed by [`Component`], and the
+/// film on each depth bin of the negative's surface crack (lithium bound, fraction of the
+/// fresh cyclable lithium; their sum is `LithiumFilmCrack`). `LithiumInventory` is integrated
+/// as its own component (not derived from the sinks), so conservation can be checked rather
+/// than assumed.
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct AgingState {
     values: [f64; COMPONENT_COUNT],
+    crack_film: [f64; CRACK_FILM_BINS],
+}
+
+impl Default for AgingState {
+    fn default() -> AgingState {
+        AgingState { values: [0.0; COMPONENT_COUNT], crack_film: [0.0; CRACK_FILM_BINS] }
+    }
 }
 
 impl Index<Component> for AgingState {
@@ -227,17 +262,36 @@ impl AgingState {
         state[C::FilmOriginalNm] = aging.film.map_or(0.0, |f| f.initial_thickness_m * 1e9);
         state[C::NegCrackNm] = aging.neg_cracking.map_or(0.0, |c| c.initial_length_m * 1e9);
         state[C::PosCrackNm] = aging.pos_cracking.map_or(0.0, |c| c.initial_length_m * 1e9);
+        state[C::NegCentreCrackNm] = state[C::NegCrackNm];
+        state[C::PosCentreCrackNm] = state[C::PosCrackNm];
         state
     }
 
-    /// The values in table order (the integrator's vector).
+    /// The components in table order.
     pub fn values(&self) -> &[f64; COMPONENT_COUNT] {
         &self.values
     }
 
-    /// A state from values in table order.
-    pub fn from_values(values: [f64; COMPONENT_COUNT]) -> AgingState {
-        AgingState { values }
+    /// Film on each depth bin of the negative's surface crack, fraction of the fresh lithium.
+    pub fn crack_film(&self) -> &[f64; CRACK_FILM_BINS] {
+        &self.crack_film
+    }
+
+    pub fn crack_film_mut(&mut self) -> &mut [f64; CRACK_FILM_BINS] {
+        &mut self.crack_film
+    }
+
+    /// The integrated vector: components, then crack-film bins.
+    pub fn to_vector(&self) -> [f64; STATE_LEN] {
+        std::array::from_fn(|i| if i < COMPONENT_COUNT { self.values[i] } else { self.crack_film[i - COMPONENT_COUNT] })
+    }
+
+    /// A state from the integrated vector.
+    pub fn from_vector(v: &[f64; STATE_LEN]) -> AgingState {
+        AgingState {
+            values: std::array::from_fn(|i| v[i]),
+            crack_film: std::array::from_fn(|i| v[COMPONENT_COUNT + i]),
+        }
     }
 
     /// Moves `amount` (fraction of the fresh cyclable lithium, per cycle in a rate) out of the
@@ -257,6 +311,17 @@ impl AgingState {
     pub fn own_share(&self, component: Component) -> f64 {
         let parts: f64 = COMPONENTS.iter().filter(|s| s.part_of == Some(component)).map(|s| self[s.component]).sum();
         self[component] - parts
+    }
+
+    /// Each lithium sink's own share of all the lithium lost, in table order (parts separately
+    /// from their parent's own share); empty while nothing is lost.
+    pub fn sink_shares(&self) -> Vec<(Component, f64)> {
+        let sinks = || COMPONENTS.iter().filter(|s| s.measure == Measure::LithiumLost);
+        let total: f64 = sinks().map(|s| self.own_share(s.component)).sum();
+        if total <= 0.0 {
+            return Vec::new();
+        }
+        sinks().map(|s| (s.component, self.own_share(s.component) / total)).collect()
     }
 
     /// Lithium accounted for: inventory plus every sink; 1 for a conserving integration.
@@ -285,50 +350,139 @@ pub fn crack_length_m(cell: &Cell, state: &AgingState, side: Side) -> f64 {
 pub struct Surfaces {
     /// Original (uncracked) active surface still connected, m².
     pub original_m2: f64,
-    /// Crack surface exposed since the cell was fresh, m².
-    pub crack_m2: f64,
+    /// Crack-face area per metre of surface-crack depth, m² (both faces of every crack).
+    pub crack_per_depth_m: f64,
+    /// Depth the surface crack has grown since the cell was fresh, m.
+    pub crack_grown_m: f64,
+    /// Depth bins of the crack-face film: where the first starts and how deep each is, m.
+    pub bins_start_m: f64,
+    pub bin_depth_m: f64,
+}
+
+impl Surfaces {
+    /// Crack-face area exposed since the cell was fresh, m².
+    pub fn crack_m2(&self) -> f64 {
+        self.crack_per_depth_m * self.crack_grown_m
+    }
+
+    /// Crack-face area of depth bin `j` exposed so far, m².
+    pub fn bin_m2(&self, j: usize) -> f64 {
+        let into = self.crack_grown_m - j as f64 * self.bin_depth_m;
+        self.crack_per_depth_m * into.clamp(0.0, self.bin_depth_m)
+    }
 }
 
 /// Surfaces of the negative electrode in a given state: the original surface shrinks with lost
-/// active material; crack surface is crack density × 2 faces × width × (growth since fresh).
+/// active material; crack-face area is crack density × 2 faces × width × depth grown since
+/// fresh, on the original surface still connected.
 pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -> Surfaces {
     let remaining = 1.0 - state[C::NegActiveLost];
     let original = cell.negative.surface_area_m2() * remaining;
-    let crack = aging.neg_cracking.map_or(0.0, |c| {
-        let grown = (crack_length_m(cell, state, Side::Negative) - c.initial_length_m).max(0.0);
-        original * c.density_per_m2 * 2.0 * c.width_m * grown
-    });
-    Surfaces { original_m2: original, crack_m2: crack }
+    let radius = cell.negative.particle_radius_m;
+    match aging.neg_cracking {
+        Some(c) => Surfaces {
+            original_m2: original,
+            crack_per_depth_m: original * c.density_per_m2 * 2.0 * c.width_m,
+            crack_grown_m: (crack_length_m(cell, state, Side::Negative) - c.initial_length_m).max(0.0),
+            bins_start_m: c.initial_length_m,
+            bin_depth_m: (radius - c.initial_length_m) / CRACK_FILM_BINS as f64,
+        },
+        None => Surfaces {
+            original_m2: original,
+            crack_per_depth_m: 0.0,
+            crack_grown_m: 0.0,
+            bins_start_m: 0.0,
+            bin_depth_m: radius / CRACK_FILM_BINS as f64,
+        },
+    }
 }
 
-/// Film volume on crack surface, m³: the lithium it bound times the film's molar volume. The
-/// crack film is tracked through its lithium (not its thickness), because fresh crack area
-/// starts at zero and a mean thickness over it would be singular there.
-pub fn crack_film_volume_m3(cell: &Cell, aging: &AgingParams, state: &AgingState) -> f64 {
-    aging.film.map_or(0.0, |f| {
-        state[C::LithiumFilmCrack] * cell.lithium_inventory_coulomb() / FARADAY * f.molar_volume_m3_mol
-    })
+/// Film volume bound by a lithium fraction, m³.
+pub fn film_volume_of_lithium_m3(cell: &Cell, aging: &AgingParams, lithium: f64) -> f64 {
+    aging.film.map_or(0.0, |f| lithium * cell.lithium_inventory_coulomb() / FARADAY * f.molar_volume_m3_mol)
 }
 
-/// Mean film thickness on crack surface, m (0 before any crack surface exists).
-pub fn crack_film_thickness_m(cell: &Cell, aging: &AgingParams, state: &AgingState) -> f64 {
-    let area = negative_surfaces(cell, aging, state).crack_m2;
+/// Mean film thickness over all crack faces, m (0 before any crack face exists): for reports.
+pub fn crack_film_mean_thickness_m(cell: &Cell, aging: &AgingParams, state: &AgingState) -> f64 {
+    let area = negative_surfaces(cell, aging, state).crack_m2();
     if area > 0.0 {
-        crack_film_volume_m3(cell, aging, state) / area
+        film_volume_of_lithium_m3(cell, aging, state[C::LithiumFilmCrack]) / area
     } else {
         0.0
     }
 }
 
-/// Series resistance of the negative's film, Ω: all film volume, on the original and on crack
-/// surface, over the film's conductivity and the original (still connected) surface squared.
-/// Fresh crack faces are not counted as extra reaction area: they sit deep in the particle,
-/// poorly reached, so their film adds resistance rather than opening a parallel path.
+/// Film thickness on depth bin `j` of the crack faces, m (0 before the bin is exposed).
+pub fn crack_bin_thickness_m(cell: &Cell, aging: &AgingParams, state: &AgingState, surfaces: &Surfaces, j: usize) -> f64 {
+    let area = surfaces.bin_m2(j);
+    if area > 0.0 {
+        // Never negative, even in an integrator's trial stage.
+        (film_volume_of_lithium_m3(cell, aging, state.crack_film[j]) / area).max(0.0)
+    } else {
+        0.0
+    }
+}
+
+/// Area-specific charge-transfer resistance of the negative at its reference temperature and
+/// mid stoichiometry, Ω m²: RT/(F i₀), the linearised Butler–Volmer resistance.
+fn charge_transfer_ohm_m2(cell: &Cell) -> f64 {
+    let n = &cell.negative;
+    let theta = 0.5 * (n.stoich_at_soc0 + n.stoich_at_soc100);
+    let i0 = crate::cycle::kinetics::exchange_current_density(
+        n.rate_constant_m_s,
+        n.max_concentration_mol_m3,
+        theta,
+        cell.electrolyte_concentration_mol_m3,
+    );
+    crate::material::constants::GAS_CONSTANT * cell.reference_temperature_k / (FARADAY * i0)
+}
+
+/// Interface resistance of the negative, Ω: the original surface and every exposed depth bin
+/// of the crack faces are parallel paths, each charge transfer in series with its own film:
+/// 1 / Σ A_k/(r_ct + δ_k/κ).
+pub fn interface_resistance_ohm(cell: &Cell, aging: &AgingParams, state: &AgingState) -> f64 {
+    let r_ct = charge_transfer_ohm_m2(cell);
+    let conductivity = aging.film.map_or(f64::INFINITY, |f| f.conductivity_s_m);
+    let surfaces = negative_surfaces(cell, aging, state);
+    let original_film = state[C::FilmOriginalNm] * 1e-9;
+    let mut conductance = surfaces.original_m2 / (r_ct + original_film / conductivity);
+    for j in 0..CRACK_FILM_BINS {
+        let area = surfaces.bin_m2(j);
+        if area > 0.0 {
+            conductance += area / (r_ct + crack_bin_thickness_m(cell, aging, state, &surfaces, j) / conductivity);
+        }
+    }
+    1.0 / conductance
+}
+
+/// Series resistance the cycle model adds for the negative's interface, Ω: the interface
+/// resistance less the charge transfer of the original surface that its Butler–Volmer kinetics
+/// already carry (negative when fresh crack faces open more reaction area than film closes).
 pub fn film_resistance_ohm(cell: &Cell, aging: &AgingParams, state: &AgingState) -> f64 {
-    let Some(film) = aging.film else { return 0.0 };
-    let area = negative_surfaces(cell, aging, state).original_m2;
-    let volume = state[C::FilmOriginalNm] * 1e-9 * area + crack_film_volume_m3(cell, aging, state);
-    volume / (film.conductivity_s_m * area * area)
+    let original = negative_surfaces(cell, aging, state).original_m2;
+    interface_resistance_ohm(cell, aging, state) - charge_transfer_ohm_m2(cell) / original
+}
+
+/// The rise of the negative's interface resistance since fresh, split by cause, Ω: film on the
+/// original surface, crack faces (their film less the reaction area they add), and original
+/// surface lost with active material. Taken in that order; the parts sum to the whole.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct InterfaceRise {
+    pub film_original_ohm: f64,
+    pub crack_faces_ohm: f64,
+    pub lost_area_ohm: f64,
+}
+
+pub fn interface_rise(cell: &Cell, aging: &AgingParams, state: &AgingState) -> InterfaceRise {
+    let fresh = interface_resistance_ohm(cell, aging, &AgingState::fresh(aging));
+    let mut only_film = AgingState::fresh(aging);
+    only_film[C::FilmOriginalNm] = state[C::FilmOriginalNm];
+    let mut with_cracks = *state;
+    with_cracks[C::NegActiveLost] = 0.0;
+    let film = interface_resistance_ohm(cell, aging, &only_film);
+    let cracks = interface_resistance_ohm(cell, aging, &with_cracks);
+    let all = interface_resistance_ohm(cell, aging, state);
+    InterfaceRise { film_original_ohm: film - fresh, crack_faces_ohm: cracks - film, lost_area_ohm: all - cracks }
 }
 
 /// The slow state as the cycle model sees it.
@@ -347,6 +501,8 @@ pub fn health_of(cell: &Cell, aging: &AgingParams, state: &AgingState) -> Health
 /// added. The capacity of this health against the fresh one is the fade due to lithium loss;
 /// the rest is due to active material lost together with the lithium it held.
 pub fn lithium_only(state: &AgingState, aging: &AgingParams) -> AgingState {
+    // Film stays on the surfaces of the fresh cell's geometry (no crack faces), so it adds no
+    // resistance here either: the fresh film thickness is kept.
     let mut only = AgingState::fresh(aging);
     only[C::LithiumInventory] = state[C::LithiumInventory] + state[C::LithiumStranded];
     only

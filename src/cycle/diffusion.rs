@@ -50,6 +50,10 @@ pub struct SphereModes {
     to_shell: DMatrix<f64>,
     /// Dimensionless shell volumes (ρ₊³ − ρ₋³)/3.
     volume: Vec<f64>,
+    /// Hoop stress per unit stress coefficient at the centre and at each interior shell face
+    /// (ρ = 0, 1/n, …, (n−1)/n), as rows in modal coordinates (row-major, n × n): linear in
+    /// the concentration, so a stored cycle of modal states gives the whole stress history.
+    hoop: Vec<f64>,
 }
 
 impl SphereModes {
@@ -91,7 +95,9 @@ impl SphereModes {
         let row = |i: usize| (0..n).map(|k| to_shell[(i, k)]).collect::<Vec<f64>>();
         let decay = eigen.eigenvalues.iter().map(|&l| l.min(0.0)).collect();
         let moments = |i: usize| shell_moments(i as f64 * h, (i + 1) as f64 * h);
+        let hoop = hoop_rows(&to_shell, &volume);
         SphereModes {
+            hoop,
             outer_moments: moments(n - 1),
             second_outer_moments: moments(n.saturating_sub(2)),
             boundary,
@@ -204,11 +210,7 @@ impl SphereModes {
         if self.shells < 2 {
             return c0;
         }
-        let c1 = Self::dot(&self.second_inner, modes);
-        // c = a + k ρ² matched to the r²-weighted shell averages: ⟨ρ²⟩ = 3/5 h² and 93/35 h².
-        let h2 = (1.0 / self.shells as f64).powi(2);
-        let k = (c1 - c0) / ((93.0 / 35.0 - 0.6) * h2);
-        c0 - k * 0.6 * h2
+        centre_of(c0, Self::dot(&self.second_inner, modes), self.shells)
     }
 
     /// Rows giving the outer and second-outer shell values, so callers can evaluate the
@@ -220,6 +222,38 @@ impl SphereModes {
     pub fn mean_row(&self) -> &[f64] {
         &self.mean
     }
+
+    /// Hoop-stress rows (see the field): row j gives σ_t at ρ = j/n per unit coefficient.
+    pub fn hoop_rows(&self) -> &[f64] {
+        &self.hoop
+    }
+}
+
+/// Hoop stress at the centre and the interior faces, per unit coefficient, for each mode's
+/// shell pattern (linearity: the stress of a modal state is the modal sum of these).
+fn hoop_rows(to_shell: &DMatrix<f64>, volume: &[f64]) -> Vec<f64> {
+    let n = volume.len();
+    let mut rows = vec![0.0; n * n];
+    for k in 0..n {
+        let shells: Vec<f64> = (0..n).map(|i| to_shell[(i, k)]).collect();
+        // The surface value only enters the last face, which is not among these rows.
+        let faces = super::stress::face_stresses(1.0, &shells, volume, shells[n - 1]);
+        let mean = shells.iter().zip(volume).map(|(c, v)| c * v).sum::<f64>() / volume.iter().sum::<f64>();
+        let centre = if n < 2 { shells[0] } else { centre_of(shells[0], shells[1], n) };
+        rows[k] = super::stress::centre_stress(1.0, mean, centre);
+        for j in 1..n {
+            rows[j * n + k] = faces[j - 1].1;
+        }
+    }
+    rows
+}
+
+/// Centre value c = a + k ρ² matched to the r²-weighted averages of the two inner shells
+/// (⟨ρ²⟩ = 3/5 h² and 93/35 h²), zero gradient at the centre.
+fn centre_of(c0: f64, c1: f64, shells: usize) -> f64 {
+    let h2 = (1.0 / shells as f64).powi(2);
+    let k = (c1 - c0) / ((93.0 / 35.0 - 0.6) * h2);
+    c0 - k * 0.6 * h2
 }
 
 /// r²-weighted mean of s and s², s = ρ − 1, over the shell ρ ∈ [lo, hi].

@@ -66,10 +66,77 @@ pub struct StepSummary {
     pub charge_coulomb: f64,
 }
 
+/// The hoop-stress profile of one particle at every trace point, kept compactly as the
+/// particle's modal state (the stress is linear in it): σ_t(ρ_j, t) for the radii
+/// ρ_j = 0, 1/n, …, 1, the last (surface) value being the trace point's own.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct StressHistory {
+    /// σ_t per unit stoichiometry at ρ_j = j/n, j < n, from the modal state (row-major n × n).
+    rows: std::sync::Arc<[f64]>,
+    /// Stress coefficient ΩE c_max/(3(1−ν)), Pa per unit stoichiometry.
+    coefficient_pa: f64,
+    /// Modal state after every trace point, n per point.
+    modes: Vec<f64>,
+}
+
+impl StressHistory {
+    /// Starts an empty history for a particle model's rows, keeping the stored allocation.
+    pub(crate) fn reset(&mut self, rows: &std::sync::Arc<[f64]>, coefficient_pa: f64) {
+        if !std::sync::Arc::ptr_eq(&self.rows, rows) {
+            self.rows = rows.clone();
+        }
+        self.coefficient_pa = coefficient_pa;
+        self.modes.clear();
+    }
+
+    /// Shells of the particle model (profile radii are j/n, j = 0…n).
+    pub fn shells(&self) -> usize {
+        (self.rows.len() as f64).sqrt().round() as usize
+    }
+
+    /// Profile radii as fractions of the particle radius, centre to surface.
+    pub fn radii(&self) -> Vec<f64> {
+        let n = self.shells();
+        (0..=n).map(|j| j as f64 / n as f64).collect()
+    }
+
+    pub(crate) fn push(&mut self, modes: &[f64]) {
+        self.modes.extend_from_slice(modes);
+    }
+
+    /// Σ_j w_j σ_t(ρ_j, t) at every trace point, Pa·(unit of w), for weights at [`Self::radii`];
+    /// `surface_pa` gives the surface value of each point. Empty when no profile was stored.
+    pub fn weighted(&self, weights: &[f64], surface_pa: impl Iterator<Item = f64>, out: &mut Vec<f64>) {
+        out.clear();
+        let n = self.shells();
+        if n == 0 || self.modes.is_empty() {
+            return;
+        }
+        debug_assert_eq!(weights.len(), n + 1);
+        // Collapse the weights onto the modes once, then one short dot product per point.
+        let mut per_mode = vec![0.0; n];
+        for (j, w) in weights[..n].iter().enumerate() {
+            if *w != 0.0 {
+                for (k, m) in per_mode.iter_mut().enumerate() {
+                    *m += w * self.rows[j * n + k];
+                }
+            }
+        }
+        let surface_weight = weights[n];
+        for (modes, surface) in self.modes.chunks_exact(n).zip(surface_pa) {
+            let inner: f64 = per_mode.iter().zip(modes).map(|(w, q)| w * q).sum();
+            out.push(self.coefficient_pa * inner + surface_weight * surface);
+        }
+    }
+}
+
 /// One simulated cycle.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct CycleRecord {
     pub trace: Vec<TracePoint>,
+    /// Hoop-stress profiles of each particle, one per trace point.
+    pub neg_stress: StressHistory,
+    pub pos_stress: StressHistory,
     pub steps: Vec<StepSummary>,
     pub duration_s: f64,
     /// Charge into / out of the cell, C (both positive).

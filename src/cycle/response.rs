@@ -63,12 +63,16 @@ struct ParticleModel {
     max_concentration: f64,
     surface_area_m2: f64,
     stress_coefficient: f64,
+    /// The modes' hoop-stress rows, shared with every cycle record.
+    hoop_rows: std::sync::Arc<[f64]>,
 }
 
 impl ParticleModel {
     fn new(electrode: &Electrode, shells: usize) -> ParticleModel {
+        let modes = SphereModes::new(shells, Boundary::Flux);
         ParticleModel {
-            modes: SphereModes::new(shells, Boundary::Flux),
+            hoop_rows: modes.hoop_rows().into(),
+            modes,
             radius_m: electrode.particle_radius_m,
             max_concentration: electrode.max_concentration_mol_m3,
             surface_area_m2: electrode.surface_area_m2(),
@@ -340,6 +344,20 @@ impl CellModel {
         scratch.neg.apply(&mut state.neg_modes, neg_flux);
         scratch.pos.apply(&mut state.pos_modes, pos_flux);
         state.temperature_k = trial.temperature_k;
+    }
+
+    /// Prepares the record's stress histories for a new cycle (their rows set once per model).
+    pub(super) fn start_stress_histories(&self, record: &mut super::CycleRecord) {
+        for (history, particle) in [(&mut record.neg_stress, &self.neg), (&mut record.pos_stress, &self.pos)] {
+            let coefficient = particle.stress_coefficient * particle.max_concentration;
+            history.reset(&particle.hoop_rows, coefficient);
+        }
+    }
+
+    /// Stores the particles' modal states beside the trace point just pushed.
+    pub(super) fn record_profiles(&self, state: &CellState, record: &mut super::CycleRecord) {
+        record.neg_stress.push(&state.neg_modes);
+        record.pos_stress.push(&state.pos_modes);
     }
 
     pub(super) fn trace_point(&self, time_s: f64, trial: &Trial, balance: &Balance, step: usize) -> TracePoint {

@@ -249,6 +249,7 @@ pub fn simulate_cycle(
     };
     record.trace.clear();
     record.steps.clear();
+    model.start_stress_histories(record);
     let cond = model.conditions(health, state.temperature_k, run.ambient_k);
     let start = model.trial(state, &cond, Control::Current(0.0), 0.0, 0.0, &mut stepper.scratch).ok_or_else(|| {
         CycleError::Failed {
@@ -259,6 +260,7 @@ pub fn simulate_cycle(
         }
     })?;
     record.trace.push(model.trace_point(0.0, &start, balance, 0));
+    model.record_profiles(state, record);
     let mut voltage_limited_s = 0.0;
     match run.duty {
         DutyCycle::Steps(profile) => {
@@ -326,6 +328,8 @@ fn state_change(model: &CellModel, a: &CellState, b: &CellState) -> f64 {
 fn summarise(record: &mut CycleRecord, duration_s: f64, voltage_limited_s: f64) {
     let mut r = CycleRecord {
         trace: std::mem::take(&mut record.trace),
+        neg_stress: std::mem::take(&mut record.neg_stress),
+        pos_stress: std::mem::take(&mut record.pos_stress),
         steps: std::mem::take(&mut record.steps),
         duration_s,
         peak_temperature_k: f64::NEG_INFINITY,
@@ -541,6 +545,7 @@ impl Stepper<'_> {
         self.time_s += trial.dt;
         self.current_guess = trial.current;
         record.trace.push(self.model.trace_point(self.time_s, trial, self.balance, step));
+        self.model.record_profiles(state, record);
     }
 
     /// Finds the step length inside (0, dt] at which the first end is met: Illinois false

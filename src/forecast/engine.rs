@@ -11,10 +11,10 @@
 use super::plan::{Ambient, Horizon, Plan};
 use super::result::*;
 use super::ForecastOptions;
-use crate::aging::state::{crack_film_thickness_m, lithium_only};
+use crate::aging::state::{crack_film_mean_thickness_m, lithium_only};
 use crate::aging::CalibrationRange;
 use crate::aging::{
-    health_of, mechanisms_for, AgingContext, AgingParams, AgingState, Component, Mechanism, COMPONENTS, COMPONENT_COUNT,
+    health_of, mechanisms_for, AgingContext, AgingParams, AgingState, Component, Mechanism, COMPONENTS, COMPONENT_COUNT, STATE_LEN,
 };
 use crate::cycle::cell::LIMIT_SLACK;
 use crate::cycle::{
@@ -243,7 +243,7 @@ impl<'a> Forecaster<'a> {
             resistance_growth_pct: 100.0 * (resistance / fresh_resistance - 1.0),
             fade_lithium_ah: fresh_capacity_ah - lithium_capacity_ah,
             fade_active_material_ah: lithium_capacity_ah - capacity_ah,
-            film_crack_nm: crack_film_thickness_m(cell, self.aging, state) * 1e9,
+            film_crack_nm: crack_film_mean_thickness_m(cell, self.aging, state) * 1e9,
             peak_temperature_c: snapshot.map_or(self.ambient_k(self.day(x)), |s| s.peak_temperature_k) - ZERO_CELSIUS_K,
             state: *state,
         })
@@ -299,7 +299,8 @@ impl System<f64, DVector<f64>> for RateSystem<'_, '_> {
 /// carried scaled down by 2⁻¹⁰⁰ (exact in binary), so their error estimates are nil and they do
 /// not steer the step size; every other component steers as it is.
 fn integrator_scale(component: usize) -> f64 {
-    if COMPONENTS[component].part_of.is_some() {
+    // The crack-film bins after the components sum to a steering component: they ride along.
+    if component >= COMPONENT_COUNT || COMPONENTS[component].part_of.is_some() {
         2f64.powi(-100)
     } else {
         1.0
@@ -325,16 +326,17 @@ const STEERING: usize = {
 /// steering components exactly (powers of two scale without rounding): adding a reported part
 /// changes no number of the forecast.
 const INTEGRATOR_LEN: usize = 4 * STEERING;
-const _: () = assert!(INTEGRATOR_LEN >= COMPONENT_COUNT);
+const _: () = assert!(INTEGRATOR_LEN >= STATE_LEN);
 /// The tolerance factor that goes with the padding: √(STEERING / INTEGRATOR_LEN).
 const STEERING_TOLERANCE_FACTOR: f64 = 0.5;
 
 fn to_integrator(state: &AgingState) -> [f64; INTEGRATOR_LEN] {
-    std::array::from_fn(|i| if i < COMPONENT_COUNT { state.values()[i] * integrator_scale(i) } else { 0.0 })
+    let vector = state.to_vector();
+    std::array::from_fn(|i| if i < STATE_LEN { vector[i] * integrator_scale(i) } else { 0.0 })
 }
 
 fn from_integrator(values: &[f64]) -> AgingState {
-    AgingState::from_values(std::array::from_fn(|i| values[i] / integrator_scale(i)))
+    AgingState::from_vector(&std::array::from_fn(|i| values[i] / integrator_scale(i)))
 }
 
 /// End of the integration variable for a horizon: cycles when cycling, days when storing.
@@ -392,6 +394,7 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         scale: ReportScale::default(),
         warnings: Vec::new(),
         final_state: None,
+        interface_rise: None,
     };
     let fail = |mut f: Forecast, failure: ForecastFailure| {
         f.stop = StopReason::Failed { at: 0.0, last_soh_pct: None, failure };
@@ -435,6 +438,7 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         }
     }
     forecast.final_state = ys.get(forecast.points.len().saturating_sub(1)).copied();
+    forecast.interface_rise = forecast.final_state.map(|state| crate::aging::interface_rise(cell, &plan.aging, &state));
     if let Some((at, failure)) = forecaster.failure.borrow().clone() {
         let last_soh_pct = forecast.points.last().map(|p| p.soh_pct);
         forecast.stop = match failure {
@@ -528,26 +532,26 @@ fn integrate_every_cycle(
 ) -> (Vec<f64>, Vec<AgingState>) {
     let mut xs = vec![0.0];
     let mut ys = vec![start];
-    let mut state = *start.values();
+    let mut state = start.to_vector();
     let mut next_report = spacing;
     let cycles = x_end.ceil() as usize;
     for k in 0..cycles {
         let x = k as f64;
-        let rate = match forecaster.rates(x, &AgingState::from_values(state)) {
-            Ok(r) => *r.values(),
+        let rate = match forecaster.rates(x, &AgingState::from_vector(&state)) {
+            Ok(r) => r.to_vector(),
             Err(failure) => {
                 forecaster.failure.borrow_mut().get_or_insert((x, failure));
                 break;
             }
         };
         let step = (x_end - x).min(1.0);
-        let next: [f64; COMPONENT_COUNT] = std::array::from_fn(|i| state[i] + step * rate[i]);
+        let next: [f64; STATE_LEN] = std::array::from_fn(|i| state[i] + step * rate[i]);
         // Report points inside this cycle are interpolated linearly.
         while next_report <= x + step + 1e-9 && next_report <= x_end + 1e-9 {
             let w = (next_report - x) / step;
-            let mixed: [f64; COMPONENT_COUNT] = std::array::from_fn(|i| state[i] * (1.0 - w) + next[i] * w);
+            let mixed: [f64; STATE_LEN] = std::array::from_fn(|i| state[i] * (1.0 - w) + next[i] * w);
             xs.push(next_report);
-            ys.push(AgingState::from_values(mixed));
+            ys.push(AgingState::from_vector(&mixed));
             next_report += spacing;
         }
         state = next;

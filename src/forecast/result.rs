@@ -82,7 +82,7 @@ impl ReportScale {
                 vec![value("ah", ah), value("pct", 100.0 * ah / self.fresh_capacity_ah)]
             }
             Measure::Nanometres => vec![value("nm", raw)],
-            Measure::CrackNanometres(side) => vec![value("nm", self.crack_nm(state, side))],
+            Measure::CrackNanometres(_) => vec![value("nm", self.crack_nm_of(state, spec.component))],
             Measure::ElectrodeFraction => vec![value("pct", 100.0 * raw)],
             Measure::AmpereHours => vec![value("ah", raw)],
             Measure::WattHours => vec![value("wh", raw)],
@@ -98,9 +98,18 @@ impl ReportScale {
     /// integrator may step slightly past it; the physics caps it in `aging::crack_length_m`).
     pub fn crack_nm(&self, state: &AgingState, side: Side) -> f64 {
         match side {
-            Side::Negative => state[Component::NegCrackNm].min(self.neg_radius_nm),
-            Side::Positive => state[Component::PosCrackNm].min(self.pos_radius_nm),
+            Side::Negative => self.crack_nm_of(state, Component::NegCrackNm),
+            Side::Positive => self.crack_nm_of(state, Component::PosCrackNm),
         }
+    }
+
+    /// Any crack component as reported, nm, no longer than its electrode's particle radius.
+    pub fn crack_nm_of(&self, state: &AgingState, component: Component) -> f64 {
+        let radius = match COMPONENTS[component as usize].measure {
+            Measure::CrackNanometres(Side::Positive) => self.pos_radius_nm,
+            _ => self.neg_radius_nm,
+        };
+        state[component].min(radius)
     }
 
     /// Lithium of one sink in Ah (its own share).
@@ -319,6 +328,8 @@ pub struct Forecast {
     pub warnings: Vec<ForecastWarning>,
     /// The slow state at the last reported point (for conservation checks and restarts).
     pub final_state: Option<AgingState>,
+    /// The negative's interface-resistance rise at the last reported point, by cause.
+    pub interface_rise: Option<crate::aging::InterfaceRise>,
 }
 
 impl Forecast {

@@ -41,6 +41,27 @@ pub fn forecast_json(forecast: &Forecast, scenario: &str, cell: &str, cycling: b
             .map(|v| (format!("{}_{}", v.spec.column, v.unit), json!(v.value)))
             .collect()
     });
+    let shares: Map<String, Value> = last.map_or_else(Map::new, |p| {
+        p.state
+            .sink_shares()
+            .into_iter()
+            .map(|(c, share)| (crate::aging::COMPONENTS[c as usize].column.to_string(), json!(100.0 * share)))
+            .collect()
+    });
+    let resistance_rise = match (last, &forecast.interface_rise) {
+        (Some(p), Some(rise)) => {
+            let total = p.resistance_mohm - forecast.fresh_resistance_mohm;
+            let parts = [rise.film_original_ohm, rise.crack_faces_ohm, rise.lost_area_ohm].map(|r| r * 1e3);
+            json!({
+                "total_mohm": total,
+                "negative_film_original_mohm": parts[0],
+                "negative_crack_faces_mohm": parts[1],
+                "negative_lost_active_area_mohm": parts[2],
+                "other_mohm": total - parts.iter().sum::<f64>(),
+            })
+        }
+        _ => Value::Null,
+    };
     let summary = json!({
         "scenario": scenario,
         "cell": cell,
@@ -53,6 +74,8 @@ pub fn forecast_json(forecast: &Forecast, scenario: &str, cell: &str, cycling: b
         "end_of_life": end_of_life,
         "at_horizon": last.map(|p| point_json(p, &forecast.scale)),
         "lost_at_horizon": lost,
+        "lithium_sink_share_pct": shares,
+        "resistance_rise_at_horizon": resistance_rise,
         "simulated_cycles": forecast.simulated_cycles,
         "integrator": { "accepted_steps": forecast.accepted_steps, "rejected_steps": forecast.rejected_steps },
         "stop": stop_json(&forecast.stop, cycling),

@@ -73,6 +73,26 @@ pub fn forecast_text(f: &Forecast, cycling: bool) -> String {
         .map(|c| format!("{} {}", c.label, super::text::sig(scale.lithium_ah(&last.state, c.component), 3)))
         .collect();
     let _ = writeln!(s, "  {:<34}{} (Ah)", "lithium lost", sinks.join(", "));
+    let shares: Vec<String> = last
+        .state
+        .sink_shares()
+        .iter()
+        .map(|(c, share)| format!("{} {:.0} %", COMPONENTS[*c as usize].label, 100.0 * share))
+        .collect();
+    if !shares.is_empty() {
+        let _ = writeln!(s, "  {:<34}{}", "share of the lithium lost", shares.join(", "));
+    }
+    if let Some(rise) = &f.interface_rise {
+        let _ = writeln!(
+            s,
+            "  {:<34}{:+.2} mΩ in all; negative interface: film on original surface {:+.2}, crack faces {:+.2}, lost active area {:+.2} mΩ",
+            "resistance rise",
+            last.resistance_mohm - f.fresh_resistance_mohm,
+            rise.film_original_ohm * 1e3,
+            rise.crack_faces_ohm * 1e3,
+            rise.lost_area_ohm * 1e3
+        );
+    }
     let _ = writeln!(
         s,
         "  {:<34}negative {:.2}, positive {:.2} (% of each electrode)",
@@ -82,11 +102,12 @@ pub fn forecast_text(f: &Forecast, cycling: bool) -> String {
     );
     let _ = writeln!(
         s,
-        "  {:<34}film {:.0} nm on original, {:.0} nm on crack surface; crack length {:.0} nm (negative)",
+        "  {:<34}film {:.0} nm on original, {:.0} nm mean on crack faces; negative cracks {:.0} nm deep from the surface, {:.0} nm from the centre",
         "state",
         last.state[Component::FilmOriginalNm],
         last.film_crack_nm,
-        scale.crack_nm(&last.state, Side::Negative)
+        scale.crack_nm(&last.state, Side::Negative),
+        scale.crack_nm_of(&last.state, Component::NegCentreCrackNm)
     );
     match &f.stop {
         StopReason::Exhausted { at, .. } => {
