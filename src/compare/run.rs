@@ -251,6 +251,7 @@ mod tests {
             fresh_resistance_mohm: 6.0,
             warnings: vec![],
             final_state: None,
+            interface_rise: None,
         }
     }
 

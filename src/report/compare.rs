@@ -452,6 +452,7 @@ mod tests {
                 scale: Default::default(),
                 warnings,
                 final_state: None,
+                interface_rise: None,
             },
             quantiles: None,
             samples_left_out: 0,
