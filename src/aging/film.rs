@@ -81,7 +81,8 @@ pub fn effective_thickness(p: &FilmParams, thickness_m: f64) -> f64 {
 /// Lithium consumed per unit area and time under a film of thickness δ, mol/(m² s).
 pub fn flux(p: &FilmParams, thickness_m: f64, potential_v: f64, temperature_k: f64) -> f64 {
     let reaction = p.solvent_concentration_mol_m3 * reaction_rate(p, potential_v, temperature_k);
-    reaction / (1.0 + reaction * effective_thickness(p, thickness_m) / transport_coefficient(p, potential_v, temperature_k))
+    reaction
+        / (1.0 + reaction * effective_thickness(p, thickness_m) / transport_coefficient(p, potential_v, temperature_k))
 }
 
 /// Newton iterations allowed when solving t(δ) for a thickness exponent n ≠ 1; each one
@@ -308,8 +309,10 @@ impl FilmSection {
         match self.law {
             FilmLaw::SolventDiffusion => FilmTransport::SolventDiffusion {
                 diffusivity_m2_s: rules.positive("solvent_diffusivity_m2_s", self.solvent_diffusivity_m2_s),
-                activation_j_mol: rules
-                    .activation_j_mol("solvent_diffusivity_activation_kj_mol", self.solvent_diffusivity_activation_kj_mol),
+                activation_j_mol: rules.activation_j_mol(
+                    "solvent_diffusivity_activation_kj_mol",
+                    self.solvent_diffusivity_activation_kj_mol,
+                ),
             },
             FilmLaw::InterstitialDiffusion => {
                 let exponent = self.thickness_exponent.unwrap_or(1.0);
@@ -318,7 +321,8 @@ impl FilmSection {
                     rules.report("thickness_exponent", format!("must lie in {low}–{high} (got {exponent})"));
                 }
                 FilmTransport::InterstitialDiffusion {
-                    diffusivity_m2_s: rules.positive("interstitial_diffusivity_m2_s", self.interstitial_diffusivity_m2_s),
+                    diffusivity_m2_s: rules
+                        .positive("interstitial_diffusivity_m2_s", self.interstitial_diffusivity_m2_s),
                     activation_j_mol: rules.activation_j_mol(
                         "interstitial_diffusivity_activation_kj_mol",
                         self.interstitial_diffusivity_activation_kj_mol,

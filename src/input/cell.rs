@@ -226,6 +226,9 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<LoadedCell, V
         temperature_max_k: limits.max_temperature_c + ZERO_CELSIUS_K,
         reference_temperature_k: reference_temperature_c + ZERO_CELSIUS_K,
         shells: usize::try_from(shells).unwrap_or(0),
+        // The plating law's kinetics act inside the cycle (the current split), read once with
+        // the other aging laws.
+        plating: aging.plating,
     };
     checks.finish(LoadedCell { cell, aging, calibration })
 }
