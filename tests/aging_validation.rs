@@ -99,7 +99,10 @@ fn no_crack_growth_below_the_threshold() {
 
 /// Storage-only forecast with only the film law, returning (day, lithium lost to film).
 fn storage_film_loss(overrides: &[&str]) -> Vec<(f64, f64)> {
-    let f = forecast(STORAGE, overrides, ForecastOptions { relative_tolerance: 1e-7, ..ForecastOptions::default() });
+    // These checks are of the mixed (solvent-diffusion) law.
+    let mut overrides = overrides.to_vec();
+    overrides.push("cell.negative.film.law=solvent-diffusion");
+    let f = forecast(STORAGE, &overrides, ForecastOptions { relative_tolerance: 1e-7, ..ForecastOptions::default() });
     f.points.iter().map(|p| (p.day, 100.0 * p.state[Component::LithiumFilmOriginal])).collect()
 }
 

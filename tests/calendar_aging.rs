@@ -13,6 +13,7 @@
 mod common;
 
 use common::{check_cases, ReferenceCase, Tolerance, STORAGE};
+use fadecast::aging::Component;
 use fadecast::cycle::{balance_cell, Health};
 use fadecast::ensemble::stats::spearman;
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
@@ -75,4 +76,46 @@ fn storage_at_40_c_fades_two_to_four_times_faster_than_at_25_c() {
         ));
     }
     check_cases(&cases);
+}
+
+/// Storage of the van cell for two years at 95 % SOC: (positive host lost, lithium in the
+/// positive's film, capacity lost %) with extra overrides.
+fn positive_aging(ambient_c: f64, extra: &[&str]) -> (f64, f64, f64) {
+    let ambient = format!("ambient_c={ambient_c}");
+    let mut list = vec!["usage.rest_soc_pct=95", ambient.as_str()];
+    list.extend_from_slice(extra);
+    let (scenario, plan) = common::load(STORAGE, &list);
+    let f = run_forecast(&scenario, &plan, Horizon::Years(2.0), &ForecastOptions::default());
+    let (first, last) = (f.points.first().unwrap(), f.points.last().unwrap());
+    (
+        last.state[Component::PosActiveLost],
+        last.state[Component::LithiumPositiveFilm],
+        100.0 * (first.capacity_ah - last.capacity_ah) / first.capacity_ah,
+    )
+}
+
+#[test]
+fn high_soc_storage_at_45_c_ages_the_positive_more_and_switching_it_off_leaves_the_negative_alone() {
+    // Electrolyte oxidation rises with the positive's potential and temperature (Vetter et al.,
+    // J. Power Sources 147 (2005) 269, from memory: the trend only).
+    let (warm_host, warm_lithium, warm_loss) = positive_aging(25.0, &[]);
+    let (hot_host, hot_lithium, hot_loss) = positive_aging(45.0, &[]);
+    println!("  25 °C: host lost {warm_host:.3e}, lithium {warm_lithium:.3e}, capacity {warm_loss:.3} %");
+    println!("  45 °C: host lost {hot_host:.3e}, lithium {hot_lithium:.3e}, capacity {hot_loss:.3} %");
+    assert!(warm_host > 0.0 && warm_lithium > 0.0);
+    assert!(
+        hot_host > 2.0 * warm_host && hot_lithium > 2.0 * warm_lithium,
+        "the positive must age measurably more at 45 °C"
+    );
+    // Off: nothing acts on the positive in storage, and the rest of the forecast is the
+    // negative's alone.
+    let off = "cell.positive.electrolyte_oxidation.enabled=false";
+    let (off_host, off_lithium, off_loss) = positive_aging(45.0, &[off]);
+    assert_eq!((off_host, off_lithium), (0.0, 0.0));
+    assert!(off_loss < hot_loss);
+    let (scenario, plan) = common::load(STORAGE, &["usage.rest_soc_pct=95", "ambient_c=45", off]);
+    let f = run_forecast(&scenario, &plan, Horizon::Years(2.0), &ForecastOptions::default());
+    let last = f.points.last().unwrap();
+    let negative_only = last.state[Component::LithiumFilmOriginal] + last.state[Component::LithiumPlatedDead];
+    assert!((1.0 - last.state[Component::LithiumInventory] - negative_only).abs() < 1e-12);
 }

@@ -285,27 +285,9 @@ impl FilmSection {
         }
     }
 
-    /// The chosen law's transport keys; the other law's keys are reported as unused.
+    /// The chosen law's transport keys. The other law's keys may stay in the table, unused, so
+    /// that `--set cell.negative.film.law=…` switches a cell between laws.
     fn read_transport(&self, rules: &mut dyn TableReader) -> FilmTransport {
-        let solvent = [
-            ("solvent_diffusivity_m2_s", self.solvent_diffusivity_m2_s),
-            ("solvent_diffusivity_activation_kj_mol", self.solvent_diffusivity_activation_kj_mol),
-        ];
-        let interstitial = [
-            ("interstitial_diffusivity_m2_s", self.interstitial_diffusivity_m2_s),
-            ("interstitial_diffusivity_activation_kj_mol", self.interstitial_diffusivity_activation_kj_mol),
-            ("interstitial_concentration_mol_m3", self.interstitial_concentration_mol_m3),
-            ("thickness_exponent", self.thickness_exponent),
-        ];
-        let (unused, law_name) = match self.law {
-            FilmLaw::SolventDiffusion => (&interstitial[..], "solvent-diffusion"),
-            FilmLaw::InterstitialDiffusion => (&solvent[..], "interstitial-diffusion"),
-        };
-        for (field, value) in unused {
-            if value.is_some() {
-                rules.report(field, format!("is not used by law = \"{law_name}\"; remove it or change the law"));
-            }
-        }
         match self.law {
             FilmLaw::SolventDiffusion => FilmTransport::SolventDiffusion {
                 diffusivity_m2_s: rules.positive("solvent_diffusivity_m2_s", self.solvent_diffusivity_m2_s),

@@ -19,6 +19,8 @@ pub struct TracePoint {
     /// Part of the current carried by lithium metal at the negative over the step, A: negative
     /// while lithium plates, positive while it strips (the rest intercalates).
     pub plating_current_a: f64,
+    /// Positive electrode potential against Li/Li⁺ at its surface, U_p + η_p, V.
+    pub pos_potential_v: f64,
     /// Lithium plated on the negative at the step's end (reversible and dead), C.
     pub plated_coulomb: f64,
     /// Mean stoichiometry of each particle.

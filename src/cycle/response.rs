@@ -131,6 +131,8 @@ pub(super) struct Trial {
     /// Part of the current carried by lithium metal at the negative, A: negative while lithium
     /// deposits, positive while it strips (the rest intercalates).
     pub(super) plating_current: f64,
+    /// Positive electrode potential against Li/Li⁺, V.
+    pub(super) pos_potential: f64,
 }
 
 /// Surface and mean stoichiometry after a step, both affine in the current.
@@ -392,15 +394,15 @@ impl CellModel {
         Split { intercalation, x, potential, plating: current - intercalation }
     }
 
-    /// Terminal voltage, the negative's split and the positive's surface stoichiometry at the
-    /// end of the step for a current.
+    /// Terminal voltage, the negative's split, the positive's surface stoichiometry and its
+    /// potential against Li/Li⁺ at the end of the step for a current.
     fn voltage(
         &self,
         cond: &StepConditions,
         maps: &[Affine; 4],
         current: f64,
         strip_limit_a: f64,
-    ) -> (f64, Split, f64) {
+    ) -> (f64, Split, f64, f64) {
         let cell = &self.cell;
         let t = cond.temperature_k;
         let negative = self.split_negative(cond, maps, current, strip_limit_a);
@@ -416,7 +418,7 @@ impl CellModel {
         // Discharge is cathodic at the positive.
         let eta_pos = overpotential(-current / cond.pos_area_m2, i0_pos, t);
         let voltage = u_pos + eta_pos - negative.potential - current * cond.series_resistance_ohm;
-        (voltage, negative, y)
+        (voltage, negative, y, u_pos + eta_pos)
     }
 
     /// Solves for the current meeting the control and returns the end-of-step state.
@@ -442,7 +444,7 @@ impl CellModel {
                 solve_decreasing(|i| target - i * self.voltage(cond, &maps, i, strip_limit).0, guess)?
             }
         };
-        let (voltage, negative, pos_surface) = self.voltage(cond, &maps, current, strip_limit);
+        let (voltage, negative, pos_surface, pos_potential) = self.voltage(cond, &maps, current, strip_limit);
         if !voltage.is_finite() {
             return None;
         }
@@ -472,6 +474,7 @@ impl CellModel {
             pos_mean,
             neg_potential,
             plating_current: negative.plating,
+            pos_potential,
         })
     }
 
@@ -512,6 +515,7 @@ impl CellModel {
             pos_surface_stoich: trial.pos_surface,
             neg_potential_v: trial.neg_potential,
             plating_current_a: trial.plating_current,
+            pos_potential_v: trial.pos_potential,
             // The stepper fills in the lithium on the surface once the step is committed.
             plated_coulomb: 0.0,
             neg_mean_stoich: trial.neg_mean,

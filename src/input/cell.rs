@@ -101,6 +101,7 @@ struct ElectrodeSection {
     cracking: Option<aging::cracking::CrackingSection>,
     plating: Option<aging::plating::PlatingSection>,
     active_loss: Option<aging::active_loss::ActiveLossSection>,
+    electrolyte_oxidation: Option<aging::electrolyte_oxidation::ElectrolyteOxidationSection>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -322,6 +323,7 @@ impl ElectrodeSection {
             ("cracking", table(&self.cracking)),
             ("plating", table(&self.plating)),
             ("active_loss", table(&self.active_loss)),
+            ("electrolyte_oxidation", table(&self.electrolyte_oxidation)),
         ]
     }
 }
