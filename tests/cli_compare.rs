@@ -208,7 +208,7 @@ fn the_fade_table_falls_along_every_row_and_carries_quantiles_with_samples() {
 
 #[test]
 fn higher_ambient_ages_the_film_dominated_cell_faster_by_the_square_root_of_the_diffusivity_factor() {
-    // Derived from the film law of src/aging/film.rs. Lithium goes to the film at
+    // Derived from the mixed film law of src/aging/film.rs. Lithium goes to the film at
     // N = c k / (1 + k δ / D) per unit area. Once the film is much thicker than 2 D / k (here
     // ~5 nm against the ~170 nm grown by the end), growth is diffusion-limited: δ dδ/dt = D c V̄,
     // so δ ≈ √(2 D c V̄ t) and the lithium lost ∝ δ ∝ √(D(T) t). At equal time the loss ratio
@@ -247,6 +247,9 @@ fn higher_ambient_ages_the_film_dominated_cell_faster_by_the_square_root_of_the_
         "cell.positive.active_loss.enabled=false",
         "--set",
         "cell.negative.film_breathing.enabled=false",
+        // The mixed law, which the van cell carries beside its default interstitial law.
+        "--set",
+        "cell.negative.film.law=solvent-diffusion",
     ];
     let rows = table(dir.path(), &args);
     let curve = |ambient: &str| -> Vec<(f64, f64)> {

@@ -32,6 +32,7 @@ const DAYS: [f64; 20] = {
 fn storage_csv(ambient_c: f64, seed: u64) -> String {
     let overrides = [
         parse_override(&format!("ambient_c={ambient_c}")).unwrap(),
+        parse_override("cell.negative.film.law=solvent-diffusion").unwrap(),
         parse_override("cell.negative.film.reaction_rate_m_s=7.5e-16").unwrap(),
         parse_override("cell.negative.film.solvent_diffusivity_m2_s=2.8e-22").unwrap(),
     ];
@@ -57,8 +58,8 @@ fn fit_toml(parameters: &str) -> String {
     let scenario = common::repo(STORAGE).display().to_string();
     format!(
         "name = \"storage at two temperatures\"\nstarts = 2\n\n[weights]\ncapacity_per_ah = 200.0\nresistance_per_mohm = 20.0\n\n\
-         [[dataset]]\nname = \"25 °C\"\ndata = \"storage-25c.csv\"\nscenario = \"{scenario}\"\nset = [\"ambient_c=25\"]\n\n\
-         [[dataset]]\nname = \"40 °C\"\ndata = \"storage-40c.csv\"\nscenario = \"{scenario}\"\nset = [\"ambient_c=40\"]\n\n{parameters}"
+         [[dataset]]\nname = \"25 °C\"\ndata = \"storage-25c.csv\"\nscenario = \"{scenario}\"\nset = [\"ambient_c=25\", \"cell.negative.film.law=solvent-diffusion\"]\n\n\
+         [[dataset]]\nname = \"40 °C\"\ndata = \"storage-40c.csv\"\nscenario = \"{scenario}\"\nset = [\"ambient_c=40\", \"cell.negative.film.law=solvent-diffusion\"]\n\n{parameters}"
     )
 }
 

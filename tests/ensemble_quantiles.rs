@@ -15,10 +15,10 @@ use statrs::distribution::{ContinuousCDF, LogNormal};
 use std::collections::BTreeSet;
 
 const SCENARIO: &str = common::LAB;
-const PATH: &str = "cell.negative.film.solvent_diffusivity_m2_s";
+const PATH: &str = "cell.negative.film.interstitial_diffusivity_m2_s";
 /// A threshold the lab cell reaches well inside 3000 cycles.
 const THRESHOLD: &str = "end_of_life.capacity_pct=97";
-const MEDIAN: f64 = 4.0e-22;
+const MEDIAN: f64 = 3.0e-17;
 const SIGMA_LN: f64 = 0.3;
 
 fn load_with(diffusivity: f64) -> Result<(fadecast::cycle::Scenario, fadecast::forecast::Plan), String> {

@@ -8,6 +8,7 @@ mod common;
 
 use std::path::{Path, PathBuf};
 
+use fadecast::aging::film::FilmTransport;
 use fadecast::cycle::{Drive, DutyCycle, SeriesSignal, StepEnd};
 use fadecast::ensemble::{CorrelationGroup, Distribution, Sampling, UncertainParameter, UncertaintySpec};
 use fadecast::forecast::{Ambient, EndOfLife, Horizon};
@@ -437,7 +438,8 @@ fn mechanism_tables_convert_to_si_units() {
     let film = aging.film.expect("film table present");
     assert_close(film.reaction_rate_m_s, 1.0e-15);
     assert_close(film.reaction_activation_j_mol, 50.0e3);
-    assert_close(film.solvent_diffusivity_activation_j_mol, 30.0e3);
+    let FilmTransport::SolventDiffusion { activation_j_mol, .. } = film.transport else { panic!("the default law") };
+    assert_close(activation_j_mol, 30.0e3);
     assert_close(film.molar_volume_m3_mol, 50.0e-6);
     assert_close(film.initial_thickness_m, 2.0e-9);
     assert_close(film.reference_temperature_k, 30.0 + ZERO_CELSIUS_K);
@@ -1355,7 +1357,8 @@ fn drawn_values_reach_the_files_they_address() {
     assert_close(cell.negative.particle_radius_m, 4.5e-6);
     assert_close(cell.ohmic_resistance_ohm, 11.0e-3);
     let film = sample.plan.aging.film.expect("film table present");
-    assert_close(film.solvent_diffusivity_m2_s, 3.0e-21);
+    let FilmTransport::SolventDiffusion { diffusivity_m2_s, .. } = film.transport else { panic!("the default law") };
+    assert_close(diffusivity_m2_s, 3.0e-21);
     assert_close(film.reaction_rate_m_s, 2.0e-15);
     assert_close(sample.scenario.ambient_k, 27.5 + ZERO_CELSIUS_K);
     let DutyCycle::Steps(profile) = &sample.scenario.duty else { panic!("step profile") };

@@ -34,13 +34,13 @@ fn log_uniform(low: f64, high: f64) -> impl Strategy<Value = f64> {
 fn lab_draw() -> impl Strategy<Value = Vec<String>> {
     (
         (1.0..12.0f64, 1.0..10.0f64, -10.0..50.0f64, 0.2..3.0f64, 0.2..2.5f64),
-        (log_uniform(1e-17, 1e-14), log_uniform(1e-23, 1e-20), log_uniform(1e-20, 1e-18), 0.0..2e-4f64),
+        (log_uniform(1e-17, 1e-14), log_uniform(1e-18, 1e-15), log_uniform(1e-20, 1e-18), 0.0..2e-4f64),
         (0.0..1.0f64, 0.0..0.5f64, 1.5..4.0f64, proptest::bool::ANY),
     )
         .prop_map(
             |(
                 (neg_radius, pos_radius, ambient, discharge_c, charge_c),
-                (film_rate, solvent, paris, active_loss),
+                (film_rate, interstitial, paris, active_loss),
                 (irreversible, breathing, breathing_exponent, cracking_on),
             )| {
                 vec![
@@ -50,7 +50,7 @@ fn lab_draw() -> impl Strategy<Value = Vec<String>> {
                     format!("profile.block.0.step.0.discharge_c={discharge_c}"),
                     format!("profile.block.0.step.2.charge_c={charge_c}"),
                     format!("cell.negative.film.reaction_rate_m_s={film_rate:e}"),
-                    format!("cell.negative.film.solvent_diffusivity_m2_s={solvent:e}"),
+                    format!("cell.negative.film.interstitial_diffusivity_m2_s={interstitial:e}"),
                     format!("cell.negative.cracking.paris_coefficient={paris:e}"),
                     format!("cell.negative.cracking.enabled={cracking_on}"),
                     format!("cell.negative.active_loss.rate_per_cycle={active_loss:e}"),

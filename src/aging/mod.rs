@@ -10,6 +10,7 @@
 pub mod active_loss;
 pub mod crack_film;
 pub mod cracking;
+pub mod electrolyte_oxidation;
 pub mod film;
 pub mod film_breathing;
 pub mod fracture;
@@ -20,6 +21,7 @@ pub mod state;
 
 pub use active_loss::ActiveLossParams;
 pub use cracking::CrackingParams;
+pub use electrolyte_oxidation::ElectrolyteOxidationParams;
 pub use film::FilmParams;
 pub use film_breathing::FilmBreathingParams;
 pub use params::{CalibrationRange, MechanismTable, TableReader};
@@ -40,6 +42,7 @@ pub struct AgingParams {
     pub plating: Option<PlatingParams>,
     pub neg_active_loss: Option<ActiveLossParams>,
     pub pos_active_loss: Option<ActiveLossParams>,
+    pub electrolyte_oxidation: Option<ElectrolyteOxidationParams>,
 }
 
 /// One mechanism as registered: the cell-file table its parameters come from (None for a law
@@ -66,6 +69,7 @@ pub const REGISTRY: &[Registration] = &[
     cracking::REGISTRATION,
     plating::REGISTRATION,
     active_loss::REGISTRATION,
+    electrolyte_oxidation::REGISTRATION,
 ];
 
 /// The registration of a cell-file table, by its name.
@@ -105,6 +109,9 @@ pub struct AgingContext<'a> {
     pub idle_temperature_k: f64,
     /// Negative electrode potential against Li/Li⁺ while idle, V.
     pub idle_neg_potential_v: f64,
+    /// Positive electrode potential against Li/Li⁺ while idle, V, and its stoichiometry.
+    pub idle_pos_potential_v: f64,
+    pub idle_pos_stoich: f64,
     /// Cyclable lithium of the fresh cell, C (the unit of every lithium fraction).
     pub lithium_fresh_coulomb: f64,
 }

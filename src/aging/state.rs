@@ -22,6 +22,7 @@ pub enum Component {
     LithiumFilmCrack,
     LithiumPlatedDead,
     LithiumStranded,
+    LithiumPositiveFilm,
     PlatedTotal,
     FilmOriginalNm,
     NegCrackNm,
@@ -151,6 +152,14 @@ pub const COMPONENTS: &[ComponentSpec] = &[
         Measure::LithiumLost,
         PlotGroup::LithiumLoss,
         "active material loss",
+    ),
+    row(
+        C::LithiumPositiveFilm,
+        "lithium_lost_positive_film",
+        "film on the positive",
+        Measure::LithiumLost,
+        PlotGroup::LithiumLoss,
+        "electrolyte oxidation (positive)",
     ),
     row(C::PlatedTotal, "plated_total", "plated in total", Measure::LithiumCounted, PlotGroup::None, "lithium plating"),
     row(

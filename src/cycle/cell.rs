@@ -85,6 +85,9 @@ pub struct Cell {
     pub reference_temperature_k: f64,
     /// Radial finite-volume shells per particle.
     pub shells: usize,
+    /// Lithium plating on the negative (the kinetics of `[negative.plating]`), None when off:
+    /// the cycle model splits the negative's current between intercalation and plating.
+    pub plating: Option<super::kinetics::PlatingKinetics>,
 }
 
 impl Cell {

@@ -16,6 +16,13 @@ pub struct TracePoint {
     pub pos_surface_stoich: f64,
     /// Negative electrode potential against Li/Li⁺ at its surface, U_n + η_n, V.
     pub neg_potential_v: f64,
+    /// Part of the current carried by lithium metal at the negative over the step, A: negative
+    /// while lithium plates, positive while it strips (the rest intercalates).
+    pub plating_current_a: f64,
+    /// Positive electrode potential against Li/Li⁺ at its surface, U_p + η_p, V.
+    pub pos_potential_v: f64,
+    /// Lithium plated on the negative at the step's end (reversible and dead), C.
+    pub plated_coulomb: f64,
     /// Mean stoichiometry of each particle.
     pub neg_mean_stoich: f64,
     pub pos_mean_stoich: f64,
@@ -151,6 +158,14 @@ pub struct CycleRecord {
     pub neg_stress_min_pa: f64,
     pub pos_stress_max_pa: f64,
     pub pos_stress_min_pa: f64,
+    /// Lithium deposited as metal on the negative over the cycle, C.
+    pub plated_coulomb: f64,
+    /// Plated lithium stripped back over the cycle, C.
+    pub stripped_coulomb: f64,
+    /// Plated lithium isolated (dead) over the cycle, C.
+    pub dead_coulomb: f64,
+    /// Reversible plated lithium left at the cycle's end (it re-intercalates while idle), C.
+    pub reintercalated_coulomb: f64,
     /// Lowest negative-electrode potential against Li/Li⁺ over the cycle, V.
     pub neg_potential_min_v: f64,
     /// Largest current magnitudes on charge and discharge, A.

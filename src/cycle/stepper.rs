@@ -274,6 +274,8 @@ pub fn simulate_cycle(
         }
     }
     summarise(record, stepper.time_s, voltage_limited_s);
+    record.dead_coulomb = state.dead_coulomb;
+    record.reintercalated_coulomb = model.end_cycle(state, balance);
     Ok(())
 }
 
@@ -361,6 +363,8 @@ fn summarise(record: &mut CycleRecord, duration_s: f64, voltage_limited_s: f64) 
         r.pos_stress_max_pa = r.pos_stress_max_pa.max(p.pos_surface_stress_pa);
         r.pos_stress_min_pa = r.pos_stress_min_pa.min(p.pos_surface_stress_pa);
         r.neg_potential_min_v = r.neg_potential_min_v.min(p.neg_potential_v);
+        r.plated_coulomb += (-p.plating_current_a).max(0.0) * p.dt_s;
+        r.stripped_coulomb += p.plating_current_a.max(0.0) * p.dt_s;
     }
     r.time_steps = r.trace.len().saturating_sub(1);
     r.warmup_cycles = record.warmup_cycles;
@@ -544,7 +548,9 @@ impl Stepper<'_> {
         self.model.commit(state, cond, trial, &mut self.scratch);
         self.time_s += trial.dt;
         self.current_guess = trial.current;
-        record.trace.push(self.model.trace_point(self.time_s, trial, self.balance, step));
+        let mut point = self.model.trace_point(self.time_s, trial, self.balance, step);
+        point.plated_coulomb = state.plated_coulomb + state.dead_coulomb;
+        record.trace.push(point);
         self.model.record_profiles(state, record);
     }
 

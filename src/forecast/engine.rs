@@ -143,10 +143,13 @@ impl<'a> Forecaster<'a> {
         } else {
             (None, SECONDS_PER_DAY)
         };
-        let (rest_stoich, _) = balance.stoich_at_soc(self.plan.usage.rest_soc, &health);
+        let (rest_stoich, rest_pos_stoich) = balance.stoich_at_soc(self.plan.usage.rest_soc, &health);
         let negative = &cell.negative;
         let idle_potential = negative.ocp.potential(rest_stoich)
             + (ambient - cell.reference_temperature_k) * negative.entropic_coefficient_v_k;
+        let positive = &cell.positive;
+        let idle_pos_potential = positive.ocp.potential(rest_pos_stoich)
+            + (ambient - cell.reference_temperature_k) * positive.entropic_coefficient_v_k;
         let context = AgingContext {
             cell,
             aging: self.aging,
@@ -154,6 +157,8 @@ impl<'a> Forecaster<'a> {
             idle_s,
             idle_temperature_k: ambient,
             idle_neg_potential_v: idle_potential,
+            idle_pos_potential_v: idle_pos_potential,
+            idle_pos_stoich: rest_pos_stoich,
             lithium_fresh_coulomb: self.lithium_fresh_coulomb,
         };
         let mut rate = AgingState::default();

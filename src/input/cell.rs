@@ -101,6 +101,7 @@ struct ElectrodeSection {
     cracking: Option<aging::cracking::CrackingSection>,
     plating: Option<aging::plating::PlatingSection>,
     active_loss: Option<aging::active_loss::ActiveLossSection>,
+    electrolyte_oxidation: Option<aging::electrolyte_oxidation::ElectrolyteOxidationSection>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -226,6 +227,9 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<LoadedCell, V
         temperature_max_k: limits.max_temperature_c + ZERO_CELSIUS_K,
         reference_temperature_k: reference_temperature_c + ZERO_CELSIUS_K,
         shells: usize::try_from(shells).unwrap_or(0),
+        // The plating law's kinetics act inside the cycle (the current split), read once with
+        // the other aging laws.
+        plating: aging.plating,
     };
     checks.finish(LoadedCell { cell, aging, calibration })
 }
@@ -319,6 +323,7 @@ impl ElectrodeSection {
             ("cracking", table(&self.cracking)),
             ("plating", table(&self.plating)),
             ("active_loss", table(&self.active_loss)),
+            ("electrolyte_oxidation", table(&self.electrolyte_oxidation)),
         ]
     }
 }
