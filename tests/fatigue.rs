@@ -6,7 +6,9 @@ mod common;
 
 use common::{check_cases, fadecast, load, ReferenceCase, Tolerance, FERRY, LAB, TUG};
 use fadecast::aging::crack_film::FilmOnCrackSurface;
-use fadecast::aging::cracking::{growth_in_record, growth_over_history, intensity_history, tensile_range, CrackLengths};
+use fadecast::aging::cracking::{
+    growth_in_record, growth_over_history, intensity_history, tensile_range, CrackLengths,
+};
 use fadecast::aging::film::growth_at_fixed_conditions;
 use fadecast::aging::fracture::CrackOrigin;
 use fadecast::aging::rainflow::count_periodic;
@@ -54,7 +56,8 @@ fn graphite_cracks_from_the_centre_on_charge_and_from_the_surface_on_discharge()
     p.threshold_pa_sqrt_m *= 1e-3;
     let two_c = 2.0 * scenario.cell.nominal_capacity_coulomb / 3600.0;
     let rest = step("rest", Drive::Rest, StepEnd::Time(3600.0));
-    let charge = run_steps(&scenario, 0.1, vec![step("charge", Drive::Current(-two_c), StepEnd::Soc(0.8)), rest.clone()]);
+    let charge =
+        run_steps(&scenario, 0.1, vec![step("charge", Drive::Current(-two_c), StepEnd::Soc(0.8)), rest.clone()]);
     let discharge =
         run_steps(&scenario, 0.9, vec![step("discharge", Drive::Current(two_c), StepEnd::Soc(0.2)), rest.clone()]);
     let resting = run_steps(&scenario, 0.5, vec![rest]);
@@ -148,6 +151,8 @@ fn crack_face_film_by_depth_bin_matches_a_per_age_calculation() {
         idle_s: day_s,
         idle_temperature_k: temperature,
         idle_neg_potential_v: potential,
+        idle_pos_potential_v: 3.9,
+        idle_pos_stoich: 0.7,
         lithium_fresh_coulomb: lithium_fresh,
     };
     let radius = cell.negative.particle_radius_m;
@@ -155,7 +160,8 @@ fn crack_face_film_by_depth_bin_matches_a_per_age_calculation() {
     let per_depth = cell.negative.surface_area_m2() * crack.density_per_m2 * 2.0 * crack.width_m;
     let lithium_of_volume = FARADAY / film.molar_volume_m3_mol / lithium_fresh;
     let days = 3000usize;
-    let histories: [(&str, Box<dyn Fn(f64) -> f64>); 2] = [
+    type DepthHistory = Box<dyn Fn(f64) -> f64>;
+    let histories: [(&str, DepthHistory); 2] = [
         ("steady growth", Box::new(move |n: f64| a0 + 0.6 * (radius - a0) * n / days as f64)),
         ("growth that arrests", Box::new(move |n: f64| a0 + 0.4 * (radius - a0) * (1.0 - (-n / 400.0).exp()))),
     ];
@@ -202,6 +208,7 @@ fn crack_face_film_by_depth_bin_matches_a_per_age_calculation() {
             })
             .sum::<f64>()
             * lithium_of_volume;
+        println!("{name}: bins {model:.6e}, cohorts {reference:.6e}, error {:.3} %", 100.0 * (model / reference - 1.0));
         cases.push(ReferenceCase::new(
             format!("crack-face film after {days} days, {name}"),
             "sum over cohorts of the Deal–Grove growth (Deal & Grove 1965; Ploehn et al. 2004; derived)",
@@ -231,4 +238,29 @@ fn the_tug_summary_splits_its_resistance_rise_and_its_lithium_sinks() {
     let total: f64 = shares.values().map(|v| v.as_f64().unwrap()).sum();
     assert!((total - 100.0).abs() < 1e-9, "{shares:?}");
     assert!(shares.contains_key("lithium_lost_film_crack"));
+}
+
+#[test]
+fn film_growth_with_the_cycle_precomputed_equals_the_direct_sum() {
+    // The same trapezoid sum regrouped per trace point (derived): equal to rounding.
+    let (scenario, plan) = load(LAB, &[]);
+    let film = plan.aging.film.unwrap();
+    let record =
+        simulate_periodic_cycle(&scenario, &Health::fresh(&scenario.cell), &SolverSettings::default()).unwrap();
+    let context = AgingContext {
+        cell: &scenario.cell,
+        aging: &plan.aging,
+        record: Some(&record),
+        idle_s: 3600.0,
+        idle_temperature_k: 300.0,
+        idle_neg_potential_v: 0.1,
+        idle_pos_potential_v: 3.9,
+        idle_pos_stoich: 0.7,
+        lithium_fresh_coulomb: scenario.cell.lithium_inventory_coulomb(),
+    };
+    let growth = fadecast::aging::film::CycleFilmGrowth::new(&film, &context);
+    for thickness in [0.0, 5e-9, 50e-9, 400e-9] {
+        let direct = fadecast::aging::film::growth_per_cycle(&film, thickness, &context);
+        assert!((growth.growth_m(thickness) / direct - 1.0).abs() < 1e-12, "{thickness}");
+    }
 }

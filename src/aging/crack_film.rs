@@ -14,7 +14,7 @@
 //! Reference: R. Deshpande, M. Verbrugge, Y.-T. Cheng, J. Wang, P. Liu, J. Electrochem. Soc.
 //! 159 (2012) A1730 (film on cracks exposed by fatigue).
 
-use super::film::growth_per_cycle;
+use super::film::CycleFilmGrowth;
 use super::state::{crack_bin_thickness_m, CRACK_FILM_BINS};
 use super::{negative_surfaces, AgingContext, AgingState, Component, Mechanism, Registration, Side};
 use crate::material::constants::FARADAY;
@@ -44,6 +44,7 @@ impl Mechanism for FilmOnCrackSurface {
         let Some(film) = &context.aging.film else { return };
         let surfaces = negative_surfaces(context.cell, context.aging, state);
         let per_metre = FARADAY / film.molar_volume_m3_mol / context.lithium_fresh_coulomb;
+        let growth = CycleFilmGrowth::new(film, context);
         let mut total = 0.0;
         for j in 0..CRACK_FILM_BINS {
             let area = surfaces.bin_m2(j);
@@ -51,7 +52,7 @@ impl Mechanism for FilmOnCrackSurface {
                 break;
             }
             let thickness = crack_bin_thickness_m(context.cell, context.aging, state, &surfaces, j);
-            let lithium = growth_per_cycle(film, thickness, context) * area * per_metre;
+            let lithium = growth.growth_m(thickness) * area * per_metre;
             rate.crack_film_mut()[j] += lithium;
             total += lithium;
         }

@@ -5,6 +5,7 @@
 //!   lithium leaves (graphite on discharge, the positive on charge);
 //! - a **centre crack** of radius c, opened by the tensile stress at the centre while lithium
 //!   enters (graphite on charge, the positive on discharge).
+//!
 //! The stress intensity of each at every trace point comes from the whole hoop-stress profile
 //! through a weight function ([`super::fracture`]), so a crack that reaches the compressive
 //! part of the profile slows and arrests. The history K(t) is rainflow counted
@@ -59,7 +60,13 @@ pub fn growth_over_history(p: &CrackingParams, intensity: &[f64], temperature_k:
 
 /// Stress intensity at every trace point of a cycle for a crack of the given origin and size
 /// in one electrode, Pa·m^½.
-pub fn intensity_history(record: &CycleRecord, side: Side, origin: CrackOrigin, crack_m: f64, radius_m: f64) -> Vec<f64> {
+pub fn intensity_history(
+    record: &CycleRecord,
+    side: Side,
+    origin: CrackOrigin,
+    crack_m: f64,
+    radius_m: f64,
+) -> Vec<f64> {
     let (history, surface): (_, fn(&TracePoint) -> f64) = match side {
         Side::Negative => (&record.neg_stress, |p| p.neg_surface_stress_pa),
         Side::Positive => (&record.pos_stress, |p| p.pos_surface_stress_pa),

@@ -28,7 +28,8 @@ pub use params::{CalibrationRange, MechanismTable, TableReader};
 pub use plating::PlatingParams;
 pub use state::{
     crack_length_m, film_resistance_ohm, health_of, interface_rise, negative_surfaces, AgingState, Component,
-    ComponentSpec, InterfaceRise, Measure, PlotGroup, Surfaces, COMPONENTS, COMPONENT_COUNT, CRACK_FILM_BINS, STATE_LEN,
+    ComponentSpec, InterfaceRise, Measure, PlotGroup, Surfaces, COMPONENTS, COMPONENT_COUNT, CRACK_FILM_BINS,
+    STATE_LEN,
 };
 
 /// Every aging law of a cell, with its parameters, stored once; `None` means switched off.

@@ -228,7 +228,7 @@ pub const COMPONENT_COUNT: usize = COMPONENTS.len();
 /// Depth bins of the negative's surface crack whose faces carry film of their own age
 /// ([`super::crack_film`]): the crack depth from its initial length to the particle radius in
 /// equal steps.
-pub const CRACK_FILM_BINS: usize = 24;
+pub const CRACK_FILM_BINS: usize = 48;
 
 /// Length of the integrated vector: the components, then the crack-film bins.
 pub const STATE_LEN: usize = COMPONENT_COUNT + CRACK_FILM_BINS;
@@ -422,7 +422,13 @@ pub fn crack_film_mean_thickness_m(cell: &Cell, aging: &AgingParams, state: &Agi
 }
 
 /// Film thickness on depth bin `j` of the crack faces, m (0 before the bin is exposed).
-pub fn crack_bin_thickness_m(cell: &Cell, aging: &AgingParams, state: &AgingState, surfaces: &Surfaces, j: usize) -> f64 {
+pub fn crack_bin_thickness_m(
+    cell: &Cell,
+    aging: &AgingParams,
+    state: &AgingState,
+    surfaces: &Surfaces,
+    j: usize,
+) -> f64 {
     let area = surfaces.bin_m2(j);
     if area > 0.0 {
         // Never negative, even in an integrator's trial stage.

@@ -14,7 +14,8 @@ use super::ForecastOptions;
 use crate::aging::state::{crack_film_mean_thickness_m, lithium_only};
 use crate::aging::CalibrationRange;
 use crate::aging::{
-    health_of, mechanisms_for, AgingContext, AgingParams, AgingState, Component, Mechanism, COMPONENTS, COMPONENT_COUNT, STATE_LEN,
+    health_of, mechanisms_for, AgingContext, AgingParams, AgingState, Component, Mechanism, COMPONENTS,
+    COMPONENT_COUNT, STATE_LEN,
 };
 use crate::cycle::cell::LIMIT_SLACK;
 use crate::cycle::{
@@ -327,13 +328,13 @@ const STEERING: usize = {
 
 /// Length of the integrator's vector. Its error norm is a root mean square over the vector, so
 /// carrying a part apart would lengthen it and move every step. Padding with zero slots to
-/// four times the steering components and halving the tolerances keeps the norm over the
+/// sixteen times the steering components and quartering the tolerances keeps the norm over the
 /// steering components exactly (powers of two scale without rounding): adding a reported part
 /// changes no number of the forecast.
-const INTEGRATOR_LEN: usize = 4 * STEERING;
+const INTEGRATOR_LEN: usize = 16 * STEERING;
 const _: () = assert!(INTEGRATOR_LEN >= STATE_LEN);
 /// The tolerance factor that goes with the padding: √(STEERING / INTEGRATOR_LEN).
-const STEERING_TOLERANCE_FACTOR: f64 = 0.5;
+const STEERING_TOLERANCE_FACTOR: f64 = 0.25;
 
 fn to_integrator(state: &AgingState) -> [f64; INTEGRATOR_LEN] {
     let vector = state.to_vector();
