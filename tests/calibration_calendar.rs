@@ -19,13 +19,9 @@
 mod common;
 
 use common::{check_cases, trial_overrides, ReferenceCase, Tolerance, STORAGE};
-use fadecast::calibrate::{fit, Axis, Dataset, FitOptions, FitProblem, FreeParameter, MeasuredPoint, Weights};
+use fadecast::calibrate::{fit, Axis, FitOptions, FitProblem, FreeParameter, Weights};
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
 use fadecast::input::{load_scenario, Override};
-use rand::distr::Distribution;
-use rand::SeedableRng;
-use rand_chacha::ChaCha8Rng;
-use statrs::distribution::Normal;
 
 /// The correlation's temperature constant E_a/R, K (Schmalstieg et al. 2014, from memory).
 const TEMPERATURE_CONSTANT_K: f64 = 6976.0;
@@ -74,21 +70,15 @@ fn a_calendar_fit_on_the_first_40_percent_of_a_year_forecasts_the_year() {
     };
     let scale = 4.0 / correlation_loss_pct(25.0, LAST_DAY, 1.0);
     let day = |k: usize| LAST_DAY * k as f64 / POINTS as f64;
-    let mut rng = ChaCha8Rng::seed_from_u64(2014);
-    let noise = Normal::new(0.0, CAPACITY_NOISE_AH).unwrap();
-    let datasets: Vec<Dataset> = FITTED_C
+    let days: Vec<f64> = (1..=POINTS).map(day).collect();
+    let curves: Vec<(String, Box<dyn Fn(f64) -> f64>)> = FITTED_C
         .iter()
-        .map(|&t| Dataset {
-            name: format!("{t} °C"),
-            axis: Axis::Day,
-            points: (1..=POINTS)
-                .map(|k| {
-                    let capacity = fresh * (1.0 - correlation_loss_pct(t, day(k), scale) / 100.0);
-                    MeasuredPoint { x: day(k), capacity_ah: capacity + noise.sample(&mut rng), resistance_mohm: None }
-                })
-                .collect(),
+        .map(|&t| {
+            let curve = move |d: f64| fresh * (1.0 - correlation_loss_pct(t, d, scale) / 100.0);
+            (format!("{t} °C"), Box::new(curve) as Box<dyn Fn(f64) -> f64>)
         })
         .collect();
+    let datasets = common::noisy_datasets(&curves, Axis::Day, &days, CAPACITY_NOISE_AH, 2014);
     // Start from the demo cell's values (examples/cells/van-pouch-5ah.toml).
     let parameters = vec![
         FreeParameter { path: PATHS[0].into(), low: 1e-21, high: 1e-13, log: true, initial: 3.0e-17 },

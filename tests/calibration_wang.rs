@@ -18,13 +18,9 @@
 mod common;
 
 use common::{check_cases, trial_overrides, ReferenceCase, Tolerance};
-use fadecast::calibrate::{fit, Axis, Dataset, FitOptions, FitProblem, FreeParameter, MeasuredPoint, Weights};
+use fadecast::calibrate::{fit, Axis, FitOptions, FitProblem, FreeParameter, Weights};
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
 use fadecast::input::{load_scenario, Override};
-use rand::distr::Distribution;
-use rand::SeedableRng;
-use rand_chacha::ChaCha8Rng;
-use statrs::distribution::Normal;
 use std::path::PathBuf;
 
 const GAS_CONSTANT: f64 = 8.314_462_618;
@@ -78,22 +74,15 @@ fn fit_to_the_first_40_percent_forecasts_the_rest_within_one_point_of_health() {
         run_forecast(&loaded.scenario, &loaded.plan, Horizon::Cycles(1.0), &options).points[0].capacity_ah
     };
     let scale = 8.0 / correlation_loss_pct(25.0, LAST_EFC, 1.0);
-    let mut rng = ChaCha8Rng::seed_from_u64(2011);
-    let noise = Normal::new(0.0, CAPACITY_NOISE_AH).unwrap();
-    let datasets: Vec<Dataset> = TEMPERATURES_C
+    let efcs: Vec<f64> = (1..=POINTS).map(|k| LAST_EFC * k as f64 / POINTS as f64).collect();
+    let curves: Vec<(String, Box<dyn Fn(f64) -> f64>)> = TEMPERATURES_C
         .iter()
-        .map(|&t| Dataset {
-            name: format!("{t} °C"),
-            axis: Axis::Efc,
-            points: (1..=POINTS)
-                .map(|k| {
-                    let efc = LAST_EFC * k as f64 / POINTS as f64;
-                    let capacity = fresh * (1.0 - correlation_loss_pct(t, efc, scale) / 100.0);
-                    MeasuredPoint { x: efc, capacity_ah: capacity + noise.sample(&mut rng), resistance_mohm: None }
-                })
-                .collect(),
+        .map(|&t| {
+            let curve = move |efc: f64| fresh * (1.0 - correlation_loss_pct(t, efc, scale) / 100.0);
+            (format!("{t} °C"), Box::new(curve) as Box<dyn Fn(f64) -> f64>)
         })
         .collect();
+    let datasets = common::noisy_datasets(&curves, Axis::Efc, &efcs, CAPACITY_NOISE_AH, 2011);
     // Start from the demo cell's values (examples/cells/ferry-prismatic-100ah.toml).
     let parameters = vec![
         FreeParameter { path: PATHS[0].into(), low: 1e-25, high: 1e-18, log: true, initial: 4.0e-22 },

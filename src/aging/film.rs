@@ -117,13 +117,16 @@ pub fn growth_at_fixed_conditions(
     }
     // t(δ₀ + Δ) − t = 0 in the increment Δ, scaled by δ_ref so the powers stay of order one.
     let scale = TRANSPORT_REFERENCE_THICKNESS_M;
-    let start = thickness_m / scale;
-    // (start + d)^(1+n) − start^(1+n) without cancelling when d ≪ start.
+    // A trial state of the integrator may step a near-bare surface's film just below zero:
+    // it grows as bare.
+    let start = thickness_m.max(0.0) / scale;
+    // (start + d)^(1+n) − start^(1+n), through ln_1p/exp_m1 where d ≪ start would cancel;
+    // directly where d dominates (a near-bare surface, whose tiny start would overflow the ratio).
     let power_gain = |d: f64| {
-        if start > 0.0 {
-            start.powf(1.0 + n) * ((1.0 + n) * (d / start).ln_1p()).exp_m1()
+        if d >= start {
+            (start + d).powf(1.0 + n) - start.powf(1.0 + n)
         } else {
-            d.powf(1.0 + n)
+            start.powf(1.0 + n) * ((1.0 + n) * (d / start).ln_1p()).exp_m1()
         }
     };
     let residual =
@@ -476,7 +479,7 @@ mod tests {
         // increment must equal fine steps of the flux, from a formed film and from none.
         for n in [1.0, 0.6, 1.0 / 3.0, 0.25] {
             let p = interstitial(n);
-            for start in [0.0, 3e-9] {
+            for start in [0.0, 1e-300, 3e-9] {
                 let solved = growth_at_fixed_conditions(&p, start, 0.1, 308.15, 3.0e7);
                 let stepped = stepped_growth(&p, start, 0.1, 308.15, 3.0e7, 400_000);
                 // 1e-5: the midpoint steps lag in the fast start from a bare surface.

@@ -323,22 +323,34 @@ impl CellModel {
         ]
     }
 
-    /// The negative's surface stoichiometry and potential against Li/Li⁺ at the end of the step
-    /// when `intercalation` amperes enter or leave its particle.
-    fn negative_at(&self, cond: &StepConditions, maps: &[Affine; 4], intercalation: f64) -> (f64, f64) {
-        let cell = &self.cell;
-        let t = cond.temperature_k;
-        let x = maps[0].at(intercalation);
-        let u_neg = cell.negative.ocp.potential(x)
-            + (t - cell.reference_temperature_k) * cell.negative.entropic_coefficient_v_k;
+    /// An electrode's potential against Li/Li⁺ at surface stoichiometry θ while
+    /// `current_density` (A/m², anodic positive) crosses its surface: U(θ, T) + η.
+    fn electrode_potential(
+        &self,
+        electrode: &Electrode,
+        particle: &ParticleModel,
+        rate_constant: f64,
+        theta: f64,
+        current_density: f64,
+        temperature_k: f64,
+    ) -> f64 {
+        let open_circuit = electrode.ocp.potential(theta)
+            + (temperature_k - self.cell.reference_temperature_k) * electrode.entropic_coefficient_v_k;
         let i0 = exchange_current_density(
-            cond.neg_rate,
-            self.neg.max_concentration,
-            x,
-            cell.electrolyte_concentration_mol_m3,
+            rate_constant,
+            particle.max_concentration,
+            theta,
+            self.cell.electrolyte_concentration_mol_m3,
         );
-        // Discharge is anodic (lithium out) at the negative.
-        (x, u_neg + overpotential(intercalation / cond.neg_area_m2, i0, t))
+        open_circuit + overpotential(current_density, i0, temperature_k)
+    }
+
+    /// The negative's surface stoichiometry and potential against Li/Li⁺ at the end of the step
+    /// when `intercalation` amperes leave its particle (discharge is anodic at the negative).
+    fn negative_at(&self, cond: &StepConditions, maps: &[Affine; 4], intercalation: f64) -> (f64, f64) {
+        let x = maps[0].at(intercalation);
+        let density = intercalation / cond.neg_area_m2;
+        (x, self.electrode_potential(&self.cell.negative, &self.neg, cond.neg_rate, x, density, cond.temperature_k))
     }
 
     /// The current carried by lithium metal at negative potential φ, A (module docs): deposition
@@ -407,22 +419,14 @@ impl CellModel {
         current: f64,
         strip_limit_a: f64,
     ) -> (f64, Split, f64, f64) {
-        let cell = &self.cell;
-        let t = cond.temperature_k;
         let negative = self.split_negative(cond, maps, current, strip_limit_a);
         let y = maps[1].at(current);
-        let u_pos = cell.positive.ocp.potential(y)
-            + (t - cell.reference_temperature_k) * cell.positive.entropic_coefficient_v_k;
-        let i0_pos = exchange_current_density(
-            cond.pos_rate,
-            self.pos.max_concentration,
-            y,
-            cell.electrolyte_concentration_mol_m3,
-        );
         // Discharge is cathodic at the positive.
-        let eta_pos = overpotential(-current / cond.pos_area_m2, i0_pos, t);
-        let voltage = u_pos + eta_pos - negative.potential - current * cond.series_resistance_ohm;
-        (voltage, negative, y, u_pos + eta_pos)
+        let density = -current / cond.pos_area_m2;
+        let positive =
+            self.electrode_potential(&self.cell.positive, &self.pos, cond.pos_rate, y, density, cond.temperature_k);
+        let voltage = positive - negative.potential - current * cond.series_resistance_ohm;
+        (voltage, negative, y, positive)
     }
 
     /// Solves for the current meeting the control and returns the end-of-step state.

@@ -108,3 +108,34 @@ pub fn check_cases(cases: &[ReferenceCase]) {
     }
     panic!("{report}");
 }
+
+/// Synthetic "measured" capacity data: one dataset per named clean curve (capacity in Ah at x),
+/// sampled at `xs` with seeded normal noise of `noise_ah`, drawn in order from one stream (the
+/// first dataset's points first).
+pub fn noisy_datasets(
+    curves: &[(String, Box<dyn Fn(f64) -> f64>)],
+    axis: fadecast::calibrate::Axis,
+    xs: &[f64],
+    noise_ah: f64,
+    seed: u64,
+) -> Vec<fadecast::calibrate::Dataset> {
+    use rand::distr::Distribution;
+    use rand::SeedableRng;
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+    let noise = statrs::distribution::Normal::new(0.0, noise_ah).unwrap();
+    curves
+        .iter()
+        .map(|(name, capacity)| fadecast::calibrate::Dataset {
+            name: name.clone(),
+            axis,
+            points: xs
+                .iter()
+                .map(|&x| fadecast::calibrate::MeasuredPoint {
+                    x,
+                    capacity_ah: capacity(x) + noise.sample(&mut rng),
+                    resistance_mohm: None,
+                })
+                .collect(),
+        })
+        .collect()
+}
