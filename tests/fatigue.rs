@@ -264,3 +264,16 @@ fn film_growth_with_the_cycle_precomputed_equals_the_direct_sum() {
         assert!((growth.growth_m(thickness) / direct - 1.0).abs() < 1e-12, "{thickness}");
     }
 }
+
+#[test]
+fn the_ferrys_largest_lithium_sink_is_film_on_crack_faces() {
+    // The demo that shows the coupling (README): six crossings a day crack the graphite to its
+    // arrest depth, and the fresh faces' film takes more lithium than any other sink.
+    let (scenario, plan) = load(FERRY, &[]);
+    let f = run_forecast(&scenario, &plan, plan.horizon.unwrap(), &ForecastOptions::default());
+    let last = f.points.last().unwrap();
+    let shares = last.state.sink_shares();
+    let (largest, share) = shares.iter().copied().max_by(|a, b| a.1.total_cmp(&b.1)).unwrap();
+    assert_eq!(largest, Component::LithiumFilmCrack, "{shares:?}");
+    assert!(share > 0.3, "{share}");
+}

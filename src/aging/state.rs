@@ -361,6 +361,9 @@ pub struct Surfaces {
     pub original_m2: f64,
     /// Crack-face area per metre of surface-crack depth, m² (both faces of every crack).
     pub crack_per_depth_m: f64,
+    /// The same on all the material the cell started with: film on material since lost went
+    /// with it, so a depth's film thickness is its film volume over this area.
+    pub crack_per_depth_fresh_m: f64,
     /// Depth the surface crack has grown since the cell was fresh, m.
     pub crack_grown_m: f64,
     /// Depth bins of the crack-face film: where the first starts and how deep each is, m.
@@ -376,8 +379,16 @@ impl Surfaces {
 
     /// Crack-face area of depth bin `j` exposed so far, m².
     pub fn bin_m2(&self, j: usize) -> f64 {
-        let into = self.crack_grown_m - j as f64 * self.bin_depth_m;
-        self.crack_per_depth_m * into.clamp(0.0, self.bin_depth_m)
+        self.crack_per_depth_m * self.bin_exposed_m(j)
+    }
+
+    /// The same on all the material the cell started with, m² (see `crack_per_depth_fresh_m`).
+    pub fn bin_fresh_m2(&self, j: usize) -> f64 {
+        self.crack_per_depth_fresh_m * self.bin_exposed_m(j)
+    }
+
+    fn bin_exposed_m(&self, j: usize) -> f64 {
+        (self.crack_grown_m - j as f64 * self.bin_depth_m).clamp(0.0, self.bin_depth_m)
     }
 }
 
@@ -392,6 +403,7 @@ pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -
         Some(c) => Surfaces {
             original_m2: original,
             crack_per_depth_m: original * c.density_per_m2 * 2.0 * c.width_m,
+            crack_per_depth_fresh_m: cell.negative.surface_area_m2() * c.density_per_m2 * 2.0 * c.width_m,
             crack_grown_m: (crack_length_m(cell, state, Side::Negative) - c.initial_length_m).max(0.0),
             bins_start_m: c.initial_length_m,
             bin_depth_m: (radius - c.initial_length_m) / CRACK_FILM_BINS as f64,
@@ -399,6 +411,7 @@ pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -
         None => Surfaces {
             original_m2: original,
             crack_per_depth_m: 0.0,
+            crack_per_depth_fresh_m: 0.0,
             crack_grown_m: 0.0,
             bins_start_m: 0.0,
             bin_depth_m: radius / CRACK_FILM_BINS as f64,
@@ -413,7 +426,8 @@ pub fn film_volume_of_lithium_m3(cell: &Cell, aging: &AgingParams, lithium: f64)
 
 /// Mean film thickness over all crack faces, m (0 before any crack face exists): for reports.
 pub fn crack_film_mean_thickness_m(cell: &Cell, aging: &AgingParams, state: &AgingState) -> f64 {
-    let area = negative_surfaces(cell, aging, state).crack_m2();
+    let surfaces = negative_surfaces(cell, aging, state);
+    let area = surfaces.crack_per_depth_fresh_m * surfaces.crack_grown_m;
     if area > 0.0 {
         film_volume_of_lithium_m3(cell, aging, state[C::LithiumFilmCrack]) / area
     } else {
@@ -429,7 +443,7 @@ pub fn crack_bin_thickness_m(
     surfaces: &Surfaces,
     j: usize,
 ) -> f64 {
-    let area = surfaces.bin_m2(j);
+    let area = surfaces.bin_fresh_m2(j);
     if area > 0.0 {
         // Never negative, even in an integrator's trial stage.
         (film_volume_of_lithium_m3(cell, aging, state.crack_film[j]) / area).max(0.0)
