@@ -40,7 +40,7 @@ fn main() {
     let scenario = cases::repo(cases::LAB);
     // The demo cell's values (examples/cells/van-pouch-5ah.toml) are where the fit starts; the
     // data come from values moved away from them.
-    let demo = [2.0e-15, 4.0e-22, 40.0];
+    let demo = [2.5e-16, 4.0e-22, 40.0];
     let truth = [1.6 * demo[0], 0.7 * demo[1], 46.0];
     let mut rng = ChaCha8Rng::seed_from_u64(50);
     let noise = Normal::new(0.0, 0.005).unwrap();

@@ -166,7 +166,7 @@ fn errors_in_standard_errors(result: &FitResult, truth: &[f64]) -> Vec<f64> {
 
 /// The demo van cell's values (examples/cells/van-pouch-5ah.toml), where each fit starts.
 const MIXED_LAW: &str = "cell.negative.film.law=solvent-diffusion";
-const DEMO_FILM_RATE: f64 = 2.0e-15;
+const DEMO_FILM_RATE: f64 = 2.5e-16;
 const DEMO_FILM_DIFFUSIVITY: f64 = 4.0e-22;
 const DEMO_PARIS: f64 = 3.0e-19;
 
