@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{check_cases, load, ReferenceCase, Tolerance, LAB, STORAGE};
+use common::{check_cases, load, ReferenceCase, Tolerance, CRACKING_ONLY, LAB, STORAGE};
 use fadecast::aging::active_loss::loss_per_cycle;
 use fadecast::aging::cracking::{growth_in_record, tensile_range, CrackLengths};
 use fadecast::aging::fracture::CrackOrigin;
@@ -20,15 +20,6 @@ fn forecast(path: &str, overrides: &[&str], options: ForecastOptions) -> Forecas
     assert_eq!(f.stop, fadecast::forecast::StopReason::Horizon, "{path} {overrides:?}");
     f
 }
-
-/// Everything but negative cracking switched off.
-const CRACKING_ONLY: [&str; 5] = [
-    "cell.negative.film.enabled=false",
-    "cell.negative.plating.enabled=false",
-    "cell.negative.active_loss.enabled=false",
-    "cell.positive.active_loss.enabled=false",
-    "cell.positive.cracking.enabled=false",
-];
 
 const PARIS_INTEGRAL: &str = "Paris & Erdogan, J. Basic Eng. 85 (1963) 528: da/dN = C ΔK(a)^m summed over counted \
      cycles, integrated by Runge–Kutta steps of one cycle (derived)";

@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{check_cases, fadecast, load, ReferenceCase, Tolerance, FERRY, LAB, TUG};
+use common::{check_cases, fadecast, load, ReferenceCase, Tolerance, CRACKING_ONLY, FERRY, LAB, TUG};
 use fadecast::aging::crack_film::FilmOnCrackSurface;
 use fadecast::aging::cracking::{
     growth_in_record, growth_over_history, intensity_history, tensile_range, CrackLengths,
@@ -16,15 +16,6 @@ use fadecast::aging::{AgingContext, AgingState, Component, Mechanism, Side, CRAC
 use fadecast::cycle::*;
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
 use fadecast::material::constants::FARADAY;
-
-/// Everything but negative cracking switched off.
-const CRACKING_ONLY: [&str; 5] = [
-    "cell.negative.film.enabled=false",
-    "cell.negative.plating.enabled=false",
-    "cell.negative.active_loss.enabled=false",
-    "cell.positive.active_loss.enabled=false",
-    "cell.positive.cracking.enabled=false",
-];
 
 /// One pass of a step list from a rest state at `start_soc` (not periodic: what one charge or
 /// discharge does).
@@ -116,8 +107,7 @@ fn the_ferrys_crossings_each_count() {
     count_periodic(&k, &mut Vec::new(), |c| ranges.push(tensile_range(c.high, c.low)));
     let largest = ranges.iter().copied().fold(0.0, f64::max);
     let predicted: f64 = ranges.iter().map(|r| (r / largest).powf(p.paris_exponent)).sum();
-    let temperatures: Vec<f64> = record.trace.iter().map(|t| t.temperature_k).collect();
-    let day = growth_over_history(&p, &k, &temperatures);
+    let day = growth_over_history(&p, &k, |i| record.trace[i].temperature_k);
     let largest_alone = p.paris_coefficient * largest.powf(p.paris_exponent);
     let crossings = ranges.iter().filter(|&&r| r > 0.5 * largest).count();
     assert!(crossings >= 6, "the ferry's day has six crossings; counted {crossings} large cycles: {ranges:?}");

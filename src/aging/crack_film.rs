@@ -43,6 +43,9 @@ impl Mechanism for FilmOnCrackSurface {
     fn add_rates(&self, context: &AgingContext, state: &AgingState, rate: &mut AgingState) {
         let Some(film) = &context.aging.film else { return };
         let surfaces = negative_surfaces(context.cell, context.aging, state);
+        if surfaces.bin_m2(0) <= 0.0 {
+            return;
+        }
         let per_metre = FARADAY / film.molar_volume_m3_mol / context.lithium_fresh_coulomb;
         let growth = CycleFilmGrowth::new(film, context);
         let mut total = 0.0;

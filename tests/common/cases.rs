@@ -17,6 +17,15 @@ use std::path::PathBuf;
 
 // Demo scenarios (examples/): invented cells and duties, for trends and consistency checks.
 /// The 5 Ah demo cell on the laboratory 1C/1C CC-CV cycle at 25 °C.
+/// Overrides switching everything but the negative's cracking off.
+pub const CRACKING_ONLY: [&str; 5] = [
+    "cell.negative.film.enabled=false",
+    "cell.negative.plating.enabled=false",
+    "cell.negative.active_loss.enabled=false",
+    "cell.positive.active_loss.enabled=false",
+    "cell.positive.cracking.enabled=false",
+];
+
 pub const LAB: &str = "examples/lab-cccv-1c.toml";
 /// The 5 Ah demo cell, 1C drive and C/5 overnight charge.
 pub const OVERNIGHT: &str = "examples/van-fleet-overnight.toml";
