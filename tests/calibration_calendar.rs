@@ -71,7 +71,7 @@ fn a_calendar_fit_on_the_first_40_percent_of_a_year_forecasts_the_year() {
     let scale = 4.0 / correlation_loss_pct(25.0, LAST_DAY, 1.0);
     let day = |k: usize| LAST_DAY * k as f64 / POINTS as f64;
     let days: Vec<f64> = (1..=POINTS).map(day).collect();
-    let curves: Vec<(String, Box<dyn Fn(f64) -> f64>)> = FITTED_C
+    let curves: Vec<common::NamedCurve> = FITTED_C
         .iter()
         .map(|&t| {
             let curve = move |d: f64| fresh * (1.0 - correlation_loss_pct(t, d, scale) / 100.0);

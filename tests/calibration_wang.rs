@@ -75,7 +75,7 @@ fn fit_to_the_first_40_percent_forecasts_the_rest_within_one_point_of_health() {
     };
     let scale = 8.0 / correlation_loss_pct(25.0, LAST_EFC, 1.0);
     let efcs: Vec<f64> = (1..=POINTS).map(|k| LAST_EFC * k as f64 / POINTS as f64).collect();
-    let curves: Vec<(String, Box<dyn Fn(f64) -> f64>)> = TEMPERATURES_C
+    let curves: Vec<common::NamedCurve> = TEMPERATURES_C
         .iter()
         .map(|&t| {
             let curve = move |efc: f64| fresh * (1.0 - correlation_loss_pct(t, efc, scale) / 100.0);

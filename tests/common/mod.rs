@@ -109,11 +109,14 @@ pub fn check_cases(cases: &[ReferenceCase]) {
     panic!("{report}");
 }
 
+/// A named clean capacity curve: capacity in Ah at x.
+pub type NamedCurve = (String, Box<dyn Fn(f64) -> f64>);
+
 /// Synthetic "measured" capacity data: one dataset per named clean curve (capacity in Ah at x),
 /// sampled at `xs` with seeded normal noise of `noise_ah`, drawn in order from one stream (the
 /// first dataset's points first).
 pub fn noisy_datasets(
-    curves: &[(String, Box<dyn Fn(f64) -> f64>)],
+    curves: &[NamedCurve],
     axis: fadecast::calibrate::Axis,
     xs: &[f64],
     noise_ah: f64,
