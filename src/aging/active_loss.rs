@@ -136,16 +136,35 @@ impl Mechanism for ActiveLoss {
             Side::Negative => p.neg_mean_stoich,
             Side::Positive => p.pos_mean_stoich,
         };
-        let weight = |p: &crate::cycle::TracePoint| stress_of(p).max(0.0).powf(params.exponent);
-        let total = super::trapezoid(&record.trace, weight);
-        let stoich =
-            if total > 0.0 { super::trapezoid(&record.trace, |p| weight(p) * stoich_of(p)) / total } else { 0.0 };
+        // Both sums in one pass, each point's weight computed once (a power per point).
+        let (mut total, mut weighted) = (0.0, 0.0);
+        let mut previous: Option<(f64, f64)> = None;
+        for p in &record.trace {
+            let w = history_weight(stress_of(p), params.exponent);
+            let ws = w * stoich_of(p);
+            if let Some((w0, ws0)) = previous {
+                total += 0.5 * (w0 + w) * p.dt_s;
+                weighted += 0.5 * (ws0 + ws) * p.dt_s;
+            }
+            previous = Some((w, ws));
+        }
+        let stoich = if total > 0.0 { weighted / total } else { 0.0 };
         let stranded = loss * capacity * stoich / context.lithium_fresh_coulomb;
         match self.side {
             Side::Negative => rate[Component::NegActiveLost] += loss,
             Side::Positive => rate[Component::PosActiveLost] += loss,
         }
         rate.move_lithium(Component::LithiumStranded, stranded);
+    }
+}
+
+/// Weight of a trace point in the stranded lithium's mean: tensile stress to the law's power.
+fn history_weight(stress_pa: f64, exponent: f64) -> f64 {
+    let tension = stress_pa.max(0.0);
+    if tension == 0.0 {
+        0.0
+    } else {
+        tension.powf(exponent)
     }
 }
 

@@ -33,36 +33,52 @@ pub enum CrackOrigin {
 /// Quadrature nodes over θ ∈ [0, π/2].
 const NODES: usize = 48;
 
-/// Gauss–Legendre nodes and weights on [0, π/2] (Newton's method on P_n; Abramowitz & Stegun
-/// 25.4.29 for the weights).
-fn quadrature() -> &'static [(f64, f64)] {
-    static RULE: OnceLock<Vec<(f64, f64)>> = OnceLock::new();
-    RULE.get_or_init(|| {
-        let n = NODES;
-        (0..n)
-            .map(|i| {
-                let mut x = (PI * (i as f64 + 0.75) / (n as f64 + 0.5)).cos();
-                let mut derivative = 1.0;
-                for _ in 0..100 {
-                    let (mut p0, mut p1) = (1.0, x);
-                    for k in 2..=n {
-                        let p2 = ((2 * k - 1) as f64 * x * p1 - (k - 1) as f64 * p0) / k as f64;
-                        p0 = p1;
-                        p1 = p2;
-                    }
-                    derivative = n as f64 * (x * p1 - p0) / (x * x - 1.0);
-                    let dx = p1 / derivative;
-                    x -= dx;
-                    if dx.abs() < 1e-15 {
-                        break;
-                    }
-                }
-                let weight = 2.0 / ((1.0 - x * x) * derivative * derivative);
-                // Map [−1, 1] to [0, π/2].
-                (FRAC_PI_2 * 0.5 * (x + 1.0), FRAC_PI_2 * 0.5 * weight)
-            })
+/// One quadrature node over θ: sin θ, the edge-crack shape factor F(sin θ) there, and the
+/// Gauss–Legendre weight.
+struct Node {
+    sin: f64,
+    edge_shape: f64,
+    weight: f64,
+}
+
+/// Gauss–Legendre nodes on [0, π/2] with what the weight functions need at each.
+fn nodes() -> &'static [Node] {
+    static NODES_CACHE: OnceLock<Vec<Node>> = OnceLock::new();
+    NODES_CACHE.get_or_init(|| {
+        quadrature()
+            .into_iter()
+            .map(|(theta, weight)| Node { sin: theta.sin(), edge_shape: edge_shape(theta.sin()), weight })
             .collect()
     })
+}
+
+/// Gauss–Legendre nodes and weights on [0, π/2] (Newton's method on P_n; Abramowitz & Stegun
+/// 25.4.29 for the weights).
+fn quadrature() -> Vec<(f64, f64)> {
+    let n = NODES;
+    (0..n)
+        .map(|i| {
+            let mut x = (PI * (i as f64 + 0.75) / (n as f64 + 0.5)).cos();
+            let mut derivative = 1.0;
+            for _ in 0..100 {
+                let (mut p0, mut p1) = (1.0, x);
+                for k in 2..=n {
+                    let p2 = ((2 * k - 1) as f64 * x * p1 - (k - 1) as f64 * p0) / k as f64;
+                    p0 = p1;
+                    p1 = p2;
+                }
+                derivative = n as f64 * (x * p1 - p0) / (x * x - 1.0);
+                let dx = p1 / derivative;
+                x -= dx;
+                if dx.abs() < 1e-15 {
+                    break;
+                }
+            }
+            let weight = 2.0 / ((1.0 - x * x) * derivative * derivative);
+            // Map [−1, 1] to [0, π/2].
+            (FRAC_PI_2 * 0.5 * (x + 1.0), FRAC_PI_2 * 0.5 * weight)
+        })
+        .collect()
 }
 
 /// Shape factor of the edge-crack weight function, F(s) = 1.3 − 0.3 s^{5/4}.
@@ -81,10 +97,10 @@ pub fn intensity_weights(origin: CrackOrigin, crack_m: f64, radius_m: f64, shell
     }
     let crack = crack_m.min(radius_m);
     let scale = 2.0 * (crack / PI).sqrt();
-    for &(theta, weight) in quadrature() {
-        let s = theta.sin();
+    for node in nodes() {
+        let (s, weight) = (node.sin, node.weight);
         let (rho, factor) = match origin {
-            CrackOrigin::Surface => (1.0 - crack * s / radius_m, edge_shape(s)),
+            CrackOrigin::Surface => (1.0 - crack * s / radius_m, node.edge_shape),
             CrackOrigin::Centre => (crack * s / radius_m, s),
         };
         let at = (rho.clamp(0.0, 1.0) * shells as f64).min(shells as f64);
