@@ -325,9 +325,9 @@ fn horizon_flag_errors_are_one_line_naming_the_flag() {
     assert_rejected(OVERNIGHT, &["--cycles", "10", "--years", "1"], &["--cycles", "--years", "not both"]);
 }
 
-/// A duty cycle opening with a 10 s constant-power pulse from full charge. At 390 W the fresh
+/// A duty cycle opening with a 10 s constant-power pulse from full charge. At 400 W the fresh
 /// demo cell delivers it above its voltage floor; as film and cracks raise the resistance, the
-/// most power the cell can give falls below 390 W and the pulse can no longer be run.
+/// most power the cell can give falls below 400 W and the pulse can no longer be run.
 const POWER_PULSE_PROFILE: &str = r#"name = "power pulse, 1C drive, C/2 charge"
 start_soc_pct = 100
 
@@ -339,7 +339,7 @@ end_time_min = 10
 
 [[block.step]]
 label = "power pulse"
-discharge_w = 390
+discharge_w = 400
 end_time_s = 10
 
 [[block.step]]
@@ -383,7 +383,7 @@ fn forecast_that_fails_part_way_exits_1_and_keeps_its_rows() {
         .assert()
         .code(1)
         .stdout(ends_with_caution())
-        .stderr(one_line_naming(&["forecast failed at cycle", "power pulse", "cannot deliver 390.0 W"]))
+        .stderr(one_line_naming(&["forecast failed at cycle", "power pulse", "cannot deliver 400.0 W"]))
         .get_output()
         .clone();
     let stderr = String::from_utf8(output.stderr).unwrap();
