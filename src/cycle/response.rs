@@ -358,6 +358,11 @@ impl CellModel {
     /// `strip_limit_a`.
     fn plating_current(cond: &StepConditions, potential_v: f64, strip_limit_a: f64) -> f64 {
         let Some((i0, alpha)) = cond.plating else { return 0.0 };
+        // Above 0 V with nothing plated there is nothing to strip (the common case): skip the
+        // exponentials.
+        if potential_v >= 0.0 && strip_limit_a <= 0.0 {
+            return 0.0;
+        }
         let current = cond.neg_area_m2 * lithium_metal_current_density(i0, alpha, potential_v, cond.temperature_k);
         current.min(strip_limit_a)
     }

@@ -507,6 +507,10 @@ fn integrate_jumping(
     let mut xs = vec![0.0];
     let mut ys = vec![start];
     let reached = if continuous_is_empty(&continuous) { 0.0 } else { continuous.bounds().1 };
+    // A failed rate evaluation zeroes that stage's rates and the step holding it may still be
+    // accepted, so its continuous output can run past the failure: report nothing beyond it.
+    let failed_at = forecaster.failure.borrow().as_ref().map(|(x, _)| stretched(*x));
+    let reached = failed_at.map_or(reached, |s| reached.min(s));
     let mut k = 1;
     loop {
         let x = (k as f64 * spacing).min(x_end);
