@@ -120,3 +120,17 @@ fn one_bad_file_among_good_ones_still_reports_the_good_ones() {
         .stdout(predicate::str::contains("balanced capacity"))
         .stderr(one_line_naming(&["no-such-cell.toml"]));
 }
+
+#[test]
+fn an_absurd_temperature_stops_at_the_time_step_cap_instead_of_exhausting_memory() {
+    // 1e30 °C makes every time step tiny; the cycle used to grow its trace until the allocator
+    // aborted. Now it stops at the cap on time steps per cycle with an error naming the step.
+    let started = std::time::Instant::now();
+    fadecast()
+        .args(["check", "examples/van-fleet-winter-fast-charge.toml", "--set", "ambient_c=1e30"])
+        .assert()
+        .code(1)
+        .stderr(predicates::str::contains("time steps (the cap on one cycle)"))
+        .stderr(predicates::str::contains("step 3 (fast charge)"));
+    assert!(started.elapsed().as_secs() < 30, "took {:?}", started.elapsed());
+}

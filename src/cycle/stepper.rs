@@ -40,6 +40,11 @@ pub const END_TOLERANCE_V: f64 = 2e-4;
 pub const MAX_STEP_DURATION_S: f64 = 7.0 * 86_400.0;
 /// Default number of warm-up cycles allowed to reach the periodic state.
 pub const MAX_WARMUP_CYCLES: usize = 8;
+/// Time steps one cycle may take. A usual cycle takes a few hundred and a day of a measured
+/// series a few tens of thousands; inputs that make every step tiny (an absurd temperature or
+/// current) stop here with an error instead of growing the trace until memory runs out
+/// (each step keeps about 400 bytes, so the cap bounds a trace near 200 MB).
+pub const MAX_TIME_STEPS_PER_CYCLE: usize = 500_000;
 /// Default largest change over a cycle that counts as periodic (see [`state_change`]).
 pub const PERIODIC_TOLERANCE: f64 = 1e-4;
 
@@ -113,6 +118,8 @@ pub struct SolverSettings {
     /// shell stoichiometry over a cycle that counts as periodic.
     pub max_warmup_cycles: usize,
     pub periodic_tolerance: f64,
+    /// Time steps one cycle may take before it is abandoned with an error.
+    pub max_time_steps: usize,
 }
 
 impl Default for SolverSettings {
@@ -127,6 +134,7 @@ impl Default for SolverSettings {
             voltage_end_tolerance_v: END_TOLERANCE_V,
             max_step_duration_s: MAX_STEP_DURATION_S,
             max_warmup_cycles: MAX_WARMUP_CYCLES,
+            max_time_steps: MAX_TIME_STEPS_PER_CYCLE,
             periodic_tolerance: PERIODIC_TOLERANCE,
         }
     }
@@ -514,7 +522,7 @@ impl Stepper<'_> {
                 } else {
                     (trial, EndReason::Time)
                 };
-                self.accept(state, &cond, &trial, index, record);
+                self.accept(state, &cond, &trial, (index, &step.label), record)?;
                 charge += trial.current * trial.dt;
                 elapsed += trial.dt;
                 return Ok(StepSummary {
@@ -525,7 +533,7 @@ impl Stepper<'_> {
                     charge_coulomb: charge,
                 });
             }
-            self.accept(state, &cond, &trial, index, record);
+            self.accept(state, &cond, &trial, (index, &step.label), record)?;
             charge = passed;
             elapsed += dt;
             dt = self.next_dt(&previous, &trial, !first, max_dt);
@@ -542,9 +550,16 @@ impl Stepper<'_> {
         state: &mut CellState,
         cond: &StepConditions,
         trial: &Trial,
-        step: usize,
+        (step, label): (usize, &str),
         record: &mut CycleRecord,
-    ) {
+    ) -> Result<(), CycleError> {
+        if record.trace.len() > self.settings.max_time_steps {
+            let detail = format!(
+                "the cycle needs more than {} time steps (the cap on one cycle); the inputs make every step tiny — check temperatures, currents and powers for a slip of units",
+                self.settings.max_time_steps
+            );
+            return Err(self.fail(step, label, detail));
+        }
         self.model.commit(state, cond, trial, &mut self.scratch);
         self.time_s += trial.dt;
         self.current_guess = trial.current;
@@ -552,6 +567,7 @@ impl Stepper<'_> {
         point.plated_coulomb = state.plated_coulomb + state.dead_coulomb;
         record.trace.push(point);
         self.model.record_profiles(state, record);
+        Ok(())
     }
 
     /// Finds the step length inside (0, dt] at which the first end is met: Illinois false
@@ -697,7 +713,7 @@ impl Stepper<'_> {
                         return Err(self.fail(0, &series.name, detail));
                     }
                 };
-                self.accept(state, &cond, &trial, 0, record);
+                self.accept(state, &cond, &trial, (0, &series.name), record)?;
                 elapsed += trial.dt;
                 dt = self.next_dt(&previous, &trial, !first, self.settings.max_dt_load_s);
                 first = false;
