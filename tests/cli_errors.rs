@@ -134,3 +134,19 @@ fn an_absurd_temperature_stops_at_the_time_step_cap_instead_of_exhausting_memory
         .stderr(predicates::str::contains("step 3 (fast charge)"));
     assert!(started.elapsed().as_secs() < 30, "took {:?}", started.elapsed());
 }
+
+#[test]
+fn thousands_of_jobs_are_refused_before_anything_is_written() {
+    // `--jobs 100000` used to start that many threads, run for tens of seconds and leave a
+    // run.json and an empty journal behind.
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    fadecast()
+        .args(["bands", "examples/van-fleet-bands.toml", "--samples", "4", "--jobs", "100000", "--out"])
+        .arg(&out)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("--jobs: at most"))
+        .stderr(predicates::str::contains("found 100000"));
+    assert!(!out.exists(), "nothing is written");
+}

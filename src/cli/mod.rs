@@ -332,10 +332,7 @@ pub fn run() -> Result<(), CliError> {
         } => {
             let overrides_text: Vec<String> = before_command.set.iter().chain(&overrides.set).cloned().collect();
             let overrides = parse_overrides(&before_command, &overrides)?;
-            let jobs = jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-            if jobs == 0 {
-                return Err(InputError::command_line_flag("--jobs", "must be at least 1").into());
-            }
+            let jobs = parse_jobs(jobs)?;
             let config = bands::BandsConfig {
                 scenario,
                 out_dir: out,
@@ -393,11 +390,23 @@ pub fn run() -> Result<(), CliError> {
     }
 }
 
-/// `--jobs`, defaulting to the machine's cores; 0 is refused.
+/// Worker threads allowed per core: more only add memory and switching, never speed.
+const MAX_JOBS_PER_CORE: usize = 8;
+
+/// `--jobs`, defaulting to the machine's cores; 0 is refused, and so is more than
+/// [`MAX_JOBS_PER_CORE`] per core (a slip of the finger that would start thousands of threads).
 fn parse_jobs(jobs: Option<usize>) -> Result<usize, InputError> {
-    let jobs = jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
+    let jobs = jobs.unwrap_or(cores);
     if jobs == 0 {
         return Err(InputError::command_line_flag("--jobs", "must be at least 1"));
+    }
+    let most = MAX_JOBS_PER_CORE * cores;
+    if jobs > most {
+        return Err(InputError::command_line_flag(
+            "--jobs",
+            format!("at most {most} ({MAX_JOBS_PER_CORE} per core on this machine's {cores}), found {jobs}"),
+        ));
     }
     Ok(jobs)
 }
