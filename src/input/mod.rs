@@ -18,6 +18,7 @@ pub mod locate;
 mod mechanisms;
 mod overrides;
 mod plan;
+mod plausible;
 mod profile;
 mod scenario;
 mod series;
@@ -40,6 +41,16 @@ pub use series::load_series;
 pub use template::{number_paths, ScenarioTemplate};
 
 use document::read_text;
+
+/// A problem with `key` of the scenario at `path` (its overrides applied), found after loading
+/// (by running the forecast): placed on the key's line, or on the `--set` value that gave it.
+pub fn scenario_problem(path: &Path, overrides: &[Override], key: &str, rule: impl Into<String>) -> InputError {
+    let rule = rule.into();
+    match document::TomlDocument::read_overridden(path, OverrideTarget::Scenario, overrides) {
+        Ok(document) => document.problem(key, rule),
+        Err(_) => InputError::new(path, rule).with_key(key),
+    }
+}
 
 /// The kinds of input file fadecast reads.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
