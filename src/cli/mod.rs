@@ -157,6 +157,9 @@ enum Command {
         /// Continue the interrupted run in DIR, keeping the samples it finished.
         #[arg(long)]
         resume: bool,
+        /// Start over in a DIR that holds an earlier run's journal, discarding it.
+        #[arg(long, conflicts_with = "resume")]
+        force: bool,
         /// No progress bar.
         #[arg(long)]
         quiet: bool,
@@ -327,6 +330,7 @@ pub fn run() -> Result<(), CliError> {
             out,
             horizon,
             resume,
+            force,
             quiet,
             uncertainty,
             overrides,
@@ -347,6 +351,7 @@ pub fn run() -> Result<(), CliError> {
                 warranty: warranty.as_deref().map(bands::parse_warranty).transpose()?,
                 horizon: horizon.parse()?,
                 resume,
+                force,
                 quiet,
                 uncertainty_file: uncertainty,
             };

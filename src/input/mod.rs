@@ -10,6 +10,7 @@
 
 mod cell;
 mod checks;
+mod digest;
 mod document;
 mod duty;
 mod error;
@@ -30,6 +31,7 @@ use crate::material::units;
 use std::path::Path;
 
 pub use cell::{check_cell, load_cell, LoadedCell};
+pub use digest::{file_digest, InputDigest, InputRole};
 pub use duty::load_duty;
 pub use error::{InputError, COMMAND_LINE_FLAG_SOURCE, COMMAND_LINE_SOURCE};
 pub use fit::{cell_table_with, load_fit, load_measured, DatasetSource, LoadedFit};

@@ -34,7 +34,7 @@ pub use fit::{fit_json, fit_svg, fit_text, fit_warning_text, fitted_cell_toml, u
 pub use forecast_json::forecast_json;
 pub use forecast_text::forecast_text;
 pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
-pub use journal::{decode_journal, encode_record};
+pub use journal::{decode_journal, encode_record, JournalEnding, JournalRead};
 pub use outcome::{
     counted_warning_lines, counted_warnings_json, failure_text, stop_json, stop_text, warning_json, warning_kind_text,
     warning_text,
