@@ -319,6 +319,15 @@ fn a_cycle_stops_at_the_cap_on_time_steps_with_an_error_naming_the_step() {
 }
 
 #[test]
+fn a_cycle_stops_at_the_cap_on_simulated_time() {
+    // The overnight van cycle spans about 7 h; a cap of one hour stops it in its first steps.
+    let s = scenario(VAN, &[]);
+    let settings = SolverSettings { max_cycle_duration_s: 3600.0, ..SolverSettings::default() };
+    let error = simulate_periodic_cycle(&s, &Health::fresh(&s.cell), &settings).expect_err("7 h cannot fit in 1 h");
+    assert!(error.to_string().contains("past 0.0416"), "{error}");
+}
+
+#[test]
 fn periodic_start_repeats_itself() {
     let s = scenario(FAST_CHARGE, &[]);
     let settings = SolverSettings::default();

@@ -405,8 +405,11 @@ fn finish(
         "shard": format!("{}/{}", description.shard_index, description.shard_count),
         "parameters": description.parameters,
     });
-    let bands = report::bands_csv(&summary)?;
     let samples = report::samples_csv(records, &description.parameters, warranty.is_some())?;
+    if summary.statistics_refused() {
+        return refuse_statistics(description, records, &summary, &samples, out_dir, out);
+    }
+    let bands = report::bands_csv(&summary)?;
     let json = report::ensemble_json(&summary, &run_value, &warnings)?;
     let bands_plot =
         report::bands_svg(&summary, &format!("{}: fade bands", description.scenario_name), description.cycling)?;
@@ -437,6 +440,40 @@ fn finish(
     out.write_all(text.as_bytes())?;
     print_caution(out)?;
     Ok(())
+}
+
+/// The names of the files that carry a run's statistics.
+const STATISTICS_FILES: [&str; 4] = ["bands.csv", "summary.json", "bands.svg", "sensitivity.svg"];
+
+/// Ends a run whose left-out samples are too many for statistics: the journal, the run's
+/// description and samples.csv (every sample with its drawn values and why it was left out) are
+/// written, statistics from an earlier run in the directory are removed, and the run fails.
+fn refuse_statistics(
+    description: &RunDescription,
+    records: &[SampleRecord],
+    summary: &crate::ensemble::EnsembleSummary,
+    samples_csv: &[u8],
+    out_dir: &Path,
+    out: &mut impl Write,
+) -> Result<(), CliError> {
+    report::write_atomic_streamed(out_dir, JOURNAL_NAME, |w| {
+        for record in records {
+            w.write_all(&report::encode_record(record))?;
+        }
+        Ok(())
+    })?;
+    let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
+    let written =
+        report::write_all_atomic(out_dir, &[("samples.csv", samples_csv), (RUN_NAME, description_bytes.as_slice())])?;
+    for name in STATISTICS_FILES {
+        let stale = out_dir.join(name);
+        if stale.exists() {
+            fs::remove_file(&stale).map_err(|source| report::ReportError::Io { path: stale.clone(), source })?;
+        }
+    }
+    let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
+    writeln!(out, "Wrote {}", names.join(", "))?;
+    Err(CliError::Forecast(report::statistics_refused_text(summary, crate::ensemble::MOST_LEFT_OUT_FRACTION)))
 }
 
 /// Whether a journal exists with at least one byte in it.

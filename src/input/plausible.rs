@@ -330,9 +330,48 @@ pub(crate) fn unusual_values(document: &TomlDocument) -> Vec<String> {
         .collect()
 }
 
+/// The table as Markdown rows (key, unit, hard range, usual range, slips named), as FORMATS.md
+/// prints it; a test keeps the two the same.
+#[cfg(test)]
+fn markdown_table() -> String {
+    let mut out =
+        String::from("| key | unit | error outside | warning outside | slips named |\n|---|---|---|---|---|\n");
+    for row in PLAUSIBLE {
+        let slips: Vec<String> = row
+            .slips
+            .iter()
+            .map(|slip| match slip {
+                Slip::Scaled { typed, .. } => (*typed).to_string(),
+                Slip::Kelvin => "kelvin".to_string(),
+            })
+            .collect();
+        let key = match row.key.strip_prefix('*') {
+            Some(tail) => format!("`…{tail}` (every activation energy)"),
+            None => format!("`{}`", row.key),
+        };
+        out.push_str(&format!(
+            "| {key} | {} | {} to {} | {} to {} | {} |\n",
+            if row.unit.is_empty() { "–" } else { row.unit },
+            number(row.hard.0),
+            number(row.hard.1),
+            number(row.soft.0),
+            number(row.soft.1),
+            if slips.is_empty() { "–".to_string() } else { slips.join(", ") }
+        ));
+    }
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn formats_md_prints_this_table() {
+        let formats = include_str!("../../FORMATS.md");
+        let table = markdown_table();
+        assert!(formats.contains(&table), "FORMATS.md's plausibility table is out of date; it should read:\n{table}");
+    }
 
     #[test]
     fn keys_match_by_their_last_segments() {
