@@ -414,13 +414,7 @@ fn finish(
     let bands_plot =
         report::bands_svg(&summary, &format!("{}: fade bands", description.scenario_name), description.cycling)?;
     let sensitivity = report::sensitivity_svg(&summary, &format!("{}: what drives life", description.scenario_name))?;
-    // The journal, sorted by sample, streamed: at 100 000 samples it is as large as the records.
-    report::write_atomic_streamed(out_dir, JOURNAL_NAME, |w| {
-        for record in records {
-            w.write_all(&report::encode_record(record))?;
-        }
-        Ok(())
-    })?;
+    write_journal(out_dir, records)?;
     let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
     let written = report::write_all_atomic(
         out_dir,
@@ -442,6 +436,17 @@ fn finish(
     Ok(())
 }
 
+/// The journal sorted by sample, streamed: at 100 000 samples it is as large as the records.
+fn write_journal(out_dir: &Path, records: &[SampleRecord]) -> Result<(), CliError> {
+    report::write_atomic_streamed(out_dir, JOURNAL_NAME, |w| {
+        for record in records {
+            w.write_all(&report::encode_record(record))?;
+        }
+        Ok(())
+    })?;
+    Ok(())
+}
+
 /// The names of the files that carry a run's statistics.
 const STATISTICS_FILES: [&str; 4] = ["bands.csv", "summary.json", "bands.svg", "sensitivity.svg"];
 
@@ -456,12 +461,7 @@ fn refuse_statistics(
     out_dir: &Path,
     out: &mut impl Write,
 ) -> Result<(), CliError> {
-    report::write_atomic_streamed(out_dir, JOURNAL_NAME, |w| {
-        for record in records {
-            w.write_all(&report::encode_record(record))?;
-        }
-        Ok(())
-    })?;
+    write_journal(out_dir, records)?;
     let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
     let written =
         report::write_all_atomic(out_dir, &[("samples.csv", samples_csv), (RUN_NAME, description_bytes.as_slice())])?;
