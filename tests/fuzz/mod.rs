@@ -89,6 +89,8 @@ pub struct Corpus {
     pub headers: Vec<String>,
     /// `--set` key paths that exist in the files (scenario keys bare, `cell.`, `profile.`).
     pub override_keys: Vec<String>,
+    /// The numbers the files give at those paths, to derive plausible `--set` values from.
+    pub override_values: std::collections::BTreeMap<String, f64>,
 }
 
 /// The repository, whose `examples/` and `profiles/` are the corpus.
@@ -117,6 +119,7 @@ impl Corpus {
         let mut keys = Vec::new();
         let mut headers = Vec::new();
         let mut override_keys = Vec::new();
+        let mut override_values = std::collections::BTreeMap::new();
         for file in &files {
             let prefix = match file.kind {
                 FileKind::Cell => "cell.",
@@ -124,8 +127,12 @@ impl Corpus {
                 FileKind::Scenario => "",
                 _ => continue,
             };
-            for key in key_paths(&file.text) {
-                override_keys.push(format!("{prefix}{key}"));
+            for (key, number) in key_paths(&file.text) {
+                let key = format!("{prefix}{key}");
+                if let Some(number) = number {
+                    override_values.insert(key.clone(), number);
+                }
+                override_keys.push(key);
             }
             for line in file.text.lines() {
                 let line = line.trim();
@@ -141,7 +148,7 @@ impl Corpus {
             list.dedup();
             list.retain(|k| !k.is_empty() && !k.starts_with('#'));
         }
-        Corpus { files, keys, headers, override_keys }
+        Corpus { files, keys, headers, override_keys, override_values }
     }
 
     pub fn of_kind(&self, kind: FileKind) -> Vec<&CorpusFile> {
@@ -170,22 +177,24 @@ fn read_corpus_file(root: &Path, kind: FileKind, path: PathBuf) -> CorpusFile {
 }
 
 /// Dotted key paths of a TOML text, with arrays of tables counted from 0, as `--set` spells
-/// them (`block.0.step.1.charge_c`).
-fn key_paths(text: &str) -> Vec<String> {
+/// them (`block.0.step.1.charge_c`), each with its number if it is one.
+fn key_paths(text: &str) -> Vec<(String, Option<f64>)> {
     let Ok(table) = text.parse::<toml::Table>() else { return Vec::new() };
     let mut out = Vec::new();
     walk(&toml::Value::Table(table), String::new(), &mut out);
     out
 }
 
-fn walk(value: &toml::Value, prefix: String, out: &mut Vec<String>) {
+fn walk(value: &toml::Value, prefix: String, out: &mut Vec<(String, Option<f64>)>) {
     let join = |key: &str| if prefix.is_empty() { key.to_string() } else { format!("{prefix}.{key}") };
     match value {
         toml::Value::Table(table) => table.iter().for_each(|(k, v)| walk(v, join(k), out)),
         toml::Value::Array(items) if items.iter().all(toml::Value::is_table) && !items.is_empty() => {
             items.iter().enumerate().for_each(|(i, v)| walk(v, join(&i.to_string()), out))
         }
-        _ => out.push(prefix),
+        toml::Value::Float(x) => out.push((prefix, Some(*x))),
+        toml::Value::Integer(n) => out.push((prefix, Some(*n as f64))),
+        _ => out.push((prefix, None)),
     }
 }
 
@@ -230,9 +239,12 @@ const INTERESTING: &[&str] = &[
 /// One of [`INTERESTING`] or a number derived from `original` (scaled by a unit factor,
 /// negated, nudged).
 pub fn interesting_number(rng: &mut Rng, original: Option<f64>) -> String {
-    if let (Some(x), true) = (original, rng.chance(0.4)) {
+    if let (Some(x), true) = (original, rng.chance(0.5)) {
         let factors = [1e3, 1e-3, 1e6, 1e-6, -1.0, 0.0, 10.0, 0.1, 1e30, 1e-30, 1e300, 2.0, 0.5, 1.0 + 1e-12, 3.6e3];
-        let value = x * rng.pick(&factors);
+        // Half unit slips and extremes, half a spread of up to 100× either way, which mostly
+        // passes the input rules and so reaches the simulation.
+        let factor = if rng.chance(0.5) { *rng.pick(&factors) } else { 10f64.powf(4.0 * rng.unit() - 2.0) };
+        let value = x * factor;
         return if rng.chance(0.5) { format!("{value:e}") } else { format!("{value:?}") };
     }
     if rng.chance(0.1) {
@@ -252,7 +264,10 @@ pub fn number_spans(text: &str) -> Vec<(usize, usize)> {
         let starts = bytes[i].is_ascii_digit()
             || ((bytes[i] == b'-' || bytes[i] == b'+' || bytes[i] == b'.')
                 && bytes.get(i + 1).is_some_and(u8::is_ascii_digit));
-        let after_word = i > 0 && (bytes[i - 1].is_ascii_alphanumeric() || bytes[i - 1] == b'_');
+        // Digits inside names (`van-pouch-5ah`, `step_2`) are not numbers.
+        let word = |b: u8| b.is_ascii_alphanumeric() || b == b'_';
+        let after_word = i > 0
+            && (word(bytes[i - 1]) || (matches!(bytes[i - 1], b'-' | b'.') && i > 1 && word(bytes[i - 2])));
         if starts && !after_word {
             let start = i;
             i += 1;
@@ -265,7 +280,9 @@ pub fn number_spans(text: &str) -> Vec<(usize, usize)> {
                     break;
                 }
             }
-            spans.push((start, i));
+            if !bytes.get(i).is_some_and(|b| b.is_ascii_alphabetic() || *b == b'-') {
+                spans.push((start, i));
+            }
         } else {
             i += 1;
         }
@@ -471,7 +488,7 @@ pub fn random_override(rng: &mut Rng, corpus: &Corpus) -> String {
         _ => rng.pick(&["cell", "profile", "ambient_c", "name", "uncertainty", "usage", "block.0"]).to_string(),
     };
     let value = match rng.below(10) {
-        0..=6 => interesting_number(rng, None),
+        0..=6 => interesting_number(rng, corpus.override_values.get(&key).copied()),
         7 => rng.pick(ODD_VALUES).to_string(),
         8 => String::new(),
         _ => "=1".to_string(),
