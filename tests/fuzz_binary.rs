@@ -283,7 +283,10 @@ fn worker(corpus: &Corpus, seed: u64, next: &AtomicU64, end: u64, name: &str, ta
         let class = classify(&ending, &stderr);
         if std::env::var_os("FADECAST_FUZZ_VERBOSE").is_some() {
             let last = stderr.lines().last().unwrap_or("");
-            say(&format!("run {index}: {:?} → {:?}/{:?} in {:?}: {last}\n", run.args, ending.code, ending.signal, ending.wall));
+            say(&format!(
+                "run {index}: {:?} → {:?}/{:?} in {:?}: {last}\n",
+                run.args, ending.code, ending.signal, ending.wall
+            ));
         }
         {
             let mut tally = tally.lock().expect("lock");
@@ -315,7 +318,11 @@ fn worker(corpus: &Corpus, seed: u64, next: &AtomicU64, end: u64, name: &str, ta
         }
         let _ = std::fs::remove_dir_all(root.join("out"));
         if index > 0 && index % 1000 == 0 {
-            say(&format!("fuzz_binary: {index} runs, {:.0} s\n", clock.elapsed().as_secs_f64()));
+            let failures = &tally.lock().expect("lock").failures;
+            say(&format!(
+                "fuzz_binary: run {index}, {:.0} s, failures so far {failures:?}\n",
+                clock.elapsed().as_secs_f64()
+            ));
         }
     }
     let _ = std::fs::remove_dir_all(&root);
@@ -329,7 +336,11 @@ fn binary_answers_every_mutated_run_within_limits() {
             let only = env_number("FADECAST_FUZZ_ONLY", 0);
             (only, only + 1)
         }
-        Err(_) => (0, env_number("FADECAST_FUZZ_RUNS", 30)),
+        // `FADECAST_FUZZ_FIRST` shifts the range, to continue or split a campaign.
+        Err(_) => {
+            let first = env_number("FADECAST_FUZZ_FIRST", 0);
+            (first, first + env_number("FADECAST_FUZZ_RUNS", 30))
+        }
     };
     let jobs = env_number("FADECAST_FUZZ_JOBS", 1).max(1) as usize;
     let corpus = Arc::new(Corpus::load());

@@ -179,7 +179,11 @@ fn make_case(corpus: &Corpus, seed: u64, index: u64) -> Case {
             case.main = PathBuf::from(UNCERTAINTY_FILE);
             case.writes.push((case.main.clone(), mutated(&mut rng, &uncertainty_section(corpus), corpus)));
             // The scenario it is checked against: the one it was written for, mostly.
-            let scenario = if rng.chance(0.7) { "examples/van-fleet-bands.toml".into() } else { rng.pick(&scenarios).path.clone() };
+            let scenario = if rng.chance(0.7) {
+                "examples/van-fleet-bands.toml".into()
+            } else {
+                rng.pick(&scenarios).path.clone()
+            };
             case.companion = scenario;
         }
         Target::Overrides => {
@@ -319,7 +323,9 @@ fn save_finding(corpus: &Corpus, seed: u64, index: u64, class: &str, detail: &st
 fn peak_rss_kb() -> u64 {
     std::fs::read_to_string("/proc/self/status")
         .ok()
-        .and_then(|s| s.lines().find(|l| l.starts_with("VmHWM:")).and_then(|l| l.split_whitespace().nth(1)?.parse().ok()))
+        .and_then(|s| {
+            s.lines().find(|l| l.starts_with("VmHWM:")).and_then(|l| l.split_whitespace().nth(1)?.parse().ok())
+        })
         .unwrap_or(0)
 }
 
@@ -413,7 +419,11 @@ fn loaders_return_an_answer_for_every_mutated_input() {
             let only = env_number("FADECAST_FUZZ_ONLY", 0);
             (only, only + 1)
         }
-        Err(_) => (0, env_number("FADECAST_FUZZ_CASES", 300)),
+        // `FADECAST_FUZZ_FIRST` shifts the range, to continue or split a campaign.
+        Err(_) => {
+            let first = env_number("FADECAST_FUZZ_FIRST", 0);
+            (first, first + env_number("FADECAST_FUZZ_CASES", 300))
+        }
     };
     let jobs = env_number("FADECAST_FUZZ_JOBS", 1).max(1) as usize;
     let shared = Arc::new(Shared {

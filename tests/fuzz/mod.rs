@@ -102,7 +102,8 @@ impl Corpus {
     pub fn load() -> Self {
         let root = repository();
         let mut files = Vec::new();
-        for (dir, ext) in [("examples", "toml"), ("examples/cells", "toml"), ("profiles", "toml"), ("profiles", "csv")] {
+        for (dir, ext) in [("examples", "toml"), ("examples/cells", "toml"), ("profiles", "toml"), ("profiles", "csv")]
+        {
             files.extend(list(root, dir, ext).into_iter().map(|path| {
                 let kind = match (dir, ext) {
                     ("examples", _) => FileKind::Scenario,
@@ -114,7 +115,9 @@ impl Corpus {
             }));
         }
         files.extend(list(root, "examples/fit", "toml").into_iter().map(|p| read_corpus_file(root, FileKind::Fit, p)));
-        files.extend(list(root, "examples/fit", "csv").into_iter().map(|p| read_corpus_file(root, FileKind::Measured, p)));
+        files.extend(
+            list(root, "examples/fit", "csv").into_iter().map(|p| read_corpus_file(root, FileKind::Measured, p)),
+        );
 
         let mut keys = Vec::new();
         let mut headers = Vec::new();
@@ -229,11 +232,62 @@ pub fn findings_dir() -> PathBuf {
 /// Numbers that break assumptions: zero and signs, the ends of `f64` and `i64`, subnormals,
 /// non-finite values, unit slips, and spellings TOML or a CSV reader may or may not accept.
 const INTERESTING: &[&str] = &[
-    "0", "-0", "0.0", "-0.0", "1", "-1", "2", "1e308", "-1e308", "1.7976931348623157e308", "1e-308", "5e-324",
-    "2.2250738585072014e-308", "1e30", "-1e30", "1e9", "-1e9", "1e12", "1e-30", "1e-12", "nan", "+nan", "-nan", "inf",
-    "+inf", "-inf", "NaN", "Infinity", "9223372036854775807", "-9223372036854775808", "9223372036854775808",
-    "18446744073709551616", "2147483648", "4294967296", "1e400", "-1e400", "298.15", "273.15", "0.9", "100", "1000",
-    "5000", "1e6", "0.001", "1_000", "0x10", "0o7", "0b1", "1.", ".5", "1e", "--1", "1e-400", "3600", "86400", "1e15",
+    "0",
+    "-0",
+    "0.0",
+    "-0.0",
+    "1",
+    "-1",
+    "2",
+    "1e308",
+    "-1e308",
+    "1.7976931348623157e308",
+    "1e-308",
+    "5e-324",
+    "2.2250738585072014e-308",
+    "1e30",
+    "-1e30",
+    "1e9",
+    "-1e9",
+    "1e12",
+    "1e-30",
+    "1e-12",
+    "nan",
+    "+nan",
+    "-nan",
+    "inf",
+    "+inf",
+    "-inf",
+    "NaN",
+    "Infinity",
+    "9223372036854775807",
+    "-9223372036854775808",
+    "9223372036854775808",
+    "18446744073709551616",
+    "2147483648",
+    "4294967296",
+    "1e400",
+    "-1e400",
+    "298.15",
+    "273.15",
+    "0.9",
+    "100",
+    "1000",
+    "5000",
+    "1e6",
+    "0.001",
+    "1_000",
+    "0x10",
+    "0o7",
+    "0b1",
+    "1.",
+    ".5",
+    "1e",
+    "--1",
+    "1e-400",
+    "3600",
+    "86400",
+    "1e15",
 ];
 
 /// One of [`INTERESTING`] or a number derived from `original` (scaled by a unit factor,
@@ -261,13 +315,20 @@ pub fn number_spans(text: &str) -> Vec<(usize, usize)> {
     let mut spans = Vec::new();
     let mut i = 0;
     while i < bytes.len() {
+        if bytes[i] == b'#' {
+            // A TOML comment: its numbers change nothing.
+            while i < bytes.len() && bytes[i] != b'\n' {
+                i += 1;
+            }
+            continue;
+        }
         let starts = bytes[i].is_ascii_digit()
             || ((bytes[i] == b'-' || bytes[i] == b'+' || bytes[i] == b'.')
                 && bytes.get(i + 1).is_some_and(u8::is_ascii_digit));
         // Digits inside names (`van-pouch-5ah`, `step_2`) are not numbers.
         let word = |b: u8| b.is_ascii_alphanumeric() || b == b'_';
-        let after_word = i > 0
-            && (word(bytes[i - 1]) || (matches!(bytes[i - 1], b'-' | b'.') && i > 1 && word(bytes[i - 2])));
+        let after_word =
+            i > 0 && (word(bytes[i - 1]) || (matches!(bytes[i - 1], b'-' | b'.') && i > 1 && word(bytes[i - 2])));
         if starts && !after_word {
             let start = i;
             i += 1;
@@ -304,16 +365,40 @@ pub fn mutate_number(rng: &mut Rng, text: &str) -> String {
 
 /// Values of other types, odd strings and paths, for `key = value` lines.
 const ODD_VALUES: &[&str] = &[
-    "\"text\"", "\"\"", "true", "false", "[]", "[1, 2]", "[[1.0], [2.0]]", "{}", "{ a = 1 }", "1979-05-27",
-    "1979-05-27T07:32:00Z", "'''\nmulti\n'''", "\"../profiles/van-day.csv\"", "\"cells/van-pouch-5ah.toml\"",
-    "\"../examples/lab-cccv-1c.toml\"", "\"lab-cccv-1c.toml\"", "\"cells\"", "\".\"", "\"/dev/null\"",
-    "\"missing.toml\"", "\"storage-25c.csv\"", "\"../van-depot-storage.toml\"", "\"log-normal\"", "\"uniform\"",
-    "\"latin-hypercube\"", "\"\\u0000\"", "\"ü\"", "[\"a\", \"b\"]", "[[1.0, 0.5], [0.5, 1.0]]", "\"1e30\"",
+    "\"text\"",
+    "\"\"",
+    "true",
+    "false",
+    "[]",
+    "[1, 2]",
+    "[[1.0], [2.0]]",
+    "{}",
+    "{ a = 1 }",
+    "1979-05-27",
+    "1979-05-27T07:32:00Z",
+    "'''\nmulti\n'''",
+    "\"../profiles/van-day.csv\"",
+    "\"cells/van-pouch-5ah.toml\"",
+    "\"../examples/lab-cccv-1c.toml\"",
+    "\"lab-cccv-1c.toml\"",
+    "\"cells\"",
+    "\".\"",
+    "\"/dev/null\"",
+    "\"missing.toml\"",
+    "\"storage-25c.csv\"",
+    "\"../van-depot-storage.toml\"",
+    "\"log-normal\"",
+    "\"uniform\"",
+    "\"latin-hypercube\"",
+    "\"\\u0000\"",
+    "\"ü\"",
+    "[\"a\", \"b\"]",
+    "[[1.0, 0.5], [0.5, 1.0]]",
+    "\"1e30\"",
 ];
 
 /// Bytes that mean something to TOML or CSV, and some that are not UTF-8.
-const ODD_BYTES: &[u8] =
-    b"\0\"'[]={},#\n\r\t\\.-+e_ \xff\xc3\x80";
+const ODD_BYTES: &[u8] = b"\0\"'[]={},#\n\r\t\\.-+e_ \xff\xc3\x80";
 
 /// The number of mutations a case stacks.
 pub fn mutation_count(rng: &mut Rng) -> usize {
