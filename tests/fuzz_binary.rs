@@ -1,14 +1,14 @@
 //! Mutation fuzzing of the binary: `check`, `cycle` and `forecast` (short horizons) on mutated
 //! scenarios, cells and profiles and on random `--set` values, each run in its own process
-//! under a 20 s wall limit and a 1 GiB address-space limit, its peak resident memory measured.
-//! Exit 0, 1 or 2 is an answer; a panic (101), a signal (abort, crash), any other exit code,
-//! a run over 20 s or over 1 GiB is a failure, saved with its inputs and command line under the
-//! findings directory.
+//! under a 20 s CPU-time limit (120 s of wall time for one that blocks) and a 1 GiB
+//! address-space limit, its peak resident memory measured. Exit 0, 1 or 2 is an answer; a panic
+//! (101), a signal (abort, crash), any other exit code, a run over 20 s or over 1 GiB is a
+//! failure, saved with its inputs and command line under the findings directory.
 //!
 //! CI runs `FADECAST_FUZZ_RUNS` runs (default 30, a few seconds). The campaign of issue 15:
 //!
 //! ```text
-//! FADECAST_FUZZ_RUNS=12000 FADECAST_FUZZ_JOBS=2 FADECAST_FUZZ_SEED=15 \
+//! FADECAST_FUZZ_RUNS=13000 FADECAST_FUZZ_SEED=15 \
 //!     nice -n 10 cargo test --release --test fuzz_binary -- --nocapture
 //! ```
 //!
@@ -30,8 +30,12 @@ use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
-/// Issue 15: no run over 20 s …
-const WALL_LIMIT: Duration = Duration::from_secs(20);
+/// Issue 15: no run over 20 s … of CPU time, which the machine's other load does not stretch
+/// as it stretches wall time (campaigns run niced on shared cores).
+const CPU_LIMIT: Duration = Duration::from_secs(20);
+/// A run that does not end yet stays under the CPU limit (blocked on a read, or starved of CPU
+/// by other load) is stopped after this, and classed apart.
+const WALL_LIMIT: Duration = Duration::from_secs(120);
 /// … or over 1 GB. The address-space limit makes a runaway allocation fail at once (an abort,
 /// classed as memory) instead of after minutes of growth.
 const MEMORY_LIMIT_BYTES: u64 = 1 << 30;
@@ -144,6 +148,8 @@ struct Ending {
     code: Option<i32>,
     signal: Option<i32>,
     wall: Duration,
+    /// User plus system time.
+    cpu: Duration,
     peak_rss_bytes: u64,
     killed_for_time: bool,
 }
@@ -159,7 +165,13 @@ fn execute(binary: &Path, root: &Path, args: &[String]) -> Ending {
         command.pre_exec(|| {
             let memory = libc::rlimit { rlim_cur: MEMORY_LIMIT_BYTES, rlim_max: MEMORY_LIMIT_BYTES };
             let no_core = libc::rlimit { rlim_cur: 0, rlim_max: 0 };
-            if libc::setrlimit(libc::RLIMIT_AS, &memory) != 0 || libc::setrlimit(libc::RLIMIT_CORE, &no_core) != 0 {
+            // SIGXCPU a second past the limit, SIGKILL a second later.
+            let seconds = CPU_LIMIT.as_secs() as libc::rlim_t;
+            let cpu = libc::rlimit { rlim_cur: seconds + 1, rlim_max: seconds + 2 };
+            if libc::setrlimit(libc::RLIMIT_AS, &memory) != 0
+                || libc::setrlimit(libc::RLIMIT_CORE, &no_core) != 0
+                || libc::setrlimit(libc::RLIMIT_CPU, &cpu) != 0
+            {
                 return Err(std::io::Error::last_os_error());
             }
             Ok(())
@@ -196,13 +208,18 @@ fn execute(binary: &Path, root: &Path, args: &[String]) -> Ending {
     } else {
         (None, libc::WIFSIGNALED(status).then(|| libc::WTERMSIG(status)))
     };
-    Ending { code, signal, wall, peak_rss_bytes: usage.ru_maxrss as u64 * 1024, killed_for_time }
+    let seconds = |t: libc::timeval| Duration::new(t.tv_sec as u64, t.tv_usec as u32 * 1000);
+    let cpu = seconds(usage.ru_utime) + seconds(usage.ru_stime);
+    Ending { code, signal, wall, cpu, peak_rss_bytes: usage.ru_maxrss as u64 * 1024, killed_for_time }
 }
 
 /// The failure class of a run, or `None` when it answered (exit 0, 1 or 2 within the limits).
 fn classify(ending: &Ending, stderr: &str) -> Option<&'static str> {
-    if ending.killed_for_time || ending.wall > WALL_LIMIT {
+    if ending.cpu > CPU_LIMIT || ending.signal == Some(libc::SIGXCPU) {
         return Some("timeout");
+    }
+    if ending.killed_for_time {
+        return Some("stalled");
     }
     if ending.peak_rss_bytes > MEMORY_LIMIT_BYTES || stderr.contains("memory allocation of") {
         return Some("memory");
@@ -223,6 +240,7 @@ struct Tally {
     /// (class, command) → failures.
     failures: BTreeMap<(&'static str, Command), u64>,
     saved: Vec<String>,
+    /// Most CPU time of one run, and its index.
     slowest: (Duration, u64),
     peak_rss_bytes: u64,
     total_wall: Duration,
@@ -284,16 +302,16 @@ fn worker(corpus: &Corpus, seed: u64, next: &AtomicU64, end: u64, name: &str, ta
         if std::env::var_os("FADECAST_FUZZ_VERBOSE").is_some() {
             let last = stderr.lines().last().unwrap_or("");
             say(&format!(
-                "run {index}: {:?} → {:?}/{:?} in {:?}: {last}\n",
-                run.args, ending.code, ending.signal, ending.wall
+                "run {index}: {:?} → {:?}/{:?} in {:?} CPU: {last}\n",
+                run.args, ending.code, ending.signal, ending.cpu
             ));
         }
         {
             let mut tally = tally.lock().expect("lock");
             tally.total_wall += ending.wall;
             tally.peak_rss_bytes = tally.peak_rss_bytes.max(ending.peak_rss_bytes);
-            if ending.wall > tally.slowest.0 {
-                tally.slowest = (ending.wall, index);
+            if ending.cpu > tally.slowest.0 {
+                tally.slowest = (ending.cpu, index);
             }
             match class {
                 None => *tally.answers.entry((run.command, ending.code.unwrap_or(-1))).or_insert(0) += 1,
@@ -363,7 +381,7 @@ fn binary_answers_every_mutated_run_within_limits() {
     }
     say(&format!(
         "fuzz_binary: seed {seed}, runs {start}..{end} in {:.1} s ({jobs} jobs, {:.1} s of runs); answered by \
-         command {per_command:?}; by (command, exit) {:?}; slowest run {} took {:.2} s; peak RSS {} MiB; failures by (class, command) {:?}\n",
+         command {per_command:?}; by (command, exit) {:?}; slowest run {} took {:.2} s of CPU; peak RSS {} MiB; failures by (class, command) {:?}\n",
         clock.elapsed().as_secs_f64(),
         tally.total_wall.as_secs_f64(),
         tally.answers,
@@ -373,4 +391,47 @@ fn binary_answers_every_mutated_run_within_limits() {
         tally.failures,
     ));
     assert!(tally.failures.is_empty(), "failing runs:\n{}", tally.saved.join("\n"));
+}
+
+/// Every failure a campaign found is kept as a scenario under `tests/data/fuzz/` and replayed
+/// here through `check`, `cycle` and `forecast --cycles 50` with the driver's limits. Ignored
+/// until the issue-15 caps and plausibility ranges land: today these runs end in the step cap
+/// after 5–10 s (`cycle`) and 40–70 s (`forecast`); each must end in under 2 s.
+#[test]
+#[ignore = "fuzz findings of issue 15, fixed by its input ranges and caps; run with --ignored"]
+fn fuzz_findings_end_within_two_seconds() {
+    let binary = Path::new(env!("CARGO_BIN_EXE_fadecast"));
+    let data = fuzz::repository().join("tests/data/fuzz");
+    let mut scenarios: Vec<PathBuf> = std::fs::read_dir(&data)
+        .expect("tests/data/fuzz")
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .collect();
+    scenarios.sort();
+    assert!(!scenarios.is_empty());
+    let out = scratch_dir("findings");
+    let mut problems = Vec::new();
+    for scenario in &scenarios {
+        let scenario = scenario.to_string_lossy().into_owned();
+        let out_dir = out.join("out").to_string_lossy().into_owned();
+        for args in [
+            vec!["check".to_string(), scenario.clone()],
+            vec!["cycle".into(), scenario.clone(), "--out".into(), out_dir.clone()],
+            vec!["forecast".into(), scenario.clone(), "--out".into(), out_dir.clone(), "--cycles".into(), "50".into()],
+        ] {
+            let ending = execute(binary, &out, &args);
+            let stderr = std::fs::read_to_string(out.join("stderr.txt")).unwrap_or_default();
+            let class = classify(&ending, &stderr);
+            if class.is_some() || ending.wall > Duration::from_secs(2) {
+                problems.push(format!(
+                    "{} → {class:?}, {:?}, {:.1} s",
+                    args.join(" "),
+                    ending.code,
+                    ending.wall.as_secs_f64()
+                ));
+            }
+        }
+    }
+    let _ = std::fs::remove_dir_all(&out);
+    assert!(problems.is_empty(), "fuzz findings that still fail:\n{}", problems.join("\n"));
 }
