@@ -335,7 +335,7 @@ fn worker(corpus: &Corpus, seed: u64, next: &AtomicU64, end: u64, name: &str, ta
             std::fs::write(root.join(path), original).expect("restore corpus file");
         }
         let _ = std::fs::remove_dir_all(root.join("out"));
-        if index > 0 && index % 1000 == 0 {
+        if index > 0 && index.is_multiple_of(1000) {
             let failures = &tally.lock().expect("lock").failures;
             say(&format!(
                 "fuzz_binary: run {index}, {:.0} s, failures so far {failures:?}\n",

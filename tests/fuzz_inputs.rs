@@ -377,7 +377,7 @@ fn worker(shared: &Shared, name: &str, running: &AtomicU64, started_ms: &AtomicU
             failure = Some(("panic", message));
         } else if took > CASE_LIMIT {
             failure = Some(("slow", format!("{took:?}")));
-        } else if index % 256 == 0 && peak_rss_kb() > MEMORY_LIMIT_KB {
+        } else if index.is_multiple_of(256) && peak_rss_kb() > MEMORY_LIMIT_KB {
             failure = Some(("memory", format!("peak RSS {} KiB", peak_rss_kb())));
         }
         if let Some((class, detail)) = failure {
@@ -394,7 +394,7 @@ fn worker(shared: &Shared, name: &str, running: &AtomicU64, started_ms: &AtomicU
             };
             std::fs::write(root.join(path), original).expect("restore corpus file");
         }
-        if index > 0 && index % 100_000 == 0 {
+        if index > 0 && index.is_multiple_of(100_000) {
             say(&format!("fuzz_inputs: {index} cases, {:.0} s\n", clock.elapsed().as_secs_f64()));
         }
     }
