@@ -1,6 +1,6 @@
 //! Mutation fuzzing of the binary: `check`, `cycle` and `forecast` (short horizons) on mutated
 //! scenarios, cells and profiles and on random `--set` values, each run in its own process
-//! under a 20 s CPU-time limit (120 s of wall time for one that blocks) and a 1 GiB
+//! under a 20 s CPU-time limit (300 s of wall time for one that blocks) and a 1 GiB
 //! address-space limit, its peak resident memory measured. Exit 0, 1 or 2 is an answer; a panic
 //! (101), a signal (abort, crash), any other exit code, a run over 20 s or over 1 GiB is a
 //! failure, saved with its inputs and command line under the findings directory.
@@ -35,7 +35,7 @@ use std::time::{Duration, Instant};
 const CPU_LIMIT: Duration = Duration::from_secs(20);
 /// A run that does not end yet stays under the CPU limit (blocked on a read, or starved of CPU
 /// by other load) is stopped after this, and classed apart.
-const WALL_LIMIT: Duration = Duration::from_secs(120);
+const WALL_LIMIT: Duration = Duration::from_secs(300);
 /// … or over 1 GB. The address-space limit makes a runaway allocation fail at once (an abort,
 /// classed as memory) instead of after minutes of growth.
 const MEMORY_LIMIT_BYTES: u64 = 1 << 30;
