@@ -154,12 +154,13 @@ struct Ending {
     killed_for_time: bool,
 }
 
-/// Runs the binary in `root` with the limits, reaping it with `wait4` for its resource usage.
-fn execute(binary: &Path, root: &Path, args: &[String]) -> Ending {
-    let stdout = std::fs::File::create(root.join("stdout.txt")).expect("stdout file");
-    let stderr = std::fs::File::create(root.join("stderr.txt")).expect("stderr file");
+/// Runs the binary in `workdir` with the limits, its output to `logs`/stdout.txt and
+/// stderr.txt, reaping it with `wait4` for its resource usage.
+fn execute(binary: &Path, workdir: &Path, logs: &Path, args: &[String]) -> Ending {
+    let stdout = std::fs::File::create(logs.join("stdout.txt")).expect("stdout file");
+    let stderr = std::fs::File::create(logs.join("stderr.txt")).expect("stderr file");
     let mut command = std::process::Command::new(binary);
-    command.args(args).current_dir(root).stdin(Stdio::null()).stdout(stdout).stderr(stderr);
+    command.args(args).current_dir(workdir).stdin(Stdio::null()).stdout(stdout).stderr(stderr);
     // SAFETY: between fork and exec only async-signal-safe calls (setrlimit) are made.
     unsafe {
         command.pre_exec(|| {
@@ -296,7 +297,7 @@ fn worker(corpus: &Corpus, seed: u64, next: &AtomicU64, end: u64, name: &str, ta
         for (path, bytes) in &run.writes {
             std::fs::write(root.join(path), bytes).expect("write mutated file");
         }
-        let ending = execute(binary, &root, &run.args);
+        let ending = execute(binary, &root, &root, &run.args);
         let stderr = std::fs::read_to_string(root.join("stderr.txt")).unwrap_or_default();
         let class = classify(&ending, &stderr);
         if std::env::var_os("FADECAST_FUZZ_VERBOSE").is_some() {
@@ -393,45 +394,38 @@ fn binary_answers_every_mutated_run_within_limits() {
     assert!(tally.failures.is_empty(), "failing runs:\n{}", tally.saved.join("\n"));
 }
 
-/// Every failure a campaign found is kept as a scenario under `tests/data/fuzz/` and replayed
-/// here through `check`, `cycle` and `forecast --cycles 50` with the driver's limits. Ignored
-/// until the issue-15 caps and plausibility ranges land: today these runs end in the step cap
-/// after 5–10 s (`cycle`) and 40–70 s (`forecast`); each must end in under 2 s.
+/// The failures the campaigns found, one command line each in `tests/data/fuzz/findings.txt`
+/// (run from the repository root, `--out` added), replayed with the driver's limits. Ignored
+/// until the issue-15 caps and plausibility ranges land: today these runs take 20–100 s of
+/// CPU each; every one must end (exit 0, 1 or 2) in under 2 s.
 #[test]
 #[ignore = "fuzz findings of issue 15, fixed by its input ranges and caps; run with --ignored"]
 fn fuzz_findings_end_within_two_seconds() {
     let binary = Path::new(env!("CARGO_BIN_EXE_fadecast"));
-    let data = fuzz::repository().join("tests/data/fuzz");
-    let mut scenarios: Vec<PathBuf> = std::fs::read_dir(&data)
-        .expect("tests/data/fuzz")
-        .filter_map(|e| e.ok().map(|e| e.path()))
-        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
-        .collect();
-    scenarios.sort();
-    assert!(!scenarios.is_empty());
+    let root = fuzz::repository();
+    let list = std::fs::read_to_string(root.join("tests/data/fuzz/findings.txt")).expect("findings list");
     let out = scratch_dir("findings");
     let mut problems = Vec::new();
-    for scenario in &scenarios {
-        let scenario = scenario.to_string_lossy().into_owned();
-        let out_dir = out.join("out").to_string_lossy().into_owned();
-        for args in [
-            vec!["check".to_string(), scenario.clone()],
-            vec!["cycle".into(), scenario.clone(), "--out".into(), out_dir.clone()],
-            vec!["forecast".into(), scenario.clone(), "--out".into(), out_dir.clone(), "--cycles".into(), "50".into()],
-        ] {
-            let ending = execute(binary, &out, &args);
-            let stderr = std::fs::read_to_string(out.join("stderr.txt")).unwrap_or_default();
-            let class = classify(&ending, &stderr);
-            if class.is_some() || ending.wall > Duration::from_secs(2) {
-                problems.push(format!(
-                    "{} → {class:?}, {:?}, {:.1} s",
-                    args.join(" "),
-                    ending.code,
-                    ending.wall.as_secs_f64()
-                ));
-            }
+    let mut replayed = 0;
+    for line in list.lines().map(str::trim).filter(|l| !l.is_empty() && !l.starts_with('#')) {
+        let mut args: Vec<String> = line.split_whitespace().map(str::to_string).collect();
+        if args[0] != "check" {
+            args.extend(["--out".to_string(), out.join("out").to_string_lossy().into_owned()]);
         }
+        // Output files go to the scratch directory; inputs are read from the repository.
+        let ending = execute(binary, root, &out, &args);
+        let stderr = std::fs::read_to_string(out.join("stderr.txt")).unwrap_or_default();
+        let class = classify(&ending, &stderr);
+        if class.is_some() || ending.wall > Duration::from_secs(2) {
+            problems.push(format!(
+                "{line} → {class:?}, exit {:?}, {:.1} s of CPU",
+                ending.code,
+                ending.cpu.as_secs_f64()
+            ));
+        }
+        replayed += 1;
     }
     let _ = std::fs::remove_dir_all(&out);
+    assert!(replayed > 0, "no findings listed");
     assert!(problems.is_empty(), "fuzz findings that still fail:\n{}", problems.join("\n"));
 }
