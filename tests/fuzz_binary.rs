@@ -285,7 +285,7 @@ fn copy_tree(from: &Path, to: &Path) {
 }
 
 fn worker(corpus: &Corpus, seed: u64, next: &AtomicU64, end: u64, name: &str, tally: &Mutex<Tally>, clock: Instant) {
-    let binary = Path::new(env!("CARGO_BIN_EXE_fadecast"));
+    let binary = &binary_under_test();
     let root = scratch_dir(&format!("binary-{name}"));
     write_corpus(corpus, &root);
     loop {
@@ -401,7 +401,7 @@ fn binary_answers_every_mutated_run_within_limits() {
 #[test]
 #[ignore = "fuzz findings of issue 15, fixed by its input ranges and caps; run with --ignored"]
 fn fuzz_findings_end_within_two_seconds() {
-    let binary = Path::new(env!("CARGO_BIN_EXE_fadecast"));
+    let binary = &binary_under_test();
     let root = fuzz::repository();
     let list = std::fs::read_to_string(root.join("tests/data/fuzz/findings.txt")).expect("findings list");
     let out = scratch_dir("findings");
@@ -428,4 +428,12 @@ fn fuzz_findings_end_within_two_seconds() {
     let _ = std::fs::remove_dir_all(&out);
     assert!(replayed > 0, "no findings listed");
     assert!(problems.is_empty(), "fuzz findings that still fail:\n{}", problems.join("\n"));
+}
+
+/// The binary the runs start: `FADECAST_FUZZ_BINARY` (a frozen copy, so a long campaign is not
+/// changed under it by a rebuild), else the one cargo built with this test.
+fn binary_under_test() -> std::path::PathBuf {
+    std::env::var_os("FADECAST_FUZZ_BINARY")
+        .map(std::path::PathBuf::from)
+        .unwrap_or_else(|| Path::new(env!("CARGO_BIN_EXE_fadecast")).to_path_buf())
 }

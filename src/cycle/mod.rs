@@ -26,5 +26,5 @@ pub use record::{CycleRecord, EndReason, StepSummary, StressHistory, TracePoint}
 pub use response::{CellModel, CellState, Health};
 pub use stepper::{
     simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CycleError, CycleRun, SolverSettings,
-    MAX_STEP_DURATION_S,
+    MAX_CYCLE_DURATION_S, MAX_STEP_DURATION_S,
 };

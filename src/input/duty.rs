@@ -7,7 +7,8 @@ use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
 use super::profile::{check_profile_document, check_profile_shape, VoltageWindow};
 use super::series::load_series;
-use crate::cycle::{DutyCycle, TimeSeries};
+use crate::cycle::{DutyCycle, SeriesSignal, TimeSeries};
+use crate::material::constants::SECONDS_PER_HOUR;
 
 /// A measured series starts from a full cell unless the scenario says otherwise.
 const SERIES_START_SOC: f64 = 1.0;
@@ -30,7 +31,7 @@ pub(crate) fn check_duty(
     overrides: &[Override],
 ) -> Result<(DutyCycle, f64), Vec<InputError>> {
     let file = read_duty(path, overrides).map_err(|e| vec![e])?;
-    check_duty_file(&file, nominal_capacity_coulomb, window)
+    check_duty_file(path, &file, nominal_capacity_coulomb, window)
 }
 
 /// A duty-cycle file as read, its overrides applied, before its rules are checked.
@@ -72,6 +73,7 @@ impl DutyFile {
 
 /// [`check_duty`] on a duty-cycle file already read.
 pub(crate) fn check_duty_file(
+    path: &Path,
     file: &DutyFile,
     nominal_capacity_coulomb: f64,
     window: Option<VoltageWindow>,
@@ -79,7 +81,43 @@ pub(crate) fn check_duty_file(
     match file {
         DutyFile::Profile(document) => check_profile_document(document, nominal_capacity_coulomb, window)
             .map(|(profile, start_soc)| (DutyCycle::Steps(profile), start_soc)),
-        DutyFile::Series(series) => Ok((DutyCycle::Series(series.clone()), SERIES_START_SOC)),
+        DutyFile::Series(series) => {
+            if let Some(window) = window {
+                check_series_against_cell(path, series, nominal_capacity_coulomb, window).map_err(|e| vec![e])?;
+            }
+            Ok((DutyCycle::Series(series.clone()), SERIES_START_SOC))
+        }
+    }
+}
+
+/// A measured current or power beyond [`super::profile::MAX_C_RATE`] times the cell's rating
+/// cannot be this cell's duty (a pack's current, a kW column read as W): refused at the first
+/// such row, which the rule names by its number and time.
+fn check_series_against_cell(
+    path: &Path,
+    series: &TimeSeries,
+    nominal_capacity_coulomb: f64,
+    window: VoltageWindow,
+) -> Result<(), InputError> {
+    let amps_per_c_rate = nominal_capacity_coulomb / SECONDS_PER_HOUR;
+    let (column, per_c_rate, unit) = match series.signal {
+        SeriesSignal::CurrentA => ("current_a", amps_per_c_rate, "A"),
+        SeriesSignal::PowerW => ("power_w", amps_per_c_rate * 0.5 * (window.min_v + window.max_v), "W"),
+    };
+    let most = super::profile::MAX_C_RATE;
+    let found = series.value.iter().zip(&series.time_s).enumerate().find(|(_, (v, _))| v.abs() / per_c_rate > most);
+    match found {
+        Some((row, (value, time))) => Err(InputError::new(
+            path,
+            format!(
+            "row {} (time {time} s): {value} {unit} is {:.0} times the cell's rating (1 C = {per_c_rate:.4} {unit}); \
+             at most {most} C is plausible for one cell",
+            row + 1,
+            value.abs() / per_c_rate
+        ),
+        )
+        .with_key(column)),
+        None => Ok(()),
     }
 }
 

@@ -19,7 +19,7 @@ const MAX_REPEAT: i64 = 100_000;
 const MAX_EXPANDED_STEPS: u64 = 1_000_000;
 /// The largest current or power, as a multiple of the cell's rating, a step may ask of one
 /// cell; the same bound as the `charge_c` / `discharge_c` rows of the plausibility table.
-const MAX_C_RATE: f64 = 100.0;
+pub(super) const MAX_C_RATE: f64 = 100.0;
 
 const DRIVE_KEYS: &str = "charge_c, charge_a, discharge_c, discharge_a, charge_w, discharge_w, hold_v or rest = true";
 const TIME_ENDS: &str = "end_time_s, end_time_min or end_time_h";

@@ -225,7 +225,7 @@ pub(super) fn convert_scenario(
                 .duty(profile_path)
                 .map_err(|e| vec![e])
                 .and_then(|duty_file| {
-                    check_duty_file(&duty_file, cell.cell.nominal_capacity_coulomb, Some(window))
+                    check_duty_file(profile_path, &duty_file, cell.cell.nominal_capacity_coulomb, Some(window))
                         .map(|duty| (duty, duty_file))
                 })
                 .map_err(|mut found| problems.append(&mut found))

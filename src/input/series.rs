@@ -6,9 +6,10 @@ use std::path::Path;
 
 use super::document::read_text;
 use super::error::InputError;
+use super::plausible::{judge, plausible_for, Verdict};
 use super::profile::file_stem;
 use super::suggest;
-use crate::cycle::{SeriesSignal, TimeSeries};
+use crate::cycle::{SeriesSignal, TimeSeries, MAX_CYCLE_DURATION_S};
 use crate::material::constants::ZERO_CELSIUS_K;
 
 const TIME: &str = "time_s";
@@ -62,12 +63,25 @@ fn parse_series(path: &Path, text: &str) -> Result<TimeSeries, InputError> {
                 return Err(error(line, TIME, format!("time must increase strictly, found {time} after {previous}")));
             }
         }
+        if time > MAX_CYCLE_DURATION_S {
+            return Err(error(
+                line,
+                TIME,
+                format!(
+                    "a measured cycle may span at most {} days ({MAX_CYCLE_DURATION_S} s), found {time}",
+                    MAX_CYCLE_DURATION_S / 86_400.0
+                ),
+            ));
+        }
         series.time_s.push(time);
         series.value.push(number(columns.value)?);
         if let (Some(column), Some(ambient_k)) = (columns.ambient, series.ambient_k.as_mut()) {
             let celsius = number(column)?;
             if celsius <= -ZERO_CELSIUS_K {
                 return Err(error(line, AMBIENT, format!("must be above absolute zero (−273.15 °C), found {celsius}")));
+            }
+            if let Some(Verdict::Impossible(rule)) = plausible_for(AMBIENT).map(|row| judge(row, celsius)) {
+                return Err(error(line, AMBIENT, rule));
             }
             ambient_k.push(celsius + ZERO_CELSIUS_K);
         }
