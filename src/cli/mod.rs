@@ -292,6 +292,19 @@ impl CliError {
     pub fn exit_code(&self) -> u8 {
         match self {
             CliError::Input(_) => 2,
+            // An output directory that may not be written is the user's path to fix, like any
+            // other bad argument; a full disk or a failing device is a runtime failure.
+            CliError::Report(ReportError::Io { source, .. })
+                if matches!(
+                    source.kind(),
+                    std::io::ErrorKind::PermissionDenied
+                        | std::io::ErrorKind::ReadOnlyFilesystem
+                        | std::io::ErrorKind::NotADirectory
+                        | std::io::ErrorKind::AlreadyExists
+                ) =>
+            {
+                2
+            }
             CliError::Cycle(_) | CliError::Forecast(_) | CliError::Report(_) | CliError::Stdout(_) => 1,
             CliError::Several(errors) => errors.iter().map(CliError::exit_code).max().unwrap_or(1),
         }

@@ -54,6 +54,6 @@ pub enum ReportError {
     Plot(String),
     #[error("could not format JSON: {0}")]
     Json(#[from] serde_json::Error),
-    #[error("{}: could not write: {source}", path.display())]
+    #[error("{}: could not write: {source} (check that the --out directory can be written)", path.display())]
     Io { path: PathBuf, source: std::io::Error },
 }
