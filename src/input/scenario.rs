@@ -265,7 +265,7 @@ pub(super) fn convert_scenario(
 
     let start_soc = file.start_soc_pct.map_or(profile_start_soc, |pct| pct / 100.0);
     let loaded = LoadedScenario {
-        scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc },
+        scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc, pack: None },
         plan,
         uncertainty,
         cell_path,
