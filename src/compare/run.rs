@@ -252,6 +252,7 @@ mod tests {
             warnings: vec![],
             final_state: None,
             interface_rise: None,
+            pack: None,
         }
     }
 

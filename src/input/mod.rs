@@ -17,6 +17,7 @@ mod fit;
 pub mod locate;
 mod mechanisms;
 mod overrides;
+mod pack;
 mod plan;
 mod profile;
 mod scenario;

@@ -15,6 +15,7 @@ use super::document::{check_shape, TomlDocument};
 use super::duty::{check_duty_file, check_duty_shape, read_duty, DutyFile};
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
+use super::pack::{convert_pack, PackSection};
 use super::plan::{convert_plan, EndOfLifeSection, HorizonSection, PlanSections, UsageSection, MONTH_NAMES};
 use super::profile::VoltageWindow;
 use super::template::ScenarioTemplate;
@@ -43,6 +44,7 @@ struct ScenarioFile {
     horizon: Option<HorizonSection>,
     end_of_life: Option<EndOfLifeSection>,
     uncertainty: Option<UncertaintySection>,
+    pack: Option<PackSection>,
 }
 
 /// A scenario with everything it names loaded and checked.
@@ -213,18 +215,39 @@ pub(super) fn convert_scenario(
             .ok(),
         None => None,
     };
+    // A pack's duty cycle is the pack's: C-rates of the pack's rated capacity, voltages of
+    // its series string.
+    let (parallel, series) = file.pack.as_ref().and_then(PackSection::counts).unwrap_or((1, 1));
     let duty = match (&cell, &profile_path) {
         (Some((cell, _)), Some(profile_path)) => {
-            let window = VoltageWindow { min_v: cell.cell.voltage_min_v, max_v: cell.cell.voltage_max_v };
+            let window = VoltageWindow {
+                min_v: cell.cell.voltage_min_v * series as f64,
+                max_v: cell.cell.voltage_max_v * series as f64,
+            };
+            let nominal = cell.cell.nominal_capacity_coulomb * parallel as f64;
             files
                 .duty(profile_path)
                 .map_err(|e| vec![e])
                 .and_then(|duty_file| {
-                    check_duty_file(&duty_file, cell.cell.nominal_capacity_coulomb, Some(window))
+                    check_duty_file(&duty_file, nominal, Some(window))
                         .map(|duty| (duty, duty_file))
                 })
                 .map_err(|mut found| problems.append(&mut found))
                 .ok()
+        }
+        _ => None,
+    };
+    let pack = match (&file.pack, &cell, &duty) {
+        (Some(section), Some((cell, _)), Some(((duty, _), _))) => {
+            let mut pack_checks = Checks::new(document);
+            let layout = convert_pack(&mut pack_checks, section, &cell.cell);
+            if matches!(duty, crate::cycle::DutyCycle::Series(_)) {
+                pack_checks.report("profile", "a pack runs a step profile (.toml); measured series (.csv) are for single cells");
+            }
+            if let Err(mut found) = pack_checks.finish(()) {
+                problems.append(&mut found);
+            }
+            layout
         }
         _ => None,
     };
@@ -265,7 +288,7 @@ pub(super) fn convert_scenario(
 
     let start_soc = file.start_soc_pct.map_or(profile_start_soc, |pct| pct / 100.0);
     let loaded = LoadedScenario {
-        scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc, pack: None },
+        scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc, pack },
         plan,
         uncertainty,
         cell_path,
