@@ -12,6 +12,8 @@ use std::path::PathBuf;
 pub const CSV_NAME: &str = "fade.csv";
 pub const JSON_NAME: &str = "summary.json";
 pub const SVG_NAME: &str = "fade.svg";
+pub const PACK_CSV_NAME: &str = "pack.csv";
+pub const PACK_SVG_NAME: &str = "pack.svg";
 
 pub struct ForecastConfig {
     pub scenario: PathBuf,
@@ -43,13 +45,20 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
     let csv = report::fade_csv(&forecast.points, &forecast.scale)?;
     let json = report::forecast_json(&forecast, &scenario.name, &scenario.cell.name, cycling)?;
     let svg = report::fade_svg(&forecast.points, &forecast.scale, &format!("{}: forecast", scenario.name), cycling)?;
-    let written = report::write_all_atomic(
-        &config.out_dir,
-        &[(CSV_NAME, csv.as_slice()), (JSON_NAME, json.as_slice()), (SVG_NAME, svg.as_bytes())],
-    )?;
+    let mut files = vec![(CSV_NAME, csv), (JSON_NAME, json), (SVG_NAME, svg.into_bytes())];
+    if let Some(pack) = &forecast.pack {
+        files.push((PACK_CSV_NAME, report::pack_csv(&forecast.points, pack)?));
+        let title = format!("{}: cells of the pack", scenario.name);
+        files.push((PACK_SVG_NAME, report::pack_svg(&forecast.points, pack, &title, cycling)?.into_bytes()));
+    }
+    let borrowed: Vec<(&str, &[u8])> = files.iter().map(|(name, bytes)| (*name, bytes.as_slice())).collect();
+    let written = report::write_all_atomic(&config.out_dir, &borrowed)?;
 
     let mut text = scenario_header(&config.scenario, &loaded);
     text.push_str(&report::forecast_text(&forecast, cycling));
+    if let Some(pack) = &forecast.pack {
+        text.push_str(&report::pack_text(pack, cycling));
+    }
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
