@@ -102,6 +102,13 @@ fn identical_cells_share_evenly_and_scale_capacity_and_resistance() {
         forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(1.0), ForecastOptions::default());
     const SOURCE: &str = "derived: p identical cells at one node carry I/p each, so the group holds p \
                           capacities and drops the cell's voltage at p times its current";
+    println!(
+        "identical cells: worst current difference {worst:.1e}; capacity {:.6} Ah vs 4 × {:.6} Ah; resistance {:.4} mΩ vs {:.4} mΩ / 4",
+        pack_forecast.fresh_capacity_ah,
+        balance.capacity_coulomb / 3600.0,
+        pack_r * 1e3,
+        cell_r * 1e3
+    );
     check_cases(&[
         ReferenceCase::new("largest relative current difference between identical cells", SOURCE, Tolerance::Abs(1e-12), worst, 0.0),
         ReferenceCase::new(
@@ -141,6 +148,7 @@ fn the_first_instant_split_follows_the_resistive_divider() {
             .pulse_resistance(&healths[0], &balances[0], 0.5, scenario.ambient_k, group_current / 2.0, dt)
             .expect("pulse");
         let divider = group_current * (r2 + r_cell) / (r1 + r2 + 2.0 * r_cell);
+        println!("group {group_current} A: I₁ = {i1:.9} A, divider {divider:.9} A (cell {:.3} mΩ)", r_cell * 1e3);
         cases.push(ReferenceCase::new(
             format!("current of the 2 mΩ cell, group current {group_current} A, first {dt} s"),
             "derived: two equal sources of equal internal resistance R behind R₁ and R₂ share I as \
@@ -169,6 +177,17 @@ fn the_lower_resistance_cell_ages_first() {
     let pack = pack_of(&f);
     let last = pack.points.last().expect("points");
     let first = &pack.points[1];
+    println!(
+        "shares {:.2} / {:.2} %, peak {:.2} / {:.2} °C, state of health at 3000 cycles {:.3} / {:.3} %, 95 % reached at {:?} / {:?}",
+        first[0].current_share_pct,
+        first[1].current_share_pct,
+        first[0].peak_temperature_c,
+        first[1].peak_temperature_c,
+        last[0].soh_pct,
+        last[1].soh_pct,
+        pack.cell_end_of_life[0].map(|l| l.cycles.round()),
+        pack.cell_end_of_life[1].map(|l| l.cycles.round())
+    );
     assert!(first[0].current_share_pct > 50.0, "low-resistance share {}", first[0].current_share_pct);
     assert!(last[0].soh_pct < last[1].soh_pct, "{} vs {}", last[0].soh_pct, last[1].soh_pct);
     match (pack.cell_end_of_life[0], pack.cell_end_of_life[1]) {
@@ -197,6 +216,7 @@ fn a_series_string_holds_its_weakest_groups_capacity() {
     let weakest = groups.iter().copied().fold(f64::INFINITY, f64::min);
     assert!(weakest < groups[0] - 0.1, "the middle group is the weak one");
     let f = forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(1.0), ForecastOptions::default());
+    println!("group capacities {groups:?} Ah; string {} Ah", f.fresh_capacity_ah);
     check_cases(&[ReferenceCase::new(
         "capacity of a 2p3s string with one small cell in group 2",
         "derived: groups in series carry one current, so top-balanced the string stops when its \
@@ -218,6 +238,8 @@ fn a_coolant_gradient_ages_the_warm_end_faster() {
     };
     let f = forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(1500.0), ForecastOptions::default());
     let last = pack_of(&f).points.last().expect("points");
+    let soh: Vec<String> = last.iter().map(|c| format!("{:.3} % ({:.1} °C)", c.soh_pct, c.peak_temperature_c)).collect();
+    println!("state of health along the coolant at 1500 cycles: {}", soh.join(", "));
     for pair in last.windows(2) {
         assert!(pair[1].soh_pct < pair[0].soh_pct, "{} then {}", pair[0].soh_pct, pair[1].soh_pct);
         assert!(pair[1].peak_temperature_c > pair[0].peak_temperature_c);
@@ -284,6 +306,12 @@ fn the_demo_pack_conserves_lithium_and_jumps_like_every_cycle() {
             ));
         }
     }
+    let worst = cases.iter().filter(|c| c.name.contains("jumping")).map(|c| c.error()).fold(0.0, f64::max);
+    let lithium = cases.iter().filter(|c| c.name.starts_with("lithium")).map(|c| c.error()).fold(0.0, f64::max);
+    println!(
+        "demo pack, 400 cycles: largest jumping error {worst:.4} pp, largest lithium error {lithium:.2e}; {} vs {} cycles simulated",
+        jumping.simulated_cycles, every.simulated_cycles
+    );
     check_cases(&cases);
     assert!(jumping.simulated_cycles * 3 < every.simulated_cycles, "{} vs {}", jumping.simulated_cycles, every.simulated_cycles);
 }
