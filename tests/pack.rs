@@ -10,44 +10,10 @@ use fadecast::cycle::pack::{simulate_pack_cycle, Cooling, PackLayout, PackModel,
 use fadecast::cycle::{
     balance_cell, Balance, CellModel, Drive, DutyCycle, Health, Scenario, SolverSettings, Step, StepEnd, StepProfile,
 };
+use common::pack_scenario;
 use fadecast::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, PackOutcome, StopReason};
 
 const DEMO_PACK: &str = "examples/home-storage-pack.toml";
-
-/// A scenario's cell made into a pack, its duty scaled to the pack: the same C-rates (currents
-/// × parallel) and voltages (× series).
-fn as_pack(scenario: &Scenario, layout: PackLayout) -> Scenario {
-    let (p, s) = (layout.parallel as f64, layout.series as f64);
-    let DutyCycle::Steps(profile) = &scenario.duty else { panic!("a step profile") };
-    let steps = profile
-        .steps
-        .iter()
-        .map(|step| Step {
-            label: step.label.clone(),
-            drive: match step.drive {
-                Drive::Current(i) => Drive::Current(i * p),
-                Drive::Power(w) => Drive::Power(w * p * s),
-                Drive::Voltage(v) => Drive::Voltage(v * s),
-                Drive::Rest => Drive::Rest,
-            },
-            ends: step
-                .ends
-                .iter()
-                .map(|end| match *end {
-                    StepEnd::Voltage(v) => StepEnd::Voltage(v * s),
-                    StepEnd::CurrentBelow(i) => StepEnd::CurrentBelow(i * p),
-                    StepEnd::Charge(q) => StepEnd::Charge(q * p),
-                    other => other,
-                })
-                .collect(),
-        })
-        .collect();
-    Scenario {
-        duty: DutyCycle::Steps(StepProfile { name: profile.name.clone(), steps }),
-        pack: Some(layout),
-        ..scenario.clone()
-    }
-}
 
 fn forecast(scenario: &Scenario, plan: &fadecast::forecast::Plan, horizon: Horizon, options: ForecastOptions) -> Forecast {
     let f = run_forecast(scenario, plan, horizon, &options);
@@ -73,7 +39,7 @@ fn identical_cells_share_evenly_and_scale_capacity_and_resistance() {
     // One pack cycle: every cell's current at every time step equals the first cell's.
     let (healths, balances) = fresh(&layout);
     let model = PackModel::new(&layout);
-    let DutyCycle::Steps(profile) = &as_pack(&scenario, layout.clone()).duty else { unreachable!() };
+    let DutyCycle::Steps(profile) = &pack_scenario(&scenario, layout.clone()).duty else { unreachable!() };
     let run = PackRun { profile, ambient_k: scenario.ambient_k, healths: &healths, balances: &balances };
     let mut states = model.rest_state(&balances, &healths, scenario.start_soc, scenario.ambient_k);
     let mut record = PackRecord::default();
@@ -99,7 +65,7 @@ fn identical_cells_share_evenly_and_scale_capacity_and_resistance() {
         .expect("pulse");
     // Capacity through the forecast's own reporting (fresh point).
     let pack_forecast =
-        forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(1.0), ForecastOptions::default());
+        forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1.0), ForecastOptions::default());
     const SOURCE: &str = "derived: p identical cells at one node carry I/p each, so the group holds p \
                           capacities and drops the cell's voltage at p times its current";
     println!(
@@ -173,7 +139,7 @@ fn the_lower_resistance_cell_ages_first() {
     let (scenario, mut plan) = common::load(TUG, &[]);
     plan.end_of_life.capacity_fraction = 0.95;
     let layout = PackLayout { interconnect_ohm: vec![1e-3, 6e-3], ..PackLayout::uniform(&scenario.cell, 2, 1) };
-    let f = forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(3000.0), ForecastOptions::default());
+    let f = forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(3000.0), ForecastOptions::default());
     let pack = pack_of(&f);
     let last = pack.points.last().expect("points");
     let first = &pack.points[1];
@@ -215,7 +181,7 @@ fn a_series_string_holds_its_weakest_groups_capacity() {
     let groups: Vec<f64> = capacities.chunks(2).map(|g| g.iter().sum()).collect();
     let weakest = groups.iter().copied().fold(f64::INFINITY, f64::min);
     assert!(weakest < groups[0] - 0.1, "the middle group is the weak one");
-    let f = forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(1.0), ForecastOptions::default());
+    let f = forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1.0), ForecastOptions::default());
     println!("group capacities {groups:?} Ah; string {} Ah", f.fresh_capacity_ah);
     check_cases(&[ReferenceCase::new(
         "capacity of a 2p3s string with one small cell in group 2",
@@ -236,7 +202,7 @@ fn a_coolant_gradient_ages_the_warm_end_faster() {
         cooling: Cooling::Coolant { inlet_k: 293.15, rise_k: 12.0 },
         ..PackLayout::uniform(&scenario.cell, 4, 1)
     };
-    let f = forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(1500.0), ForecastOptions::default());
+    let f = forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1500.0), ForecastOptions::default());
     let last = pack_of(&f).points.last().expect("points");
     let soh: Vec<String> = last.iter().map(|c| format!("{:.3} % ({:.1} °C)", c.soh_pct, c.peak_temperature_c)).collect();
     println!("state of health along the coolant at 1500 cycles: {}", soh.join(", "));
@@ -252,7 +218,7 @@ fn a_pack_of_one_cell_forecasts_as_the_cell() {
     let (scenario, plan) = common::load(OVERNIGHT, &[]);
     let alone = forecast(&scenario, &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
     let layout = PackLayout::uniform(&scenario.cell, 1, 1);
-    let packed = forecast(&as_pack(&scenario, layout), &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
+    let packed = forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
     let cases: Vec<ReferenceCase> = alone
         .points
         .iter()
