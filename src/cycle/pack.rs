@@ -29,7 +29,7 @@
 use super::balance::Balance;
 use super::protocol::{Drive, Step, StepEnd, StepProfile};
 use super::record::{CycleRecord, EndReason, StepSummary, TracePoint};
-use super::response::{solve_decreasing, CellModel, CellState, Control, Health, Scratch, StepConditions, StepMaps, Trial};
+use super::response::{CellModel, CellState, Control, Health, Scratch, StepConditions, StepMaps, Trial};
 use super::stepper::*;
 use super::Cell;
 use crate::material::constants::SECONDS_PER_HOUR;
@@ -192,6 +192,9 @@ struct PackSolver<'a> {
     /// Node voltage of each cell at the current iterate, and its slope.
     node: Vec<f64>,
     slope: Vec<f64>,
+    /// Whether `slope` was taken in this trial (slopes are taken once per trial unless the
+    /// split's Newton iteration takes them again).
+    slope_fresh: Vec<bool>,
     /// Start-of-step temperatures, K.
     temperatures: Vec<f64>,
 }
@@ -208,6 +211,7 @@ impl<'a> PackSolver<'a> {
             currents: vec![0.0; n],
             node: vec![0.0; n],
             slope: vec![0.0; n],
+            slope_fresh: vec![false; n],
             temperatures: vec![0.0; n],
         }
     }
@@ -266,12 +270,9 @@ impl<'a> PackSolver<'a> {
             // Linearise each cell: v_i(I) ≈ v_i − r_i (I − I_i), r_i > 0.
             let (mut numerator, mut conductance) = (0.0, 0.0);
             for i in range.clone() {
-                let h = SPLIT_SLOPE_STEP_RELATIVE * self.currents[i].abs().max(1.0);
-                let r = -(self.node_voltage(i, self.currents[i] + h) - self.node[i]) / h;
-                if !(r.is_finite() && r > 0.0) {
-                    return None;
-                }
+                let r = self.local_slope(i)?;
                 self.slope[i] = r;
+                self.slope_fresh[i] = true;
                 numerator += self.currents[i] + self.node[i] / r;
                 conductance += 1.0 / r;
             }
@@ -283,13 +284,34 @@ impl<'a> PackSolver<'a> {
         None
     }
 
+    /// −dv_i/dI + R_i of cell i at its present current (forward difference), > 0.
+    fn local_slope(&self, i: usize) -> Option<f64> {
+        let h = SPLIT_SLOPE_STEP_RELATIVE * self.currents[i].abs().max(1.0);
+        let r = -(self.node_voltage(i, self.currents[i] + h) - self.node[i]) / h;
+        (r.is_finite() && r > 0.0).then_some(r)
+    }
+
     /// Pack voltage at a pack current (all groups split).
     fn pack_voltage(&mut self, current: f64) -> Option<f64> {
-        let mut total = 0.0;
+        self.pack_voltage_and_slope(current).map(|(v, _)| v)
+    }
+
+    /// Pack voltage at a pack current and its slope dV/dI from the cells' latest local slopes
+    /// (each group's node moves by −1/Σ(1/r_i) per ampere).
+    fn pack_voltage_and_slope(&mut self, current: f64) -> Option<(f64, f64)> {
+        let (mut total, mut slope) = (0.0, 0.0);
         for g in 0..self.model.layout.series {
             total += self.split_group(g, current)?;
+            for i in self.model.layout.group(g) {
+                if !self.slope_fresh[i] {
+                    self.slope[i] = self.local_slope(i)?;
+                    self.slope_fresh[i] = true;
+                }
+            }
+            let conductance: f64 = self.slope[self.model.layout.group(g)].iter().map(|r| 1.0 / r).sum();
+            slope -= 1.0 / conductance;
         }
-        Some(total)
+        Some((total, slope))
     }
 
     /// Highest and lowest cell voltage window residuals at the present split: (max over cells
@@ -307,22 +329,32 @@ impl<'a> PackSolver<'a> {
     /// Solves a pack step of length `dt` from `states` for the control.
     fn trial(&mut self, states: &[CellState], control: Control, dt: f64, guess: f64) -> Option<PackTrial> {
         self.maps.clear();
+        self.slope_fresh.fill(false);
         for (i, state) in states.iter().enumerate() {
             let maps = self.model.models[i].step_maps(state, &self.conds[i], dt, &mut self.scratch[i]);
             self.maps.push(maps);
         }
         let current = match control {
             Control::Current(i) => i,
-            Control::Power(target) => {
-                solve_decreasing(|i| self.pack_voltage(i).map_or(f64::NAN, |v| target - i * v), guess)?
-            }
-            Control::Voltage(target) => solve_decreasing(
-                |i| match self.pack_voltage(i) {
-                    Some(v) => {
-                        let (over, under) = self.window_residuals();
-                        (v - target).max(over).min(under)
+            // I·V(I) rises with I and V(I) falls on the branch a pack operates on.
+            Control::Power(target) => solve_with_slope(
+                |i| self.pack_voltage_and_slope(i).map(|(v, dv)| (target - i * v, -(v + i * dv))),
+                guess,
+            )?,
+            Control::Voltage(target) => solve_with_slope(
+                |i| {
+                    let (v, dv) = self.pack_voltage_and_slope(i)?;
+                    let (over, under) = self.window_residuals();
+                    // A cell's own limit moves with its group's share of the pack voltage.
+                    let per_group = dv / self.model.layout.series as f64;
+                    let (mut residual, mut slope) = (v - target, dv);
+                    if over > residual {
+                        (residual, slope) = (over, per_group);
                     }
-                    None => f64::NAN,
+                    if under < residual {
+                        (residual, slope) = (under, per_group);
+                    }
+                    Some((residual, slope))
                 },
                 guess,
             )?,
@@ -355,6 +387,50 @@ impl<'a> PackSolver<'a> {
         heat
     }
 }
+
+/// A pack current meeting a control: Newton's method on a decreasing residual with the slope
+/// the split supplies, kept inside a bracket that grows by one current scale while only one
+/// side is known and is bisected when a Newton step would leave it (as a lone cell's
+/// constant-voltage and constant-power steps are solved, [`super::response`]).
+fn solve_with_slope(mut f: impl FnMut(f64) -> Option<(f64, f64)>, guess: f64) -> Option<f64> {
+    let scale = guess.abs().max(CONTROL_MIN_CURRENT_SCALE_A);
+    let mut x = guess;
+    let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
+    for _ in 0..CONTROL_MAX_ITERATIONS {
+        let (fx, slope) = f(x)?;
+        if !fx.is_finite() {
+            return None;
+        }
+        if fx.abs() < CONTROL_RESIDUAL {
+            return Some(x);
+        }
+        if fx > 0.0 {
+            lo = x;
+        } else {
+            hi = x;
+        }
+        let mut next = if slope < 0.0 { x - fx / slope } else { f64::NAN };
+        if !next.is_finite() || next <= lo || next >= hi {
+            next = match (lo.is_finite(), hi.is_finite()) {
+                (true, true) => 0.5 * (lo + hi),
+                (true, false) => x + scale,
+                (false, true) => x - scale,
+                (false, false) => return None,
+            };
+        }
+        if (next - x).abs() < CONTROL_CURRENT_STEP_RELATIVE * scale {
+            return Some(next);
+        }
+        x = next;
+    }
+    None
+}
+
+/// Solving for a pack current: as a lone cell's controls (`response.rs`), residual in V or W.
+const CONTROL_RESIDUAL: f64 = 1e-10;
+const CONTROL_MAX_ITERATIONS: usize = 60;
+const CONTROL_CURRENT_STEP_RELATIVE: f64 = 1e-12;
+const CONTROL_MIN_CURRENT_SCALE_A: f64 = 1.0;
 
 /// One simulated pack cycle: the pack's own trace (pack current and voltage, hottest cell's
 /// temperature, the state of charge of the first group to empty) and every cell's record.
