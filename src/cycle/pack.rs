@@ -29,7 +29,7 @@
 use super::balance::Balance;
 use super::protocol::{Drive, Step, StepEnd, StepProfile};
 use super::record::{CycleRecord, EndReason, StepSummary, TracePoint};
-use super::response::{CellModel, CellState, Control, Health, Scratch, StepConditions, StepMaps, Trial};
+use super::response::{CellModel, CellState, Control, Evaluation, Health, Scratch, StepConditions, StepMaps, Trial};
 use super::stepper::*;
 use super::Cell;
 use crate::material::constants::SECONDS_PER_HOUR;
@@ -197,6 +197,8 @@ struct PackSolver<'a> {
     slope_fresh: Vec<bool>,
     /// Start-of-step temperatures, K.
     temperatures: Vec<f64>,
+    /// Each cell's last evaluation at its iterate current in this trial.
+    evaluations: Vec<Option<Evaluation>>,
 }
 
 impl<'a> PackSolver<'a> {
@@ -213,6 +215,7 @@ impl<'a> PackSolver<'a> {
             slope: vec![0.0; n],
             slope_fresh: vec![false; n],
             temperatures: vec![0.0; n],
+            evaluations: vec![None; n],
         }
     }
 
@@ -225,15 +228,17 @@ impl<'a> PackSolver<'a> {
         }
     }
 
+    /// Node voltage of cell i carrying `current`, keeping the evaluation to finish the trial.
+    fn evaluate_node(&mut self, i: usize, current: f64) -> f64 {
+        let evaluation = self.model.models[i].evaluate(&self.conds[i], &self.maps[i], current);
+        self.evaluations[i] = Some(evaluation);
+        evaluation.voltage - current * self.model.layout.interconnect_ohm[i]
+    }
+
     /// Node voltage of cell i carrying `current`.
     fn node_voltage(&self, i: usize, current: f64) -> f64 {
         self.model.models[i].terminal_voltage(&self.conds[i], &self.maps[i], current)
             - current * self.model.layout.interconnect_ohm[i]
-    }
-
-    /// Cell terminal voltage of cell i (before its interconnect).
-    fn cell_voltage(&self, i: usize, current: f64) -> f64 {
-        self.model.models[i].terminal_voltage(&self.conds[i], &self.maps[i], current)
     }
 
     /// Splits `group_current` over group `g` (module docs); returns the node voltage.
@@ -243,7 +248,7 @@ impl<'a> PackSolver<'a> {
         if p == 1 {
             let i = range.start;
             self.currents[i] = group_current;
-            let v = self.node_voltage(i, group_current);
+            let v = self.evaluate_node(i, group_current);
             self.node[i] = v;
             return v.is_finite().then_some(v);
         }
@@ -255,7 +260,7 @@ impl<'a> PackSolver<'a> {
         for _ in 0..SPLIT_MAX_ITERATIONS {
             let (mut low, mut high) = (f64::INFINITY, f64::NEG_INFINITY);
             for i in range.clone() {
-                let v = self.node_voltage(i, self.currents[i]);
+                let v = self.evaluate_node(i, self.currents[i]);
                 if !v.is_finite() {
                     return None;
                 }
@@ -319,7 +324,8 @@ impl<'a> PackSolver<'a> {
     fn window_residuals(&self) -> (f64, f64) {
         let (mut over, mut under) = (f64::NEG_INFINITY, f64::INFINITY);
         for (i, cell) in self.model.layout.cells.iter().enumerate() {
-            let v = self.cell_voltage(i, self.currents[i]);
+            // The split left each node voltage at its current.
+            let v = self.node[i] + self.currents[i] * self.model.layout.interconnect_ohm[i];
             over = over.max(v - cell.voltage_max_v);
             under = under.min(v - cell.voltage_min_v);
         }
@@ -330,6 +336,7 @@ impl<'a> PackSolver<'a> {
     fn trial(&mut self, states: &[CellState], control: Control, dt: f64, guess: f64) -> Option<PackTrial> {
         self.maps.clear();
         self.slope_fresh.fill(false);
+        self.evaluations.fill(None);
         for (i, state) in states.iter().enumerate() {
             let maps = self.model.models[i].step_maps(state, &self.conds[i], dt, &mut self.scratch[i]);
             self.maps.push(maps);
@@ -364,7 +371,15 @@ impl<'a> PackSolver<'a> {
         let mut cells = Vec::with_capacity(layout.len());
         for i in 0..layout.len() {
             let exchanged = self.exchanged_heat_w(i);
-            cells.push(self.model.models[i].finish_trial(&self.conds[i], &self.maps[i], self.currents[i], exchanged)?);
+            let model = &self.model.models[i];
+            let trial = match self.evaluations[i] {
+                // The split evaluated this very current last.
+                Some(e) if e.current == self.currents[i] => {
+                    model.finish_evaluated(&self.conds[i], &self.maps[i], &e, exchanged)
+                }
+                _ => model.finish_trial(&self.conds[i], &self.maps[i], self.currents[i], exchanged),
+            };
+            cells.push(trial?);
         }
         Some(PackTrial { dt, current, voltage, cells })
     }

@@ -484,8 +484,27 @@ impl CellModel {
         current: f64,
         exchanged_heat_w: f64,
     ) -> Option<Trial> {
-        let dt = maps.dt;
+        let evaluation = self.evaluate(cond, maps, current);
+        self.finish_evaluated(cond, maps, &evaluation, exchanged_heat_w)
+    }
+
+    /// The terminal voltage and electrode states at the step's end for a current, kept so a
+    /// trial can be finished from it without evaluating the same current again.
+    pub(super) fn evaluate(&self, cond: &StepConditions, maps: &StepMaps, current: f64) -> Evaluation {
         let (voltage, negative, pos_surface, pos_potential) = self.voltage(cond, &maps.maps, current, maps.strip_limit);
+        Evaluation { current, voltage, negative, pos_surface, pos_potential }
+    }
+
+    /// [`CellModel::finish_trial`] from an evaluation of the same step.
+    pub(super) fn finish_evaluated(
+        &self,
+        cond: &StepConditions,
+        maps: &StepMaps,
+        evaluation: &Evaluation,
+        exchanged_heat_w: f64,
+    ) -> Option<Trial> {
+        let dt = maps.dt;
+        let Evaluation { current, voltage, negative, pos_surface, pos_potential } = *evaluation;
         if !voltage.is_finite() {
             return None;
         }
@@ -589,6 +608,16 @@ impl CellModel {
             step,
         }
     }
+}
+
+/// A current's terminal voltage and electrode states at a step's end.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Evaluation {
+    pub(super) current: f64,
+    pub(super) voltage: f64,
+    negative: Split,
+    pos_surface: f64,
+    pos_potential: f64,
 }
 
 /// The negative's current split at a step's end (module docs).
