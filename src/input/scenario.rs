@@ -217,9 +217,12 @@ pub(super) fn convert_scenario(
     };
     // A pack's duty cycle is the pack's: C-rates of the pack's rated capacity, voltages of
     // its series string.
-    let (parallel, series) = file.pack.as_ref().and_then(PackSection::counts).unwrap_or((1, 1));
+    let pack_counts = file.pack.as_ref().map(PackSection::counts);
+    let (parallel, series) = pack_counts.flatten().unwrap_or((1, 1));
+    // Cell counts out of range are the pack's problem; the duty cannot be checked against it.
+    let counts_known = !matches!(pack_counts, Some(None));
     let duty = match (&cell, &profile_path) {
-        (Some((cell, _)), Some(profile_path)) => {
+        (Some((cell, _)), Some(profile_path)) if counts_known => {
             let window = VoltageWindow {
                 min_v: cell.cell.voltage_min_v * series as f64,
                 max_v: cell.cell.voltage_max_v * series as f64,
@@ -237,11 +240,11 @@ pub(super) fn convert_scenario(
         }
         _ => None,
     };
-    let pack = match (&file.pack, &cell, &duty) {
-        (Some(section), Some((cell, _)), Some(((duty, _), _))) => {
+    let pack = match (&file.pack, &cell) {
+        (Some(section), Some((cell, _))) => {
             let mut pack_checks = Checks::new(document);
             let layout = convert_pack(&mut pack_checks, section, &cell.cell);
-            if matches!(duty, crate::cycle::DutyCycle::Series(_)) {
+            if matches!(&duty, Some(((crate::cycle::DutyCycle::Series(_), _), _))) {
                 pack_checks.report("profile", "a pack runs a step profile (.toml); measured series (.csv) are for single cells");
             }
             if let Err(mut found) = pack_checks.finish(()) {
