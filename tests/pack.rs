@@ -1,6 +1,6 @@
 //! Packs: the parallel split against closed forms, identical cells, the weakest series group,
 //! position-dependent aging, lithium conservation per cell, and cycle jumping against every
-//! cycle on the demo module (record: docs/VALIDATION.md §14).
+//! cycle on the demo module (record: docs/VALIDATION.md §17).
 
 mod common;
 
