@@ -40,7 +40,8 @@ fn bad_pack_input_exits_2_naming_the_key() {
     let dir = tempfile::tempdir().unwrap();
     let text = std::fs::read_to_string(common::repo(DEMO_PACK)).unwrap();
     let text = text.replace("cell = \"cells/", &format!("cell = \"{}/", common::repo("examples/cells").display()));
-    let text = text.replace("profile = \"../profiles/", &format!("profile = \"{}/", common::repo("profiles").display()));
+    let text =
+        text.replace("profile = \"../profiles/", &format!("profile = \"{}/", common::repo("profiles").display()));
     for (from, to, key) in [
         ("interconnect_mohm = [0.2, 0.4, 0.6, 0.8]", "interconnect_mohm = [0.2, 0.4, 0.6]", "pack.interconnect_mohm"),
         ("interconnect_mohm = [0.2, 0.4, 0.6, 0.8]", "interconnect_mohm = -1.0", "pack.interconnect_mohm"),

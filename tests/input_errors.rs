@@ -1061,7 +1061,8 @@ fn numbers(draws: &[(&str, f64)]) -> Vec<Override> {
 fn uncertainty_section_converts_to_the_ensemble_spec() {
     let (_files, path) = uncertainty_files(&scenario_with_uncertainty());
     let loaded = load_scenario(&path, &[]).expect("valid uncertainty section");
-    let parameter = |path: &str, distribution| UncertainParameter { path: path.to_string(), distribution };
+    let parameter =
+        |path: &str, distribution| UncertainParameter { path: path.to_string(), distribution, per_cell: false };
     let expected = UncertaintySpec {
         parameters: vec![
             parameter(

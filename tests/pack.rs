@@ -4,18 +4,23 @@
 
 mod common;
 
+use common::pack_scenario;
 use common::{check_cases, ReferenceCase, Tolerance, OVERNIGHT, TUG};
 use fadecast::aging::{health_of, AgingState};
 use fadecast::cycle::pack::{simulate_pack_cycle, Cooling, PackLayout, PackModel, PackRecord, PackRun};
 use fadecast::cycle::{
     balance_cell, Balance, CellModel, Drive, DutyCycle, Health, Scenario, SolverSettings, Step, StepEnd, StepProfile,
 };
-use common::pack_scenario;
 use fadecast::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, PackOutcome, StopReason};
 
 const DEMO_PACK: &str = "examples/home-storage-pack.toml";
 
-fn forecast(scenario: &Scenario, plan: &fadecast::forecast::Plan, horizon: Horizon, options: ForecastOptions) -> Forecast {
+fn forecast(
+    scenario: &Scenario,
+    plan: &fadecast::forecast::Plan,
+    horizon: Horizon,
+    options: ForecastOptions,
+) -> Forecast {
     let f = run_forecast(scenario, plan, horizon, &options);
     assert_eq!(f.stop, StopReason::Horizon, "{}", scenario.name);
     f
@@ -60,9 +65,7 @@ fn identical_cells_share_evenly_and_scale_capacity_and_resistance() {
     let t = scenario.cell.reference_temperature_k;
     let cell_current = scenario.cell.nominal_capacity_coulomb / 3600.0;
     let cell_r = cell_model.pulse_resistance(&health, &balance, 0.5, t, cell_current, 10.0).expect("pulse");
-    let pack_r = model
-        .pulse_resistance(&healths, &balances, 0.5, t, p as f64 * cell_current, 10.0)
-        .expect("pulse");
+    let pack_r = model.pulse_resistance(&healths, &balances, 0.5, t, p as f64 * cell_current, 10.0).expect("pulse");
     // Capacity through the forecast's own reporting (fresh point).
     let pack_forecast =
         forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1.0), ForecastOptions::default());
@@ -76,7 +79,13 @@ fn identical_cells_share_evenly_and_scale_capacity_and_resistance() {
         cell_r * 1e3
     );
     check_cases(&[
-        ReferenceCase::new("largest relative current difference between identical cells", SOURCE, Tolerance::Abs(1e-12), worst, 0.0),
+        ReferenceCase::new(
+            "largest relative current difference between identical cells",
+            SOURCE,
+            Tolerance::Abs(1e-12),
+            worst,
+            0.0,
+        ),
         ReferenceCase::new(
             "pack capacity of 4 identical cells",
             SOURCE,
@@ -84,7 +93,13 @@ fn identical_cells_share_evenly_and_scale_capacity_and_resistance() {
             pack_forecast.fresh_capacity_ah,
             p as f64 * balance.capacity_coulomb / 3600.0,
         ),
-        ReferenceCase::new("pack resistance of 4 identical cells", SOURCE, Tolerance::Rel(1e-12), pack_r, cell_r / p as f64),
+        ReferenceCase::new(
+            "pack resistance of 4 identical cells",
+            SOURCE,
+            Tolerance::Rel(1e-12),
+            pack_r,
+            cell_r / p as f64,
+        ),
     ]);
 }
 
@@ -100,7 +115,11 @@ fn the_first_instant_split_follows_the_resistive_divider() {
         let dt = 1e-3;
         let profile = StepProfile {
             name: "first instant".into(),
-            steps: vec![Step { label: "pulse".into(), drive: Drive::Current(group_current), ends: vec![StepEnd::Time(dt)] }],
+            steps: vec![Step {
+                label: "pulse".into(),
+                drive: Drive::Current(group_current),
+                ends: vec![StepEnd::Time(dt)],
+            }],
         };
         let run = PackRun { profile: &profile, ambient_k: scenario.ambient_k, healths: &healths, balances: &balances };
         let mut states = model.rest_state(&balances, &healths, 0.5, scenario.ambient_k);
@@ -176,7 +195,10 @@ fn a_series_string_holds_its_weakest_groups_capacity() {
     let capacities: Vec<f64> = layout
         .cells
         .iter()
-        .map(|c| balance_cell(c, &health_of(c, &plan.aging, &AgingState::fresh(&plan.aging))).unwrap().capacity_coulomb / 3600.0)
+        .map(|c| {
+            balance_cell(c, &health_of(c, &plan.aging, &AgingState::fresh(&plan.aging))).unwrap().capacity_coulomb
+                / 3600.0
+        })
         .collect();
     let groups: Vec<f64> = capacities.chunks(2).map(|g| g.iter().sum()).collect();
     let weakest = groups.iter().copied().fold(f64::INFINITY, f64::min);
@@ -204,7 +226,8 @@ fn a_coolant_gradient_ages_the_warm_end_faster() {
     };
     let f = forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1500.0), ForecastOptions::default());
     let last = pack_of(&f).points.last().expect("points");
-    let soh: Vec<String> = last.iter().map(|c| format!("{:.3} % ({:.1} °C)", c.soh_pct, c.peak_temperature_c)).collect();
+    let soh: Vec<String> =
+        last.iter().map(|c| format!("{:.3} % ({:.1} °C)", c.soh_pct, c.peak_temperature_c)).collect();
     println!("state of health along the coolant at 1500 cycles: {}", soh.join(", "));
     for pair in last.windows(2) {
         assert!(pair[1].soh_pct < pair[0].soh_pct, "{} then {}", pair[0].soh_pct, pair[1].soh_pct);
@@ -218,7 +241,8 @@ fn a_pack_of_one_cell_forecasts_as_the_cell() {
     let (scenario, plan) = common::load(OVERNIGHT, &[]);
     let alone = forecast(&scenario, &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
     let layout = PackLayout::uniform(&scenario.cell, 1, 1);
-    let packed = forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
+    let packed =
+        forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
     let cases: Vec<ReferenceCase> = alone
         .points
         .iter()
@@ -279,5 +303,10 @@ fn the_demo_pack_conserves_lithium_and_jumps_like_every_cycle() {
         jumping.simulated_cycles, every.simulated_cycles
     );
     check_cases(&cases);
-    assert!(jumping.simulated_cycles * 3 < every.simulated_cycles, "{} vs {}", jumping.simulated_cycles, every.simulated_cycles);
+    assert!(
+        jumping.simulated_cycles * 3 < every.simulated_cycles,
+        "{} vs {}",
+        jumping.simulated_cycles,
+        every.simulated_cycles
+    );
 }

@@ -42,8 +42,10 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
         .iter()
         .map(|source| input::ScenarioTemplate::load(&source.scenario_path, &source.overrides))
         .collect::<Result<Vec<_>, _>>()?;
-    let pack_source =
-        templates.iter().zip(&loaded.sources).find_map(|(t, source)| t.loaded().scenario.pack.is_some().then_some(source));
+    let pack_source = templates
+        .iter()
+        .zip(&loaded.sources)
+        .find_map(|(t, source)| t.loaded().scenario.pack.is_some().then_some(source));
     if let Some(source) = pack_source {
         return Err(input::InputError::new(
             &source.scenario_path,

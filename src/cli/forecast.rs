@@ -22,6 +22,8 @@ pub struct ForecastConfig {
     /// From `--cycles` / `--years`; None means the scenario's own horizon.
     pub horizon: Option<Horizon>,
     pub every_cycle: bool,
+    /// Seed of a pack's cells drawn apart.
+    pub seed: u64,
 }
 
 pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError> {
@@ -37,9 +39,10 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
         )
         .into());
     }
-    let scenario = &loaded.scenario;
+    let (drawn_scenario, drawn_plan) = draw_cells(config, &loaded)?;
+    let scenario = &drawn_scenario;
     let options = ForecastOptions { every_cycle: config.every_cycle, ..ForecastOptions::default() };
-    let forecast = run_forecast(scenario, &loaded.plan, horizon, &options);
+    let forecast = run_forecast(scenario, &drawn_plan, horizon, &options);
 
     // Render everything before touching the disk; a failed run still keeps the rows it computed.
     let csv = report::fade_csv(&forecast.points, &forecast.scale)?;
@@ -75,4 +78,34 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
         }
         _ => Ok(()),
     }
+}
+
+/// The scenario as forecast: a pack whose `[uncertainty]` marks parameters per cell has each
+/// cell drawn apart (sample 0 of `--seed`, cell c from the stream of (seed, 0, c)); every
+/// other input keeps the files' (and `--set`) values.
+fn draw_cells(
+    config: &ForecastConfig,
+    loaded: &input::LoadedScenario,
+) -> Result<(crate::cycle::Scenario, crate::forecast::Plan), CliError> {
+    let cells = loaded.scenario.pack.as_ref().map_or(0, |pack| pack.len());
+    if cells == 0 || !loaded.uncertainty.has_per_cell() {
+        return Ok((loaded.scenario.clone(), loaded.plan.clone()));
+    }
+    let spec = crate::ensemble::UncertaintySpec {
+        parameters: loaded.uncertainty.parameters.iter().filter(|p| p.per_cell).cloned().collect(),
+        groups: Vec::new(),
+        sampling: crate::ensemble::Sampling::MonteCarlo,
+    };
+    let sampler = crate::ensemble::Sampler::new(&spec, config.seed, 1)
+        .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?
+        .with_cells(cells);
+    let template = input::ScenarioTemplate::load(&config.scenario, &config.overrides)?;
+    let paths: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
+    let paths = input::number_paths(&paths)?;
+    // Sample 0's own values of the per-cell parameters are not used: only the cells' are.
+    let mut values = sampler.draw_for_build(0);
+    values[..paths.len()].fill(f64::NAN);
+    let mut nominal = spec.clone();
+    nominal.parameters.iter_mut().for_each(|p| p.per_cell = true);
+    Ok(template.build_drawn(&nominal, &paths, &values)?)
 }

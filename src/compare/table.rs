@@ -143,7 +143,7 @@ where
                     (0..config.samples)
                         .into_par_iter()
                         .map(|i| {
-                            let (scenario, plan) = build(&sampler.draw(i)).ok()?;
+                            let (scenario, plan) = build(&sampler.draw_for_build(i)).ok()?;
                             let (scenario, plan) = condition_scenario(scenario, plan, condition);
                             Some(run_forecast(&scenario, &plan, config.horizon, &config.options))
                         })

@@ -68,6 +68,9 @@ pub struct PackLayout {
     pub cooling: Cooling,
     /// Heat conductance between neighbouring cells of a group, W/K (0: none).
     pub neighbour_conductance_w_k: f64,
+    /// Per position, the values drawn for that cell alone (input path, value in the file's
+    /// unit), for reporting; empty when the cells are not drawn apart.
+    pub drawn: Vec<Vec<(String, f64)>>,
 }
 
 impl PackLayout {
@@ -81,6 +84,7 @@ impl PackLayout {
             interconnect_ohm: vec![0.0; n],
             cooling: Cooling::AmbientOffsets(vec![0.0; n]),
             neighbour_conductance_w_k: 0.0,
+            drawn: Vec::new(),
         }
     }
 
@@ -529,9 +533,7 @@ pub fn simulate_pack_periodic(
     loop {
         let start = states.clone();
         simulate_pack_cycle(model, run, &mut states, settings, &mut record)?;
-        residual = (0..states.len())
-            .map(|i| state_change(&model.models[i], &start[i], &states[i]))
-            .fold(0.0, f64::max);
+        residual = (0..states.len()).map(|i| state_change(&model.models[i], &start[i], &states[i])).fold(0.0, f64::max);
         if residual <= settings.periodic_tolerance || warmups >= settings.max_warmup_cycles {
             break;
         }
@@ -648,9 +650,7 @@ impl PackStepper<'_> {
                     }
                     direction * (self.pack_soc(trial, direction) - s) / SOC_END_TOLERANCE
                 }
-                StepEnd::Charge(q) => {
-                    (q - progress.charge_passed_coulomb.abs()) / (CHARGE_END_TOLERANCE_RELATIVE * q)
-                }
+                StepEnd::Charge(q) => (q - progress.charge_passed_coulomb.abs()) / (CHARGE_END_TOLERANCE_RELATIVE * q),
             };
             out.push((reason_of(end), margin));
         }

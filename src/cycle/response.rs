@@ -464,7 +464,13 @@ impl CellModel {
 
     /// What a trial of length `dt` from `state` maps a current to (the particles' responses and
     /// the stripping limit), for evaluating several currents against the same step.
-    pub(super) fn step_maps(&self, state: &CellState, cond: &StepConditions, dt: f64, scratch: &mut Scratch) -> StepMaps {
+    pub(super) fn step_maps(
+        &self,
+        state: &CellState,
+        cond: &StepConditions,
+        dt: f64,
+        scratch: &mut Scratch,
+    ) -> StepMaps {
         // Stripping can return at most the reversible lithium on the surface within the step.
         let strip_limit = if dt > 0.0 { state.plated_coulomb / dt } else { 0.0 };
         StepMaps { maps: self.responses(state, cond, dt, scratch), strip_limit, dt }

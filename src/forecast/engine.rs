@@ -18,11 +18,11 @@ use crate::aging::{
     COMPONENT_COUNT, STATE_LEN,
 };
 use crate::cycle::cell::LIMIT_SLACK;
+use crate::cycle::Cell;
 use crate::cycle::{
     balance_cell, simulate_cycle, simulate_periodic_with, Balance, CellModel, CellState, CycleRecord, CycleRun, Health,
     Scenario, SolverSettings,
 };
-use crate::cycle::Cell;
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::{DVector, Dopri5, OutputType, System};
@@ -256,18 +256,18 @@ impl<'a> Forecaster<'a> {
 /// Ambient temperature on a day: monthly values are interpolated linearly between month
 /// midpoints (periodic over the year), so the rates stay continuous for the integrator.
 pub(super) fn ambient_on_day(plan: &Plan, day: f64) -> f64 {
-        match &plan.usage.ambient_k {
-            Ambient::Constant(t) => *t,
-            Ambient::Monthly(months) => {
-                let month_length = DAYS_PER_YEAR / 12.0;
-                let position = (plan.usage.start_month as f64 - 1.0) + day / month_length - 0.5;
-                let wrapped = position.rem_euclid(12.0);
-                let lower = wrapped.floor() as usize % 12;
-                let w = wrapped - wrapped.floor();
-                months[lower] * (1.0 - w) + months[(lower + 1) % 12] * w
-            }
+    match &plan.usage.ambient_k {
+        Ambient::Constant(t) => *t,
+        Ambient::Monthly(months) => {
+            let month_length = DAYS_PER_YEAR / 12.0;
+            let position = (plan.usage.start_month as f64 - 1.0) + day / month_length - 0.5;
+            let wrapped = position.rem_euclid(12.0);
+            let lower = wrapped.floor() as usize % 12;
+            let w = wrapped - wrapped.floor();
+            months[lower] * (1.0 - w) + months[(lower + 1) % 12] * w
         }
     }
+}
 
 /// The integrator's view of the forecaster. It integrates in s = √(N + N₀) − √N₀ rather than
 /// the cycle count N itself: film growth that slows as √N is close to linear in s, so the
@@ -581,7 +581,12 @@ fn integrate_every_cycle(
 }
 
 /// First crossing of each threshold, interpolated linearly between reported points.
-pub(super) fn end_of_life(points: &[FadePoint], plan: &Plan, cycling: bool, cycles_per_day: f64) -> Vec<EndOfLifePoint> {
+pub(super) fn end_of_life(
+    points: &[FadePoint],
+    plan: &Plan,
+    cycling: bool,
+    cycles_per_day: f64,
+) -> Vec<EndOfLifePoint> {
     let eol = plan.end_of_life;
     let crossing = |value: &dyn Fn(&FadePoint) -> f64, level: f64, falling: bool| -> Option<LifeAt> {
         points.windows(2).find_map(|w| {
@@ -619,7 +624,12 @@ fn warnings(forecaster: &Forecaster, forecast: &Forecast) -> Vec<ForecastWarning
 }
 
 /// The warnings of a forecast of `cell` (a pack's nominal cell) from its cycles' snapshots.
-pub(super) fn warnings_from(cell: &Cell, log: &[CycleSnapshot], plan: &Plan, forecast: &Forecast) -> Vec<ForecastWarning> {
+pub(super) fn warnings_from(
+    cell: &Cell,
+    log: &[CycleSnapshot],
+    plan: &Plan,
+    forecast: &Forecast,
+) -> Vec<ForecastWarning> {
     let mut out = Vec::new();
     let lowest_potential_v = log.iter().map(|s| s.min_neg_potential_v).fold(f64::INFINITY, f64::min);
     if lowest_potential_v < 0.0 {
@@ -674,11 +684,7 @@ pub(super) fn warnings_from(cell: &Cell, log: &[CycleSnapshot], plan: &Plan, for
 /// The warning for a forecast that reaches past its calibration range on any axis the range
 /// gives (cycles, days, equivalent full cycles) or runs at an ambient outside the fitted
 /// temperatures; None when it stays inside.
-fn beyond_calibration(
-    plan: &Plan,
-    range: &CalibrationRange,
-    last: Option<&FadePoint>,
-) -> Option<ForecastWarning> {
+fn beyond_calibration(plan: &Plan, range: &CalibrationRange, last: Option<&FadePoint>) -> Option<ForecastWarning> {
     let (cycles, days, efc) = last.map_or((0.0, 0.0, 0.0), |p| (p.cycle, p.day, p.efc));
     let past = |limit: Option<f64>, reached: f64| limit.is_some_and(|limit| reached > limit * (1.0 + 1e-9));
     let temperature_outside_k = range.temperature_k.and_then(|(low, high)| {

@@ -9,9 +9,9 @@ pub mod result;
 pub use engine::{report_grid, run_forecast};
 pub use plan::{Ambient, EndOfLife, Horizon, Plan, Usage};
 pub use result::{
-    equivalent_full_cycles, EndOfLifePoint, FadePoint, Forecast, ForecastFailure, ForecastWarning, LifeAt, PackCellPoint, PackOutcome,
-    PackPosition, ReportScale,
-    ReportedValue, StopReason, Threshold, WarningKind, WarningSet,
+    equivalent_full_cycles, EndOfLifePoint, FadePoint, Forecast, ForecastFailure, ForecastWarning, LifeAt,
+    PackCellPoint, PackOutcome, PackPosition, ReportScale, ReportedValue, StopReason, Threshold, WarningKind,
+    WarningSet,
 };
 
 /// Options of one forecast run.

@@ -185,7 +185,11 @@ impl PackForecaster<'_> {
 
     fn snapshot_at(&self, x: f64) -> Option<PackSnapshot> {
         let log = self.log.borrow();
-        log.iter().filter(|s| s.pack.x <= x + 1e-9).max_by(|a, b| a.pack.x.total_cmp(&b.pack.x)).or_else(|| log.first()).cloned()
+        log.iter()
+            .filter(|s| s.pack.x <= x + 1e-9)
+            .max_by(|a, b| a.pack.x.total_cmp(&b.pack.x))
+            .or_else(|| log.first())
+            .cloned()
     }
 
     /// Capacity, pack resistance and the lithium-only capacity of the pack at `states`, with
@@ -461,13 +465,19 @@ pub fn run_pack_forecast(
         points: cell_points,
         cell_end_of_life,
         final_states,
-        drawn: Vec::new(),
+        drawn: layout.drawn.clone(),
     }));
     forecast
 }
 
 /// First fall of `values` (one per point) to `level`, interpolated between reported points.
-fn crossing_below(points: &[FadePoint], values: &[f64], level: f64, cycling: bool, cycles_per_day: f64) -> Option<LifeAt> {
+fn crossing_below(
+    points: &[FadePoint],
+    values: &[f64],
+    level: f64,
+    cycling: bool,
+    cycles_per_day: f64,
+) -> Option<LifeAt> {
     (1..values.len().min(points.len())).find_map(|k| {
         let (a, b) = (values[k - 1], values[k]);
         (a > level && b <= level).then(|| {

@@ -136,5 +136,6 @@ pub(super) fn convert_pack(checks: &mut Checks<'_>, section: &PackSection, cell:
         interconnect_ohm: interconnect.iter().map(|m| m * 1e-3).collect(),
         cooling,
         neighbour_conductance_w_k: neighbour,
+        drawn: Vec::new(),
     })
 }

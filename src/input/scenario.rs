@@ -231,10 +231,7 @@ pub(super) fn convert_scenario(
             files
                 .duty(profile_path)
                 .map_err(|e| vec![e])
-                .and_then(|duty_file| {
-                    check_duty_file(&duty_file, nominal, Some(window))
-                        .map(|duty| (duty, duty_file))
-                })
+                .and_then(|duty_file| check_duty_file(&duty_file, nominal, Some(window)).map(|duty| (duty, duty_file)))
                 .map_err(|mut found| problems.append(&mut found))
                 .ok()
         }
@@ -245,7 +242,10 @@ pub(super) fn convert_scenario(
             let mut pack_checks = Checks::new(document);
             let layout = convert_pack(&mut pack_checks, section, &cell.cell);
             if matches!(&duty, Some(((crate::cycle::DutyCycle::Series(_), _), _))) {
-                pack_checks.report("profile", "a pack runs a step profile (.toml); measured series (.csv) are for single cells");
+                pack_checks.report(
+                    "profile",
+                    "a pack runs a step profile (.toml); measured series (.csv) are for single cells",
+                );
             }
             if let Err(mut found) = pack_checks.finish(()) {
                 problems.append(&mut found);
@@ -254,6 +254,16 @@ pub(super) fn convert_scenario(
         }
         _ => None,
     };
+    if file.pack.is_none() {
+        if let Some(index) = uncertainty.parameters.iter().position(|p| p.per_cell) {
+            problems.push(
+                document.problem(
+                    &format!("uncertainty.parameter.{index}.per_cell"),
+                    "draws per cell need a [pack] section",
+                ),
+            );
+        }
+    }
     if !problems.is_empty() {
         return Err(problems);
     }

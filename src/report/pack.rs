@@ -82,8 +82,8 @@ pub fn pack_svg(points: &[FadePoint], pack: &PackOutcome, title: &str, cycling: 
     let n = pack.positions.len();
     let mut svg = String::new();
     {
-        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, TITLE_HEIGHT_PX + 2 * PANEL_HEIGHT_PX))
-            .into_drawing_area();
+        let root =
+            SVGBackend::with_string(&mut svg, (WIDTH_PX, TITLE_HEIGHT_PX + 2 * PANEL_HEIGHT_PX)).into_drawing_area();
         root.fill(&WHITE).map_err(plot_error)?;
         let body = root.titled(title, ("sans-serif", 20)).map_err(plot_error)?;
         let areas = body.split_evenly((2, 1));
@@ -180,13 +180,9 @@ pub fn pack_text(pack: &PackOutcome, cycling: bool) -> String {
             cell.current_share_pct,
             cell.peak_temperature_c
         );
-        let group_mean_ic: f64 = pack
-            .positions
-            .iter()
-            .filter(|p| p.group == position.group)
-            .map(|p| p.interconnect_ohm)
-            .sum::<f64>()
-            / pack.parallel as f64;
+        let group_mean_ic: f64 =
+            pack.positions.iter().filter(|p| p.group == position.group).map(|p| p.interconnect_ohm).sum::<f64>()
+                / pack.parallel as f64;
         let mean_ambient: f64 = pack.positions.iter().map(|p| p.cycle_ambient_k).sum::<f64>() / n as f64;
         let _ = writeln!(
             out,
@@ -200,13 +196,15 @@ pub fn pack_text(pack: &PackOutcome, cycling: bool) -> String {
             let values: Vec<String> = drawn.iter().map(|(path, v)| format!("{path} = {v:.4e}")).collect();
             let _ = writeln!(out, "    drawn for it                  {}", values.join(", "));
         }
-        let _ = writeln!(
-            out,
-            "    its end of life (capacity)    {}",
-            life_text(pack.cell_end_of_life[weakest], cycling)
-        );
+        let _ =
+            writeln!(out, "    its end of life (capacity)    {}", life_text(pack.cell_end_of_life[weakest], cycling));
     }
-    let first = pack.cell_end_of_life.iter().enumerate().filter_map(|(i, l)| l.map(|l| (i, l))).min_by(|a, b| a.1.years.total_cmp(&b.1.years));
+    let first = pack
+        .cell_end_of_life
+        .iter()
+        .enumerate()
+        .filter_map(|(i, l)| l.map(|l| (i, l)))
+        .min_by(|a, b| a.1.years.total_cmp(&b.1.years));
     if let Some((i, life)) = first {
         let _ = writeln!(out, "  first cell to end its life      cell {} at {}", i + 1, life_text(Some(life), cycling));
     }
