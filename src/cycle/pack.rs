@@ -938,6 +938,6 @@ mod tests {
     }
 
     fn test_cell() -> Cell {
-        crate::input::load_cell(std::path::Path::new("examples/cells/van-pouch-5ah.toml")).expect("demo cell").cell
+        crate::input::load_cell(std::path::Path::new("examples/cells/van-pouch-5ah.toml"), &[]).expect("demo cell").cell
     }
 }

@@ -641,6 +641,33 @@ mod tests {
     use super::*;
     use statrs::distribution::Continuous;
 
+    #[test]
+    fn cells_draw_from_their_own_streams() {
+        let mut spec = UncertaintySpec {
+            parameters: vec![
+                parameter("a", Distribution::Normal { mean: 0.0, sd: 1.0 }),
+                parameter("b", Distribution::Uniform { low: 1.0, high: 2.0 }),
+            ],
+            ..UncertaintySpec::default()
+        };
+        spec.parameters[1].per_cell = true;
+        let four = Sampler::new(&spec, 9, 10).unwrap().with_cells(4);
+        let eight = Sampler::new(&spec, 9, 10).unwrap().with_cells(8);
+        let plain = Sampler::new(&spec, 9, 10).unwrap();
+        for i in 0..10 {
+            let a = four.draw_for_build(i);
+            let b = eight.draw_for_build(i);
+            // The sample's own values, then one value per cell: a cell's draw does not depend on
+            // how many cells follow it.
+            assert_eq!(a.len(), 2 + 4);
+            assert_eq!(a[..], b[..6]);
+            assert_eq!(a[..2], plain.draw(i)[..]);
+            assert!(a[2..].iter().all(|v| (1.0..=2.0).contains(v)));
+            assert!(a[2] != a[3] && a[3] != a[4]);
+            assert_ne!(four.draw_for_build((i + 1) % 10)[2..], a[2..]);
+        }
+    }
+
     fn parameter(path: &str, distribution: Distribution) -> UncertainParameter {
         UncertainParameter { path: path.to_string(), distribution, per_cell: false }
     }
