@@ -42,6 +42,7 @@ fn end_of_life_quantiles_match_the_forecast_at_the_input_quantiles() {
         parameters: vec![UncertainParameter {
             path: PATH.into(),
             distribution: Distribution::LogNormal { median: MEDIAN, sigma_ln: SIGMA_LN },
+            per_cell: false,
         }],
         groups: Vec::new(),
         sampling: Sampling::MonteCarlo,

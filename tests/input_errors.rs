@@ -1061,7 +1061,8 @@ fn numbers(draws: &[(&str, f64)]) -> Vec<Override> {
 fn uncertainty_section_converts_to_the_ensemble_spec() {
     let (_files, path) = uncertainty_files(&scenario_with_uncertainty());
     let loaded = load_scenario(&path, &[]).expect("valid uncertainty section");
-    let parameter = |path: &str, distribution| UncertainParameter { path: path.to_string(), distribution };
+    let parameter =
+        |path: &str, distribution| UncertainParameter { path: path.to_string(), distribution, per_cell: false };
     let expected = UncertaintySpec {
         parameters: vec![
             parameter(
@@ -1469,8 +1470,12 @@ fn demo_scenarios_load() {
     assert_eq!(spread.sampling, Sampling::LatinHypercube);
     assert_eq!(spread.groups.len(), 1);
     assert!(overnight.uncertainty.parameters.is_empty());
+    // The pack demo spreads its cells only (every parameter drawn per cell).
+    let pack = find("home-storage-pack.toml");
+    assert!(pack.scenario.pack.is_some());
+    assert!(!pack.uncertainty.parameters.is_empty() && pack.uncertainty.parameters.iter().all(|p| p.per_cell));
     for (name, loaded) in &loaded_names {
-        if name.as_deref() != Some("van-fleet-bands.toml") {
+        if name.as_deref() != Some("van-fleet-bands.toml") && name.as_deref() != Some("home-storage-pack.toml") {
             assert_eq!(loaded.uncertainty, UncertaintySpec::default(), "{name:?}");
         }
     }

@@ -208,8 +208,11 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
             .into());
         }
     }
+    // A pack's cells draw the parameters marked per cell each from their own stream.
+    let cells = template.loaded().scenario.pack.as_ref().map_or(0, |pack| pack.len());
     let sampler = Sampler::new(&spec, config.seed, config.samples)
-        .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?;
+        .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?
+        .with_cells(cells);
     let mut inputs = template.input_digests()?;
     if let Some(file) = &config.uncertainty_file {
         inputs.push(input::file_digest(input::InputRole::Uncertainty, file)?);
@@ -305,7 +308,7 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
     };
     // One sample's inputs: the scenario with the drawn values set, every input rule applied.
     let paths = input::number_paths(&description.parameters)?;
-    let build = |values: &[f64]| template.build(&paths, values).map_err(|e| e.to_string());
+    let build = |values: &[f64]| template.build_drawn(&spec, &paths, values).map_err(|e| e.to_string());
     let ensemble = EnsembleConfig {
         samples: config.samples,
         seed: config.seed,

@@ -183,7 +183,8 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         &config.scenario,
         "each alternative ran once",
         &mut notes,
-    )?;
+    )?
+    .map(|sampler| sampler.with_cells(first.scenario.pack.as_ref().map_or(0, |pack| pack.len())));
     let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
     if sampler.is_some() {
         refuse_variants_of_sampled_inputs(&sources, &parameters)?;
@@ -191,8 +192,9 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     // One sample of one alternative: the alternative's scenario with the drawn values set,
     // every input rule applied.
     let paths = input::number_paths(&parameters)?;
-    let build =
-        |alternative: usize, values: &[f64]| templates[alternative].build(&paths, values).map_err(|e| e.to_string());
+    let build = |alternative: usize, values: &[f64]| {
+        templates[alternative].build_drawn(spec, &paths, values).map_err(|e| e.to_string())
+    };
     let compare_config =
         CompareConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
     let comparison =

@@ -3,6 +3,7 @@
 
 use super::{caution_lines, print_caution, scenario_header, step_labels, CliError};
 use crate::cycle::{simulate_periodic_cycle, Health, SolverSettings};
+use crate::input::InputError;
 use crate::input::{self, Override};
 use crate::report;
 use std::fmt::Write as _;
@@ -21,6 +22,13 @@ pub struct CycleConfig {
 pub fn run(config: &CycleConfig, out: &mut impl Write) -> Result<(), CliError> {
     let loaded = input::load_scenario(&config.scenario, &config.overrides)?;
     let scenario = &loaded.scenario;
+    if scenario.pack.is_some() {
+        return Err(InputError::new(
+            &config.scenario,
+            "pack: `cycle` simulates one cell; forecast a pack with `forecast`, `bands`, `compare` or `table`",
+        )
+        .into());
+    }
     let record = simulate_periodic_cycle(scenario, &Health::fresh(&scenario.cell), &SolverSettings::default())?;
     // Render everything before touching the disk: a failure here leaves no file behind.
     let csv = report::cycle_csv(&record, &step_labels(&scenario.duty))?;

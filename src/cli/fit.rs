@@ -42,6 +42,17 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
         .iter()
         .map(|source| input::ScenarioTemplate::load(&source.scenario_path, &source.overrides))
         .collect::<Result<Vec<_>, _>>()?;
+    let pack_source = templates
+        .iter()
+        .zip(&loaded.sources)
+        .find_map(|(t, source)| t.loaded().scenario.pack.is_some().then_some(source));
+    if let Some(source) = pack_source {
+        return Err(input::InputError::new(
+            &source.scenario_path,
+            "pack: `fit` fits one cell's parameters to one cell's data; give a scenario without [pack]",
+        )
+        .into());
+    }
     let number_paths = input::number_paths(&paths)?;
     let source = |dataset: usize, values: &[f64]| -> Result<_, String> {
         templates[dataset].build(&number_paths, values).map_err(|e| e.to_string())

@@ -12,6 +12,8 @@ use std::path::PathBuf;
 pub const CSV_NAME: &str = "fade.csv";
 pub const JSON_NAME: &str = "summary.json";
 pub const SVG_NAME: &str = "fade.svg";
+pub const PACK_CSV_NAME: &str = "pack.csv";
+pub const PACK_SVG_NAME: &str = "pack.svg";
 
 pub struct ForecastConfig {
     pub scenario: PathBuf,
@@ -20,6 +22,8 @@ pub struct ForecastConfig {
     /// From `--cycles` / `--years`; None means the scenario's own horizon.
     pub horizon: Option<Horizon>,
     pub every_cycle: bool,
+    /// Seed of a pack's cells drawn apart.
+    pub seed: u64,
 }
 
 pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError> {
@@ -35,9 +39,10 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
         )
         .into());
     }
-    let scenario = &loaded.scenario;
+    let (drawn_scenario, drawn_plan) = draw_cells(config, &loaded)?;
+    let scenario = &drawn_scenario;
     let options = ForecastOptions { every_cycle: config.every_cycle, ..ForecastOptions::default() };
-    let forecast = run_forecast(scenario, &loaded.plan, horizon, &options);
+    let forecast = run_forecast(scenario, &drawn_plan, horizon, &options);
     if let Some(error) = super::usage_problem(&config.scenario, &config.overrides, &forecast.stop) {
         return Err(error.into());
     }
@@ -46,13 +51,20 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
     let csv = report::fade_csv(&forecast.points, &forecast.scale)?;
     let json = report::forecast_json(&forecast, &scenario.name, &scenario.cell.name, cycling)?;
     let svg = report::fade_svg(&forecast.points, &forecast.scale, &format!("{}: forecast", scenario.name), cycling)?;
-    let written = report::write_all_atomic(
-        &config.out_dir,
-        &[(CSV_NAME, csv.as_slice()), (JSON_NAME, json.as_slice()), (SVG_NAME, svg.as_bytes())],
-    )?;
+    let mut files = vec![(CSV_NAME, csv), (JSON_NAME, json), (SVG_NAME, svg.into_bytes())];
+    if let Some(pack) = &forecast.pack {
+        files.push((PACK_CSV_NAME, report::pack_csv(&forecast.points, pack)?));
+        let title = format!("{}: cells of the pack", scenario.name);
+        files.push((PACK_SVG_NAME, report::pack_svg(&forecast.points, pack, &title, cycling)?.into_bytes()));
+    }
+    let borrowed: Vec<(&str, &[u8])> = files.iter().map(|(name, bytes)| (*name, bytes.as_slice())).collect();
+    let written = report::write_all_atomic(&config.out_dir, &borrowed)?;
 
     let mut text = scenario_header(&config.scenario, &loaded);
     text.push_str(&report::forecast_text(&forecast, cycling));
+    if let Some(pack) = &forecast.pack {
+        text.push_str(&report::pack_text(pack, cycling));
+    }
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
@@ -69,4 +81,34 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
         }
         _ => Ok(()),
     }
+}
+
+/// The scenario as forecast: a pack whose `[uncertainty]` marks parameters per cell has each
+/// cell drawn apart (sample 0 of `--seed`, cell c from the stream of (seed, 0, c)); every
+/// other input keeps the files' (and `--set`) values.
+fn draw_cells(
+    config: &ForecastConfig,
+    loaded: &input::LoadedScenario,
+) -> Result<(crate::cycle::Scenario, crate::forecast::Plan), CliError> {
+    let cells = loaded.scenario.pack.as_ref().map_or(0, |pack| pack.len());
+    if cells == 0 || !loaded.uncertainty.has_per_cell() {
+        return Ok((loaded.scenario.clone(), loaded.plan.clone()));
+    }
+    let spec = crate::ensemble::UncertaintySpec {
+        parameters: loaded.uncertainty.parameters.iter().filter(|p| p.per_cell).cloned().collect(),
+        groups: Vec::new(),
+        sampling: crate::ensemble::Sampling::MonteCarlo,
+    };
+    let sampler = crate::ensemble::Sampler::new(&spec, config.seed, 1)
+        .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?
+        .with_cells(cells);
+    let template = input::ScenarioTemplate::load(&config.scenario, &config.overrides)?;
+    let paths: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
+    let paths = input::number_paths(&paths)?;
+    // Sample 0's own values of the per-cell parameters are not used: only the cells' are.
+    let mut values = sampler.draw_for_build(0);
+    values[..paths.len()].fill(f64::NAN);
+    let mut nominal = spec.clone();
+    nominal.parameters.iter_mut().for_each(|p| p.per_cell = true);
+    Ok(template.build_drawn(&nominal, &paths, &values)?)
 }

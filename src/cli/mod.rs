@@ -117,6 +117,10 @@ enum Command {
         /// Simulate every cycle (the reference the jumping is checked against).
         #[arg(long)]
         every_cycle: bool,
+        /// Seed of a pack's cells drawn apart (parameters marked `per_cell` in
+        /// [uncertainty]); cell c draws from a stream seeded by (seed, 0, c).
+        #[arg(long, value_name = "S", default_value_t = 1)]
+        seed: u64,
         #[command(flatten)]
         overrides: OverrideArgs,
     },
@@ -326,10 +330,10 @@ pub fn run() -> Result<(), CliError> {
             let overrides = parse_overrides(&before_command, &overrides)?;
             cycle::run(&cycle::CycleConfig { scenario, out_dir: out, overrides }, &mut stdout)
         }
-        Command::Forecast { scenario, out, horizon, every_cycle, overrides } => {
+        Command::Forecast { scenario, out, horizon, every_cycle, seed, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
             let horizon = horizon.parse()?;
-            let config = forecast::ForecastConfig { scenario, out_dir: out, overrides, horizon, every_cycle };
+            let config = forecast::ForecastConfig { scenario, out_dir: out, overrides, horizon, every_cycle, seed };
             forecast::run(&config, &mut stdout)
         }
         Command::Bands {

@@ -153,10 +153,11 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
         &config.scenario,
         "the table has no quantile columns",
         &mut notes,
-    )?;
+    )?
+    .map(|sampler| sampler.with_cells(loaded.scenario.pack.as_ref().map_or(0, |pack| pack.len())));
     let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
     let paths = input::number_paths(&parameters)?;
-    let build = |values: &[f64]| template.build(&paths, values).map_err(|e| e.to_string());
+    let build = |values: &[f64]| template.build_drawn(spec, &paths, values).map_err(|e| e.to_string());
     let table_config =
         TableConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
     let nominal = (loaded.scenario.clone(), loaded.plan.clone());

@@ -148,7 +148,7 @@ where
                 (0..config.samples)
                     .into_par_iter()
                     .map(|i| {
-                        let values = sampler.draw(i);
+                        let values = sampler.draw_for_build(i);
                         (0..alternatives.len())
                             .map(|a| match build(a, &values) {
                                 Ok((scenario, plan)) => {
@@ -252,6 +252,7 @@ mod tests {
             warnings: vec![],
             final_state: None,
             interface_rise: None,
+            pack: None,
         }
     }
 

@@ -63,7 +63,14 @@ pub struct ConditionResult {
 
 /// The standard cycle of a condition for a cell (see the module docs).
 pub fn standard_cycle(cell: &Cell, condition: &Condition) -> StepProfile {
-    let current_a = condition.c_rate * cell.nominal_capacity_coulomb / SECONDS_PER_HOUR;
+    standard_pack_cycle(cell, condition, 1, 1)
+}
+
+/// The standard cycle of a condition for `parallel` cells per group and `series` groups: the
+/// same C-rate of the pack's rated capacity, the cell's voltage window times the groups.
+pub fn standard_pack_cycle(cell: &Cell, condition: &Condition, parallel: usize, series: usize) -> StepProfile {
+    let current_a = condition.c_rate * cell.nominal_capacity_coulomb * parallel as f64 / SECONDS_PER_HOUR;
+    let (voltage_min_v, voltage_max_v) = (cell.voltage_min_v * series as f64, cell.voltage_max_v * series as f64);
     let step = |label: &str, drive: Drive, ends: Vec<StepEnd>| Step { label: label.into(), drive, ends };
     StepProfile {
         name: format!("standard cycle, {}", condition.label()),
@@ -71,13 +78,13 @@ pub fn standard_cycle(cell: &Cell, condition: &Condition) -> StepProfile {
             step(
                 "discharge",
                 Drive::Current(current_a),
-                vec![StepEnd::Soc(condition.soc_low), StepEnd::Voltage(cell.voltage_min_v)],
+                vec![StepEnd::Soc(condition.soc_low), StepEnd::Voltage(voltage_min_v)],
             ),
             step("rest after discharge", Drive::Rest, vec![StepEnd::Time(REST_S)]),
             step(
                 "charge",
                 Drive::Current(-current_a),
-                vec![StepEnd::Soc(condition.soc_high), StepEnd::Voltage(cell.voltage_max_v)],
+                vec![StepEnd::Soc(condition.soc_high), StepEnd::Voltage(voltage_max_v)],
             ),
             step("rest after charge", Drive::Rest, vec![StepEnd::Time(REST_S)]),
         ],
@@ -88,7 +95,8 @@ pub fn standard_cycle(cell: &Cell, condition: &Condition) -> StepProfile {
 /// top of the window; the cell, cycles per day, horizon and end of life stay as given.
 pub fn condition_scenario(scenario: Scenario, plan: Plan, condition: &Condition) -> (Scenario, Plan) {
     let ambient_k = condition.ambient_c + ZERO_CELSIUS_K;
-    let duty = DutyCycle::Steps(standard_cycle(&scenario.cell, condition));
+    let (parallel, series) = scenario.pack.as_ref().map_or((1, 1), |pack| (pack.parallel, pack.series));
+    let duty = DutyCycle::Steps(standard_pack_cycle(&scenario.cell, condition, parallel, series));
     let scenario = Scenario { duty, ambient_k, start_soc: condition.soc_high, ..scenario };
     let mut plan = plan;
     plan.usage.ambient_k = Ambient::Constant(ambient_k);
@@ -135,7 +143,7 @@ where
                     (0..config.samples)
                         .into_par_iter()
                         .map(|i| {
-                            let (scenario, plan) = build(&sampler.draw(i)).ok()?;
+                            let (scenario, plan) = build(&sampler.draw_for_build(i)).ok()?;
                             let (scenario, plan) = condition_scenario(scenario, plan, condition);
                             Some(run_forecast(&scenario, &plan, config.horizon, &config.options))
                         })

@@ -12,6 +12,7 @@ pub mod balance;
 pub mod cell;
 pub mod diffusion;
 pub mod kinetics;
+pub mod pack;
 pub mod protocol;
 pub mod record;
 pub mod response;

@@ -87,4 +87,7 @@ pub struct Scenario {
     pub ambient_k: f64,
     /// State of charge the first (warm-up) cycle starts from, 0–1.
     pub start_soc: f64,
+    /// The cells in parallel and series, when the scenario describes a pack: the duty cycle is
+    /// then the pack's and `cell` is the pack's nominal cell.
+    pub pack: Option<super::pack::PackLayout>,
 }

@@ -46,6 +46,8 @@ pub enum EndReason {
     ElectrodeLimit,
     /// A time series ran out of samples.
     SeriesEnd,
+    /// A cell of a pack reached its highest temperature.
+    TemperatureLimit,
 }
 
 impl EndReason {
@@ -59,6 +61,7 @@ impl EndReason {
             EndReason::VoltageLimit => "cell voltage limit",
             EndReason::ElectrodeLimit => "electrode empty/full",
             EndReason::SeriesEnd => "end of series",
+            EndReason::TemperatureLimit => "cell temperature limit",
         }
     }
 }

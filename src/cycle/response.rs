@@ -152,6 +152,14 @@ impl Affine {
     }
 }
 
+/// A trial's responses to the current, for evaluating several currents against one step.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct StepMaps {
+    maps: [Affine; 4],
+    strip_limit: f64,
+    dt: f64,
+}
+
 /// Reused buffers, so a cycle allocates nothing per step.
 #[derive(Debug, Default)]
 pub(super) struct Scratch {
@@ -444,30 +452,76 @@ impl CellModel {
         guess: f64,
         scratch: &mut Scratch,
     ) -> Option<Trial> {
-        let maps = self.responses(state, cond, dt, scratch);
-        // Stripping can return at most the reversible lithium on the surface within the step.
-        let strip_limit = if dt > 0.0 { state.plated_coulomb / dt } else { 0.0 };
+        let maps = self.step_maps(state, cond, dt, scratch);
         let current = match control {
             Control::Current(i) => i,
             // V(I) falls with I; I·V(I) rises with I on the branch a cell operates on.
-            Control::Voltage(target) => {
-                solve_decreasing(|i| self.voltage(cond, &maps, i, strip_limit).0 - target, guess)?
-            }
-            Control::Power(target) => {
-                solve_decreasing(|i| target - i * self.voltage(cond, &maps, i, strip_limit).0, guess)?
-            }
+            Control::Voltage(target) => solve_decreasing(|i| self.terminal_voltage(cond, &maps, i) - target, guess)?,
+            Control::Power(target) => solve_decreasing(|i| target - i * self.terminal_voltage(cond, &maps, i), guess)?,
         };
-        let (voltage, negative, pos_surface, pos_potential) = self.voltage(cond, &maps, current, strip_limit);
+        self.finish_trial(cond, &maps, current, 0.0)
+    }
+
+    /// What a trial of length `dt` from `state` maps a current to (the particles' responses and
+    /// the stripping limit), for evaluating several currents against the same step.
+    pub(super) fn step_maps(
+        &self,
+        state: &CellState,
+        cond: &StepConditions,
+        dt: f64,
+        scratch: &mut Scratch,
+    ) -> StepMaps {
+        // Stripping can return at most the reversible lithium on the surface within the step.
+        let strip_limit = if dt > 0.0 { state.plated_coulomb / dt } else { 0.0 };
+        StepMaps { maps: self.responses(state, cond, dt, scratch), strip_limit, dt }
+    }
+
+    /// Terminal voltage at the step's end for a current.
+    pub(super) fn terminal_voltage(&self, cond: &StepConditions, maps: &StepMaps, current: f64) -> f64 {
+        self.voltage(cond, &maps.maps, current, maps.strip_limit).0
+    }
+
+    /// The end-of-step state for a current; `exchanged_heat_w` is heat flowing in from
+    /// neighbouring cells over the step (0 for a lone cell).
+    pub(super) fn finish_trial(
+        &self,
+        cond: &StepConditions,
+        maps: &StepMaps,
+        current: f64,
+        exchanged_heat_w: f64,
+    ) -> Option<Trial> {
+        let evaluation = self.evaluate(cond, maps, current);
+        self.finish_evaluated(cond, maps, &evaluation, exchanged_heat_w)
+    }
+
+    /// The terminal voltage and electrode states at the step's end for a current, kept so a
+    /// trial can be finished from it without evaluating the same current again.
+    pub(super) fn evaluate(&self, cond: &StepConditions, maps: &StepMaps, current: f64) -> Evaluation {
+        let (voltage, negative, pos_surface, pos_potential) = self.voltage(cond, &maps.maps, current, maps.strip_limit);
+        Evaluation { current, voltage, negative, pos_surface, pos_potential }
+    }
+
+    /// [`CellModel::finish_trial`] from an evaluation of the same step.
+    pub(super) fn finish_evaluated(
+        &self,
+        cond: &StepConditions,
+        maps: &StepMaps,
+        evaluation: &Evaluation,
+        exchanged_heat_w: f64,
+    ) -> Option<Trial> {
+        let dt = maps.dt;
+        let Evaluation { current, voltage, negative, pos_surface, pos_potential } = *evaluation;
         if !voltage.is_finite() {
             return None;
         }
+        let maps = &maps.maps;
         let (neg_potential, neg_surface) = (negative.potential, negative.x);
         let neg_mean = maps[2].at(negative.intercalation);
         let pos_mean = maps[3].at(current);
         let cell = &self.cell;
         let ocv = cell.positive.ocp.potential(pos_mean) - cell.negative.ocp.potential(neg_mean)
             + (cond.temperature_k - cell.reference_temperature_k) * self.entropic_v_k();
-        let heat = bernardi_heat(current, ocv, voltage, cond.temperature_k, self.entropic_v_k());
+        let heat = bernardi_heat(current, ocv, voltage, cond.temperature_k, self.entropic_v_k()) + exchanged_heat_w;
         let temperature_k = advance_temperature(
             cond.temperature_k,
             cond.ambient_k,
@@ -562,6 +616,16 @@ impl CellModel {
     }
 }
 
+/// A current's terminal voltage and electrode states at a step's end.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Evaluation {
+    pub(super) current: f64,
+    pub(super) voltage: f64,
+    negative: Split,
+    pos_surface: f64,
+    pos_potential: f64,
+}
+
 /// The negative's current split at a step's end (module docs).
 #[derive(Debug, Clone, Copy)]
 struct Split {
@@ -597,7 +661,7 @@ const CONTROL_SLOPE_STEP_RELATIVE: f64 = 1e-6;
 /// Root of a decreasing function by Newton steps kept inside an expanding bracket: while the
 /// root is bracketed on one side only the bracket grows by one current scale, and a Newton
 /// step that would leave the bracket is replaced by bisection.
-fn solve_decreasing(f: impl Fn(f64) -> f64, guess: f64) -> Option<f64> {
+pub(super) fn solve_decreasing(mut f: impl FnMut(f64) -> f64, guess: f64) -> Option<f64> {
     let scale = guess.abs().max(CONTROL_MIN_CURRENT_SCALE_A);
     let mut x = guess;
     let mut fx = f(x);

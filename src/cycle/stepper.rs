@@ -53,51 +53,51 @@ pub const PERIODIC_TOLERANCE: f64 = 1e-4;
 
 /// A trial may change state of charge, voltage or temperature by this many times its limit
 /// before it is retried at [`COARSE_TRIAL_SHRINK`] of its length.
-const COARSE_STEP_SLACK: f64 = 1.5;
-const COARSE_TRIAL_SHRINK: f64 = 0.5;
+pub(super) const COARSE_STEP_SLACK: f64 = 1.5;
+pub(super) const COARSE_TRIAL_SHRINK: f64 = 0.5;
 /// Steps shorter than this fraction of the first step are accepted however much they change.
-const SHORTEST_REFINED_STEP_FRACTION: f64 = 0.25;
+pub(super) const SHORTEST_REFINED_STEP_FRACTION: f64 = 0.25;
 /// The next step is between these multiples of the last accepted one.
-const MIN_STEP_RATIO: f64 = 0.5;
-const MAX_STEP_RATIO: f64 = 2.0;
+pub(super) const MIN_STEP_RATIO: f64 = 0.5;
+pub(super) const MAX_STEP_RATIO: f64 = 2.0;
 /// A change below this (in the unit of its quantity) does not limit the next step.
-const NEGLIGIBLE_CHANGE: f64 = 1e-12;
+pub(super) const NEGLIGIBLE_CHANGE: f64 = 1e-12;
 /// Shortest time step, s.
-const MIN_STEP_S: f64 = 1e-9;
+pub(super) const MIN_STEP_S: f64 = 1e-9;
 /// A trial the cell model cannot evaluate is retried at this fraction of its length, down to
 /// [`SHORTEST_RETRY_STEP_S`]; a shorter failing step fails the cycle.
-const FAILED_TRIAL_SHRINK: f64 = 0.25;
-const SHORTEST_RETRY_STEP_S: f64 = 1e-3;
+pub(super) const FAILED_TRIAL_SHRINK: f64 = 0.25;
+pub(super) const SHORTEST_RETRY_STEP_S: f64 = 1e-3;
 /// First guess of the current of a constant-power step, from the last terminal voltage (at
 /// least the minimum) or, at the start of a cycle, the fallback voltage, V.
-const POWER_GUESS_FALLBACK_V: f64 = 3.0;
-const POWER_GUESS_MIN_V: f64 = 0.5;
+pub(super) const POWER_GUESS_FALLBACK_V: f64 = 3.0;
+pub(super) const POWER_GUESS_MIN_V: f64 = 0.5;
 /// First guess of a derated current, as a fraction of the current asked for.
-const DERATED_CURRENT_GUESS_FRACTION: f64 = 0.5;
+pub(super) const DERATED_CURRENT_GUESS_FRACTION: f64 = 0.5;
 
 /// Tolerances of the end conditions other than voltage: each end's margin is its distance
 /// to the end divided by these. Current and charge ends are relative to their threshold.
-const CURRENT_END_TOLERANCE_RELATIVE: f64 = 1e-4;
-const TIME_END_TOLERANCE_S: f64 = 1e-9;
-const SOC_END_TOLERANCE: f64 = 1e-6;
-const CHARGE_END_TOLERANCE_RELATIVE: f64 = 1e-6;
+pub(super) const CURRENT_END_TOLERANCE_RELATIVE: f64 = 1e-4;
+pub(super) const TIME_END_TOLERANCE_S: f64 = 1e-9;
+pub(super) const SOC_END_TOLERANCE: f64 = 1e-6;
+pub(super) const CHARGE_END_TOLERANCE_RELATIVE: f64 = 1e-6;
 /// Tolerance of the electrode-limit end on the surface stoichiometry.
-const SURFACE_END_TOLERANCE: f64 = 1e-6;
+pub(super) const SURFACE_END_TOLERANCE: f64 = 1e-6;
 /// Stoichiometry margin kept from empty and full at the particle surface.
-const SURFACE_GUARD: f64 = 1e-4;
+pub(super) const SURFACE_GUARD: f64 = 1e-4;
 
 /// Locating an end: a step end is accepted with its smallest margin in [−1, 0] (up to one
 /// tolerance past the end); the root finder aims at the middle of that band, and takes the
 /// margin at the start of the step as one tolerance before the end.
-const LOCATE_LOWEST_MARGIN: f64 = -1.0;
-const LOCATE_AIM_OFFSET: f64 = 0.5;
-const LOCATE_START_MARGIN: f64 = 1.0;
-const LOCATE_MAX_ITERATIONS: usize = 60;
+pub(super) const LOCATE_LOWEST_MARGIN: f64 = -1.0;
+pub(super) const LOCATE_AIM_OFFSET: f64 = 0.5;
+pub(super) const LOCATE_START_MARGIN: f64 = 1.0;
+pub(super) const LOCATE_MAX_ITERATIONS: usize = 60;
 /// The search stops when the bracket of step lengths is narrower than this, s.
-const LOCATE_BRACKET_S: f64 = 1e-6;
+pub(super) const LOCATE_BRACKET_S: f64 = 1e-6;
 /// Temperature scale of the periodic check: a change of this many kelvin counts as much as a
 /// change of 1 in shell stoichiometry, K.
-const PERIODIC_TEMPERATURE_SCALE_K: f64 = 100.0;
+pub(super) const PERIODIC_TEMPERATURE_SCALE_K: f64 = 100.0;
 
 /// Step-size and tolerance settings; the defaults suit cycle-life work.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -215,7 +215,7 @@ fn end_margins(
     out.push((EndReason::ElectrodeLimit, surface_room / SURFACE_END_TOLERANCE));
 }
 
-fn reason_of(end: &StepEnd) -> EndReason {
+pub(super) fn reason_of(end: &StepEnd) -> EndReason {
     match end {
         StepEnd::Voltage(_) => EndReason::Voltage,
         StepEnd::CurrentBelow(_) => EndReason::Current,
@@ -333,7 +333,7 @@ pub fn simulate_periodic_with(
 
 /// Largest change between two states: any shell stoichiometry, or temperature in units of
 /// [`PERIODIC_TEMPERATURE_SCALE_K`] (100 K, so 1e-4 means 0.01 K).
-fn state_change(model: &CellModel, a: &CellState, b: &CellState) -> f64 {
+pub(super) fn state_change(model: &CellModel, a: &CellState, b: &CellState) -> f64 {
     let (an, ap) = model.shell_stoichiometries(a);
     let (bn, bp) = model.shell_stoichiometries(b);
     let shells = an.iter().zip(&bn).chain(ap.iter().zip(&bp)).map(|(x, y)| (x - y).abs()).fold(0.0, f64::max);
@@ -341,7 +341,7 @@ fn state_change(model: &CellModel, a: &CellState, b: &CellState) -> f64 {
 }
 
 /// Totals and extremes of a finished cycle, from its trace.
-fn summarise(record: &mut CycleRecord, duration_s: f64, voltage_limited_s: f64) {
+pub(super) fn summarise(record: &mut CycleRecord, duration_s: f64, voltage_limited_s: f64) {
     let mut r = CycleRecord {
         trace: std::mem::take(&mut record.trace),
         neg_stress: std::mem::take(&mut record.neg_stress),

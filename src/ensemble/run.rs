@@ -85,7 +85,8 @@ where
         warnings: WarningSet::default(),
         curves: Vec::new(),
     };
-    let (scenario, plan) = match build(&values) {
+    let built = if sampler.draws_cells() { build(&sampler.draw_for_build(index)) } else { build(&values) };
+    let (scenario, plan) = match built {
         Ok(built) => built,
         Err(message) => return empty(SampleStatus::Invalid(message)),
     };

@@ -95,6 +95,19 @@ pub fn sample_stream(seed: u64, index: u64) -> ChaCha8Rng {
     rng
 }
 
+/// Stream numbers of per-cell draws start here: above every sample's stream, far below the
+/// permutation streams at the top.
+const CELL_STREAM_BASE: u64 = 1 << 62;
+/// Stream numbers per sample kept for its cells (more than any pack may hold).
+const CELL_STREAMS_PER_SAMPLE: u64 = 1 << 10;
+const _: () = assert!(CELL_STREAMS_PER_SAMPLE as usize > crate::cycle::pack::MAX_PACK_CELLS);
+
+/// The stream of cell `cell` of sample `index`: under the run's own key, at a stream number
+/// reserved for cells, so it overlaps no sample's or permutation's stream.
+fn cell_stream(seed: u64, index: u64, cell: usize) -> ChaCha8Rng {
+    sample_stream(seed, CELL_STREAM_BASE + index * CELL_STREAMS_PER_SAMPLE + cell as u64)
+}
+
 /// The stream reserved for the Latin hypercube permutation of parameter `parameter`.
 fn permutation_stream(seed: u64, parameter: usize) -> ChaCha8Rng {
     sample_stream(seed ^ PERMUTATION_SEED_MIX, u64::MAX - parameter as u64)
@@ -177,6 +190,9 @@ pub fn check_spec(spec: &UncertaintySpec) -> Vec<SamplingError> {
 pub struct Sampler {
     seed: u64,
     samples: u64,
+    /// Cells of a pack drawn apart for the parameters marked per cell (0: none).
+    cells: usize,
+    per_cell: Vec<usize>,
     marginals: Vec<Marginal>,
     groups: Vec<CopulaGroup>,
     design: Design,
@@ -204,7 +220,47 @@ impl Sampler {
                 strata: (0..marginals.len()).map(|d| stratum_permutation(seed, d, samples)).collect(),
             },
         };
-        Ok(Sampler { seed, samples, marginals, groups, design, standard_normal: Normal::standard() })
+        let per_cell = spec.parameters.iter().enumerate().filter(|(_, p)| p.per_cell).map(|(i, _)| i).collect();
+        Ok(Sampler {
+            seed,
+            samples,
+            cells: 0,
+            per_cell,
+            marginals,
+            groups,
+            design,
+            standard_normal: Normal::standard(),
+        })
+    }
+
+    /// The same sampler drawing the parameters marked per cell for each of `cells` cells as well
+    /// ([`Sampler::draw_for_build`]).
+    pub fn with_cells(mut self, cells: usize) -> Sampler {
+        self.cells = if self.per_cell.is_empty() { 0 } else { cells };
+        self
+    }
+
+    /// Sample `index`'s values as a scenario is built from them: [`Sampler::draw`], then for
+    /// each cell of [`Sampler::with_cells`] in turn its own value of every parameter marked per
+    /// cell (in spec order). Cell c of sample i draws from its own stream, seeded by (seed, i,
+    /// c), independently (Monte Carlo from the parameter's marginal; per-cell parameters take
+    /// no correlation and no Latin hypercube strata), so the values do not depend on jobs,
+    /// shards or the other cells.
+    pub fn draw_for_build(&self, index: u64) -> Vec<f64> {
+        let mut values = self.draw(index);
+        for cell in 0..self.cells {
+            let mut rng = cell_stream(self.seed, index, cell);
+            for &parameter in &self.per_cell {
+                let u = clamp_probability(rng.sample(Open01));
+                values.push(self.marginals[parameter].quantile(u));
+            }
+        }
+        values
+    }
+
+    /// Whether [`Sampler::draw_for_build`] appends cells' draws.
+    pub fn draws_cells(&self) -> bool {
+        self.cells > 0
     }
 
     /// The number of samples this sampler was built for; valid indices are `0..samples()`.
@@ -585,8 +641,35 @@ mod tests {
     use super::*;
     use statrs::distribution::Continuous;
 
+    #[test]
+    fn cells_draw_from_their_own_streams() {
+        let mut spec = UncertaintySpec {
+            parameters: vec![
+                parameter("a", Distribution::Normal { mean: 0.0, sd: 1.0 }),
+                parameter("b", Distribution::Uniform { low: 1.0, high: 2.0 }),
+            ],
+            ..UncertaintySpec::default()
+        };
+        spec.parameters[1].per_cell = true;
+        let four = Sampler::new(&spec, 9, 10).unwrap().with_cells(4);
+        let eight = Sampler::new(&spec, 9, 10).unwrap().with_cells(8);
+        let plain = Sampler::new(&spec, 9, 10).unwrap();
+        for i in 0..10 {
+            let a = four.draw_for_build(i);
+            let b = eight.draw_for_build(i);
+            // The sample's own values, then one value per cell: a cell's draw does not depend on
+            // how many cells follow it.
+            assert_eq!(a.len(), 2 + 4);
+            assert_eq!(a[..], b[..6]);
+            assert_eq!(a[..2], plain.draw(i)[..]);
+            assert!(a[2..].iter().all(|v| (1.0..=2.0).contains(v)));
+            assert!(a[2] != a[3] && a[3] != a[4]);
+            assert_ne!(four.draw_for_build((i + 1) % 10)[2..], a[2..]);
+        }
+    }
+
     fn parameter(path: &str, distribution: Distribution) -> UncertainParameter {
-        UncertainParameter { path: path.to_string(), distribution }
+        UncertainParameter { path: path.to_string(), distribution, per_cell: false }
     }
 
     fn spec_of(

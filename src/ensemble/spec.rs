@@ -31,6 +31,9 @@ pub enum Distribution {
 pub struct UncertainParameter {
     pub path: String,
     pub distribution: Distribution,
+    /// Drawn for every cell of a pack apart (stream seeded by (seed, sample, cell)) instead of
+    /// once for the sample.
+    pub per_cell: bool,
 }
 
 /// Parameters drawn together through a Gaussian copula with this correlation matrix
@@ -58,4 +61,11 @@ pub struct UncertaintySpec {
     pub parameters: Vec<UncertainParameter>,
     pub groups: Vec<CorrelationGroup>,
     pub sampling: Sampling,
+}
+
+impl UncertaintySpec {
+    /// Whether any parameter is drawn per cell.
+    pub fn has_per_cell(&self) -> bool {
+        self.parameters.iter().any(|p| p.per_cell)
+    }
 }

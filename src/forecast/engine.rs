@@ -18,6 +18,7 @@ use crate::aging::{
     COMPONENT_COUNT, STATE_LEN,
 };
 use crate::cycle::cell::LIMIT_SLACK;
+use crate::cycle::Cell;
 use crate::cycle::{
     balance_cell, simulate_cycle, simulate_periodic_with, Balance, CellModel, CellState, CycleRecord, CycleRun, Health,
     Scenario, SolverSettings,
@@ -27,45 +28,45 @@ use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::{DVector, Dopri5, OutputType, System};
 use std::cell::RefCell;
 
-const SECONDS_PER_DAY: f64 = 86_400.0;
+pub(super) const SECONDS_PER_DAY: f64 = 86_400.0;
 /// How far past its share of the day the fresh cell's cycle may run before the usage is
 /// refused: a rounding margin, not a licence.
-const USAGE_DAY_TOLERANCE: f64 = 1e-3;
-const DAYS_PER_YEAR: f64 = 365.25;
+pub(super) const USAGE_DAY_TOLERANCE: f64 = 1e-3;
+pub(super) const DAYS_PER_YEAR: f64 = 365.25;
 /// Length and C-rate of the resistance pulse.
-const PULSE_S: f64 = 10.0;
-const PULSE_C_RATE: f64 = 1.0;
+pub(super) const PULSE_S: f64 = 10.0;
+pub(super) const PULSE_C_RATE: f64 = 1.0;
 /// Integrator settings of cycle jumping (see `integrate_jumping`).
-const ABSOLUTE_TOLERANCE: f64 = 1e-7;
-const FIRST_STEP: f64 = 1.0;
+pub(super) const ABSOLUTE_TOLERANCE: f64 = 1e-7;
+pub(super) const FIRST_STEP: f64 = 1.0;
 
 /// What one simulated cycle showed, kept for reporting between the integrator's points.
 #[derive(Debug, Clone, Copy)]
-struct CycleSnapshot {
-    x: f64,
-    duty_capacity_ah: f64,
-    peak_temperature_k: f64,
-    min_temperature_k: f64,
-    min_neg_potential_v: f64,
-    peak_charge_a: f64,
+pub(super) struct CycleSnapshot {
+    pub(super) x: f64,
+    pub(super) duty_capacity_ah: f64,
+    pub(super) peak_temperature_k: f64,
+    pub(super) min_temperature_k: f64,
+    pub(super) min_neg_potential_v: f64,
+    pub(super) peak_charge_a: f64,
     /// Step (0-based) where the charge current peaked.
-    peak_charge_step: usize,
-    peak_discharge_a: f64,
-    peak_discharge_step: usize,
+    pub(super) peak_charge_step: usize,
+    pub(super) peak_discharge_a: f64,
+    pub(super) peak_discharge_step: usize,
     /// Time a measured series was held at a voltage limit in this cycle, s.
-    voltage_limited_s: f64,
+    pub(super) voltage_limited_s: f64,
 }
 
 /// Why a rate evaluation could not be made.
 #[derive(Debug, Clone, PartialEq)]
-enum RateFailure {
+pub(super) enum RateFailure {
     /// No charge can be cycled in the voltage window any more: the cell is used up.
     Exhausted,
     Failed(ForecastFailure),
 }
 
 /// A cycle that could not be simulated.
-fn cycle_failure(error: impl std::fmt::Display) -> RateFailure {
+pub(super) fn cycle_failure(error: impl std::fmt::Display) -> RateFailure {
     RateFailure::Failed(ForecastFailure::Cycle { detail: error.to_string() })
 }
 
@@ -120,17 +121,7 @@ impl<'a> Forecaster<'a> {
     /// Ambient temperature on a day: monthly values are interpolated linearly between month
     /// midpoints (periodic over the year), so the rates stay continuous for the integrator.
     fn ambient_k(&self, day: f64) -> f64 {
-        match &self.plan.usage.ambient_k {
-            Ambient::Constant(t) => *t,
-            Ambient::Monthly(months) => {
-                let month_length = DAYS_PER_YEAR / 12.0;
-                let position = (self.plan.usage.start_month as f64 - 1.0) + day / month_length - 0.5;
-                let wrapped = position.rem_euclid(12.0);
-                let lower = wrapped.floor() as usize % 12;
-                let w = wrapped - wrapped.floor();
-                months[lower] * (1.0 - w) + months[(lower + 1) % 12] * w
-            }
-        }
+        ambient_on_day(self.plan, day)
     }
 
     /// Rates of change of the slow state per cycle (per day when storing) at `x`.
@@ -273,19 +264,35 @@ impl<'a> Forecaster<'a> {
     }
 }
 
+/// Ambient temperature on a day: monthly values are interpolated linearly between month
+/// midpoints (periodic over the year), so the rates stay continuous for the integrator.
+pub(super) fn ambient_on_day(plan: &Plan, day: f64) -> f64 {
+    match &plan.usage.ambient_k {
+        Ambient::Constant(t) => *t,
+        Ambient::Monthly(months) => {
+            let month_length = DAYS_PER_YEAR / 12.0;
+            let position = (plan.usage.start_month as f64 - 1.0) + day / month_length - 0.5;
+            let wrapped = position.rem_euclid(12.0);
+            let lower = wrapped.floor() as usize % 12;
+            let w = wrapped - wrapped.floor();
+            months[lower] * (1.0 - w) + months[(lower + 1) % 12] * w
+        }
+    }
+}
+
 /// The integrator's view of the forecaster. It integrates in s = √(N + N₀) − √N₀ rather than
 /// the cycle count N itself: film growth that slows as √N is close to linear in s, so the
 /// steps stay long through the early, fast part of the fade.
 struct RateSystem<'f, 'a>(&'f Forecaster<'a>);
 
 /// N₀ of the stretched variable, in cycles (days when storing).
-const STRETCH_OFFSET: f64 = 1.0;
+pub(super) const STRETCH_OFFSET: f64 = 1.0;
 
-fn stretched(x: f64) -> f64 {
+pub(super) fn stretched(x: f64) -> f64 {
     (x + STRETCH_OFFSET).sqrt() - STRETCH_OFFSET.sqrt()
 }
 
-fn unstretched(s: f64) -> f64 {
+pub(super) fn unstretched(s: f64) -> f64 {
     (s + STRETCH_OFFSET.sqrt()).powi(2) - STRETCH_OFFSET
 }
 
@@ -315,7 +322,7 @@ impl System<f64, DVector<f64>> for RateSystem<'_, '_> {
 /// Scale of a component in the integrator's vector: components that are parts of another are
 /// carried scaled down by 2⁻¹⁰⁰ (exact in binary), so their error estimates are nil and they do
 /// not steer the step size; every other component steers as it is.
-fn integrator_scale(component: usize) -> f64 {
+pub(super) fn integrator_scale(component: usize) -> f64 {
     // The crack-film bins after the components sum to a steering component: they ride along.
     if component >= COMPONENT_COUNT || COMPONENTS[component].part_of.is_some() {
         2f64.powi(-100)
@@ -325,7 +332,7 @@ fn integrator_scale(component: usize) -> f64 {
 }
 
 /// Components that steer the integrator's step size (all but the parts of others).
-const STEERING: usize = {
+pub(super) const STEERING: usize = {
     let mut count = 0;
     let mut i = 0;
     while i < COMPONENT_COUNT {
@@ -342,22 +349,22 @@ const STEERING: usize = {
 /// sixteen times the steering components and quartering the tolerances keeps the norm over the
 /// steering components exactly (powers of two scale without rounding): adding a reported part
 /// changes no number of the forecast.
-const INTEGRATOR_LEN: usize = 16 * STEERING;
+pub(super) const INTEGRATOR_LEN: usize = 16 * STEERING;
 const _: () = assert!(INTEGRATOR_LEN >= STATE_LEN);
 /// The tolerance factor that goes with the padding: √(STEERING / INTEGRATOR_LEN).
-const STEERING_TOLERANCE_FACTOR: f64 = 0.25;
+pub(super) const STEERING_TOLERANCE_FACTOR: f64 = 0.25;
 
-fn to_integrator(state: &AgingState) -> [f64; INTEGRATOR_LEN] {
+pub(super) fn to_integrator(state: &AgingState) -> [f64; INTEGRATOR_LEN] {
     let vector = state.to_vector();
     std::array::from_fn(|i| if i < STATE_LEN { vector[i] * integrator_scale(i) } else { 0.0 })
 }
 
-fn from_integrator(values: &[f64]) -> AgingState {
+pub(super) fn from_integrator(values: &[f64]) -> AgingState {
     AgingState::from_vector(&std::array::from_fn(|i| values[i] / integrator_scale(i)))
 }
 
 /// End of the integration variable for a horizon: cycles when cycling, days when storing.
-fn horizon_end(plan: &Plan, horizon: Horizon) -> Result<f64, ForecastFailure> {
+pub(super) fn horizon_end(plan: &Plan, horizon: Horizon) -> Result<f64, ForecastFailure> {
     let cpd = plan.usage.cycles_per_day;
     match horizon {
         Horizon::Cycles(n) if cpd > 0.0 => Ok(n),
@@ -394,6 +401,9 @@ pub fn report_grid(
 /// Forecasts the scenario's fade over the horizon. Failures do not discard work: the result
 /// holds the points computed before the failure and says where and why it stopped.
 pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options: &ForecastOptions) -> Forecast {
+    if let Some(layout) = &scenario.pack {
+        return super::pack::run_pack_forecast(scenario, layout, plan, horizon, options);
+    }
     let forecaster = Forecaster::new(scenario, plan);
     let cell = &scenario.cell;
     let fresh_state = AgingState::fresh(&plan.aging);
@@ -412,6 +422,7 @@ pub fn run_forecast(scenario: &Scenario, plan: &Plan, horizon: Horizon, options:
         warnings: Vec::new(),
         final_state: None,
         interface_rise: None,
+        pack: None,
     };
     let fail = |mut f: Forecast, failure: ForecastFailure| {
         f.stop = StopReason::Failed { at: 0.0, last_soh_pct: None, failure };
@@ -540,7 +551,7 @@ fn integrate_jumping(
     (xs, ys)
 }
 
-fn continuous_is_empty(model: &ContinuousOutputModel<f64, DVector<f64>>) -> bool {
+pub(super) fn continuous_is_empty(model: &ContinuousOutputModel<f64, DVector<f64>>) -> bool {
     model.evaluate(0.0).is_none()
 }
 
@@ -581,7 +592,12 @@ fn integrate_every_cycle(
 }
 
 /// First crossing of each threshold, interpolated linearly between reported points.
-fn end_of_life(points: &[FadePoint], plan: &Plan, cycling: bool, cycles_per_day: f64) -> Vec<EndOfLifePoint> {
+pub(super) fn end_of_life(
+    points: &[FadePoint],
+    plan: &Plan,
+    cycling: bool,
+    cycles_per_day: f64,
+) -> Vec<EndOfLifePoint> {
     let eol = plan.end_of_life;
     let crossing = |value: &dyn Fn(&FadePoint) -> f64, level: f64, falling: bool| -> Option<LifeAt> {
         points.windows(2).find_map(|w| {
@@ -615,8 +631,16 @@ fn end_of_life(points: &[FadePoint], plan: &Plan, cycling: bool, cycles_per_day:
 /// Safety and validity warnings from what the simulated cycles showed and how far the
 /// forecast reached.
 fn warnings(forecaster: &Forecaster, forecast: &Forecast) -> Vec<ForecastWarning> {
-    let cell = &forecaster.scenario.cell;
-    let log = forecaster.log.borrow();
+    warnings_from(&forecaster.scenario.cell, &forecaster.log.borrow(), forecaster.plan, forecast)
+}
+
+/// The warnings of a forecast of `cell` (a pack's nominal cell) from its cycles' snapshots.
+pub(super) fn warnings_from(
+    cell: &Cell,
+    log: &[CycleSnapshot],
+    plan: &Plan,
+    forecast: &Forecast,
+) -> Vec<ForecastWarning> {
     let mut out = Vec::new();
     let lowest_potential_v = log.iter().map(|s| s.min_neg_potential_v).fold(f64::INFINITY, f64::min);
     if lowest_potential_v < 0.0 {
@@ -657,10 +681,10 @@ fn warnings(forecaster: &Forecaster, forecast: &Forecast) -> Vec<ForecastWarning
     if held > 0.0 {
         out.push(ForecastWarning::HeldAtVoltageLimit { seconds_per_cycle: held });
     }
-    match forecaster.plan.calibration {
+    match plan.calibration {
         None => out.push(ForecastWarning::Uncalibrated),
         Some(range) => {
-            if let Some(warning) = beyond_calibration(forecaster, &range, forecast.points.last()) {
+            if let Some(warning) = beyond_calibration(plan, &range, forecast.points.last()) {
                 out.push(warning);
             }
         }
@@ -671,15 +695,11 @@ fn warnings(forecaster: &Forecaster, forecast: &Forecast) -> Vec<ForecastWarning
 /// The warning for a forecast that reaches past its calibration range on any axis the range
 /// gives (cycles, days, equivalent full cycles) or runs at an ambient outside the fitted
 /// temperatures; None when it stays inside.
-fn beyond_calibration(
-    forecaster: &Forecaster,
-    range: &CalibrationRange,
-    last: Option<&FadePoint>,
-) -> Option<ForecastWarning> {
+fn beyond_calibration(plan: &Plan, range: &CalibrationRange, last: Option<&FadePoint>) -> Option<ForecastWarning> {
     let (cycles, days, efc) = last.map_or((0.0, 0.0, 0.0), |p| (p.cycle, p.day, p.efc));
     let past = |limit: Option<f64>, reached: f64| limit.is_some_and(|limit| reached > limit * (1.0 + 1e-9));
     let temperature_outside_k = range.temperature_k.and_then(|(low, high)| {
-        let ambients: Vec<f64> = match &forecaster.plan.usage.ambient_k {
+        let ambients: Vec<f64> = match &plan.usage.ambient_k {
             Ambient::Constant(t) => vec![*t],
             Ambient::Monthly(months) => months.to_vec(),
         };

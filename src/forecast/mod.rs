@@ -2,14 +2,16 @@
 //! the cycles an adaptive integrator asks for (cycle jumping), or every cycle for reference.
 
 pub mod engine;
+pub mod pack;
 pub mod plan;
 pub mod result;
 
 pub use engine::{report_grid, run_forecast};
 pub use plan::{Ambient, EndOfLife, Horizon, Plan, Usage};
 pub use result::{
-    equivalent_full_cycles, EndOfLifePoint, FadePoint, Forecast, ForecastFailure, ForecastWarning, LifeAt, ReportScale,
-    ReportedValue, StopReason, Threshold, WarningKind, WarningSet,
+    equivalent_full_cycles, EndOfLifePoint, FadePoint, Forecast, ForecastFailure, ForecastWarning, LifeAt,
+    PackCellPoint, PackOutcome, PackPosition, ReportScale, ReportedValue, StopReason, Threshold, WarningKind,
+    WarningSet,
 };
 
 /// Options of one forecast run.

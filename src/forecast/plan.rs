@@ -53,4 +53,14 @@ pub struct Plan {
     /// None when the scenario gives none; the command line must then.
     pub horizon: Option<Horizon>,
     pub end_of_life: EndOfLife,
+    /// A pack's aging laws per position (each cell may carry its own drawn values); empty for
+    /// a lone cell, or when every cell of the pack takes `aging`.
+    pub pack_aging: Vec<crate::aging::AgingParams>,
+}
+
+impl Plan {
+    /// The aging laws of the cell at a pack position.
+    pub fn aging_at(&self, position: usize) -> &crate::aging::AgingParams {
+        self.pack_aging.get(position).unwrap_or(&self.aging)
+    }
 }

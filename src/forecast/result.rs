@@ -190,6 +190,9 @@ pub enum ForecastFailure {
     /// The cycle-jumping integrator gave up.
     #[error("integrator: {detail}")]
     Integrator { detail: String },
+    /// A pack runs a step profile, not a measured series.
+    #[error("a pack runs a step profile; measured series are for single cells")]
+    PackNeedsSteps,
 }
 
 /// Kinds of warning, for counting over samples and alternatives. The discriminant is the bit
@@ -339,6 +342,61 @@ pub struct Forecast {
     pub final_state: Option<AgingState>,
     /// The negative's interface-resistance rise at the last reported point, by cause.
     pub interface_rise: Option<crate::aging::InterfaceRise>,
+    /// Every cell of a pack over life; None for a lone cell.
+    pub pack: Option<Box<PackOutcome>>,
+}
+
+/// Where a pack's cell sits and what sets it apart.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PackPosition {
+    /// Group (series position) and place in the group, both from 0.
+    pub group: usize,
+    pub place: usize,
+    pub interconnect_ohm: f64,
+    /// Ambient of the position while cycling, K, at the scenario's (first) ambient.
+    pub cycle_ambient_k: f64,
+}
+
+/// One cell of a pack at a reported point.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct PackCellPoint {
+    /// Capacity at reference conditions, Ah, and over the cell's own fresh capacity, %.
+    pub capacity_ah: f64,
+    pub soh_pct: f64,
+    /// The cell's DC resistance (10 s 1C pulse of the cell, 50 % state of charge, reference
+    /// temperature), mΩ.
+    pub resistance_mohm: f64,
+    /// Share of its group's discharge charge the cell carried in the last simulated cycle at
+    /// or before the point, %.
+    pub current_share_pct: f64,
+    /// Peak temperature of the cell in that cycle, °C.
+    pub peak_temperature_c: f64,
+    /// Lithium held by the cell and its sinks over its fresh inventory (1 when conserved).
+    pub lithium_total: f64,
+}
+
+/// A pack's cells over life, beside the pack's own fade curve.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PackOutcome {
+    pub parallel: usize,
+    pub series: usize,
+    pub positions: Vec<PackPosition>,
+    /// Per reported point (as `Forecast::points`), every cell in position order.
+    pub points: Vec<Vec<PackCellPoint>>,
+    /// Each cell's own state of health crossing the pack's capacity threshold.
+    pub cell_end_of_life: Vec<Option<LifeAt>>,
+    /// Each cell's slow state at the last reported point.
+    pub final_states: Vec<AgingState>,
+    /// Per cell, the values drawn for it (path, value), when the scenario draws cells apart.
+    pub drawn: Vec<Vec<(String, f64)>>,
+}
+
+impl PackOutcome {
+    /// The cell with the lowest state of health at the last reported point.
+    pub fn weakest(&self) -> Option<usize> {
+        let last = self.points.last()?;
+        last.iter().enumerate().min_by(|a, b| a.1.soh_pct.total_cmp(&b.1.soh_pct)).map(|(i, _)| i)
+    }
 }
 
 impl Forecast {

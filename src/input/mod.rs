@@ -18,6 +18,7 @@ mod fit;
 pub mod locate;
 mod mechanisms;
 mod overrides;
+mod pack;
 mod plan;
 mod plausible;
 mod profile;

@@ -81,7 +81,7 @@ pub(super) fn convert_plan(checks: &mut Checks<'_>, sections: PlanSections<'_>) 
     }
     let end_of_life = convert_end_of_life(checks, sections.end_of_life.unwrap_or(&default_end_of_life));
     // The cell's aging laws are set once the cell file is read.
-    Plan { aging: Default::default(), calibration: None, usage, horizon, end_of_life }
+    Plan { aging: Default::default(), calibration: None, usage, horizon, end_of_life, pack_aging: Vec::new() }
 }
 
 fn convert_usage(checks: &mut Checks<'_>, section: &UsageSection, ambient_c: f64) -> Usage {

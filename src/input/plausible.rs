@@ -134,12 +134,11 @@ pub(crate) const PLAUSIBLE: &[Plausible] = &[
     row("usage.cycles_per_day", "per day", (0.0, 1000.0), (0.0, 50.0), NONE),
     row("horizon.years", "years", (0.0, 100.0), (0.0, 40.0), NONE),
     row("horizon.cycles", "cycles", (0.0, 1e6), (0.0, 1e5), NONE),
-    // Step profiles: rates in multiples of the nominal capacity per hour.
+    // Step profiles: rates in multiples of the nominal capacity per hour. (Voltages are the
+    // pack's in a pack scenario, so they are checked against the loaded window instead.)
     row("charge_c", "C", (0.0, 100.0), (0.0, 15.0), NONE),
     row("discharge_c", "C", (0.0, 100.0), (0.0, 30.0), NONE),
     row("end_current_c", "C", (0.0, 100.0), (0.0, 15.0), NONE),
-    row("hold_v", "V", (0.5, 6.0), (1.5, 4.6), MILLIVOLTS),
-    row("end_voltage_v", "V", (0.5, 6.0), (1.5, 4.6), MILLIVOLTS),
 ];
 
 /// Keys in percent of a state of charge: a value strictly between 0 and 1 is a fraction typed

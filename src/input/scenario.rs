@@ -15,6 +15,7 @@ use super::document::{check_shape, TomlDocument};
 use super::duty::{check_duty_file, check_duty_shape, read_duty, DutyFile};
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
+use super::pack::{convert_pack, PackSection};
 use super::plan::{convert_plan, EndOfLifeSection, HorizonSection, PlanSections, UsageSection, MONTH_NAMES};
 use super::plausible::{report_implausible, unusual_values};
 use super::profile::VoltageWindow;
@@ -44,6 +45,7 @@ struct ScenarioFile {
     horizon: Option<HorizonSection>,
     end_of_life: Option<EndOfLifeSection>,
     uncertainty: Option<UncertaintySection>,
+    pack: Option<PackSection>,
 }
 
 /// A scenario with everything it names loaded and checked.
@@ -218,21 +220,57 @@ pub(super) fn convert_scenario(
             .ok(),
         None => None,
     };
+    // A pack's duty cycle is the pack's: C-rates of the pack's rated capacity, voltages of
+    // its series string.
+    let pack_counts = file.pack.as_ref().map(PackSection::counts);
+    let (parallel, series) = pack_counts.flatten().unwrap_or((1, 1));
+    // Cell counts out of range are the pack's problem; the duty cannot be checked against it.
+    let counts_known = !matches!(pack_counts, Some(None));
     let duty = match (&cell, &profile_path) {
-        (Some((cell, _)), Some(profile_path)) => {
-            let window = VoltageWindow { min_v: cell.cell.voltage_min_v, max_v: cell.cell.voltage_max_v };
+        (Some((cell, _)), Some(profile_path)) if counts_known => {
+            let window = VoltageWindow {
+                min_v: cell.cell.voltage_min_v * series as f64,
+                max_v: cell.cell.voltage_max_v * series as f64,
+            };
+            let nominal = cell.cell.nominal_capacity_coulomb * parallel as f64;
             files
                 .duty(profile_path)
                 .map_err(|e| vec![e])
                 .and_then(|duty_file| {
-                    check_duty_file(profile_path, &duty_file, cell.cell.nominal_capacity_coulomb, Some(window))
-                        .map(|duty| (duty, duty_file))
+                    check_duty_file(profile_path, &duty_file, nominal, Some(window)).map(|duty| (duty, duty_file))
                 })
                 .map_err(|mut found| problems.append(&mut found))
                 .ok()
         }
         _ => None,
     };
+    let pack = match (&file.pack, &cell) {
+        (Some(section), Some((cell, _))) => {
+            let mut pack_checks = Checks::new(document);
+            let layout = convert_pack(&mut pack_checks, section, &cell.cell);
+            if matches!(&duty, Some(((crate::cycle::DutyCycle::Series(_), _), _))) {
+                pack_checks.report(
+                    "profile",
+                    "a pack runs a step profile (.toml); measured series (.csv) are for single cells",
+                );
+            }
+            if let Err(mut found) = pack_checks.finish(()) {
+                problems.append(&mut found);
+            }
+            layout
+        }
+        _ => None,
+    };
+    if file.pack.is_none() {
+        if let Some(index) = uncertainty.parameters.iter().position(|p| p.per_cell) {
+            problems.push(
+                document.problem(
+                    &format!("uncertainty.parameter.{index}.per_cell"),
+                    "draws per cell need a [pack] section",
+                ),
+            );
+        }
+    }
     if !problems.is_empty() {
         return Err(problems);
     }
@@ -274,7 +312,7 @@ pub(super) fn convert_scenario(
 
     let start_soc = file.start_soc_pct.map_or(profile_start_soc, |pct| pct / 100.0);
     let loaded = LoadedScenario {
-        scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc },
+        scenario: Scenario { name: file.name.trim().to_string(), cell, duty, ambient_k, start_soc, pack },
         plan,
         uncertainty,
         cell_path,

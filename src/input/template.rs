@@ -82,6 +82,52 @@ impl ScenarioTemplate {
     }
 }
 
+impl ScenarioTemplate {
+    /// The scenario of one draw of `spec` (whose parameters' paths are `paths`): `values`
+    /// holds a value per parameter, then, for a pack drawn cell by cell, each cell's values of
+    /// the parameters marked per cell ([`crate::ensemble::Sampler::draw_for_build`]). Shared
+    /// values are set as [`ScenarioTemplate::build`] sets them; each cell is then built with its
+    /// own values of the per-cell parameters (every input rule applies to them too) and placed
+    /// at its position with its aging laws. The pack's nominal cell keeps the files' values of
+    /// the per-cell parameters.
+    pub fn build_drawn(
+        &self,
+        spec: &crate::ensemble::UncertaintySpec,
+        paths: &[NumberPath],
+        values: &[f64],
+    ) -> Result<(Scenario, Plan), InputError> {
+        let shared = &values[..paths.len().min(values.len())];
+        let per_cell: Vec<bool> = spec.parameters.iter().map(|p| p.per_cell).collect();
+        let count = per_cell.iter().filter(|p| **p).count();
+        if count == 0 || values.len() == shared.len() {
+            return self.build(paths, shared);
+        }
+        let kept: Vec<usize> = (0..paths.len()).filter(|&i| !per_cell[i]).collect();
+        let base_paths: Vec<NumberPath> = kept.iter().map(|&i| paths[i].clone()).collect();
+        let base_values: Vec<f64> = kept.iter().map(|&i| shared[i]).collect();
+        let (mut scenario, mut plan) = self.build(&base_paths, &base_values)?;
+        let Some(layout) = scenario.pack.as_mut() else {
+            return Ok((scenario, plan));
+        };
+        plan.pack_aging.clear();
+        layout.drawn.clear();
+        for (cell, own) in values[shared.len()..].chunks_exact(count).enumerate().take(layout.cells.len()) {
+            let mut mixed = shared.to_vec();
+            let mut drawn = Vec::with_capacity(count);
+            for ((value, parameter), &v) in mixed.iter_mut().zip(&spec.parameters).filter(|(_, p)| p.per_cell).zip(own)
+            {
+                *value = v;
+                drawn.push((parameter.path.clone(), v));
+            }
+            let (one, its_plan) = self.build(paths, &mixed)?;
+            layout.cells[cell] = one.cell;
+            plan.pack_aging.push(its_plan.aging);
+            layout.drawn.push(drawn);
+        }
+        Ok((scenario, plan))
+    }
+}
+
 /// The template's parsed files with the extra overrides applied to copies. A file the template
 /// did not read (the scenario's `cell` or `profile` changed by an override) is read from disk.
 struct TemplateFiles<'a> {

@@ -49,6 +49,8 @@ struct ParameterEntry {
     sigma_ln: Option<f64>,
     low: Option<f64>,
     high: Option<f64>,
+    /// Drawn for each cell of a pack apart.
+    per_cell: Option<bool>,
 }
 
 impl ParameterEntry {
@@ -113,6 +115,17 @@ pub(super) fn convert_uncertainty(checks: &mut Checks<'_>, section: Option<&Unce
         }
     }
     let groups = convert_correlations(checks, &section.correlation, &declared);
+    for (g, group) in groups.iter().enumerate() {
+        if let Some(&member) = group.members.iter().find(|&&m| section.parameter[m].per_cell == Some(true)) {
+            checks.report(
+                &format!("{SECTION}.correlation.{g}.parameters"),
+                format!(
+                    "`{}` is drawn per cell; per-cell draws are independent and take no correlation",
+                    declared[member]
+                ),
+            );
+        }
+    }
     UncertaintySpec { parameters, groups, sampling }
 }
 
@@ -168,8 +181,15 @@ fn convert_parameter(checks: &mut Checks<'_>, index: usize, entry: &ParameterEnt
     let problems_before = checks.problem_count();
     check_path_syntax(checks, index, &entry.path);
     let distribution = convert_distribution(checks, index, entry)?;
-    (checks.problem_count() == problems_before)
-        .then(|| UncertainParameter { path: normalized_path(&entry.path), distribution })
+    let per_cell = entry.per_cell.unwrap_or(false);
+    let path = normalized_path(&entry.path);
+    if per_cell && !path.starts_with("cell.") {
+        checks.report(
+            &parameter_key(index, "per_cell"),
+            format!("only the cell file's values (`cell.…`) are drawn per cell; `{path}` is shared by the pack"),
+        );
+    }
+    (checks.problem_count() == problems_before).then_some(UncertainParameter { path, distribution, per_cell })
 }
 
 /// What can be told from the path alone; whether it names a numeric input is tried later.

@@ -453,6 +453,7 @@ mod tests {
                 warnings,
                 final_state: None,
                 interface_rise: None,
+                pack: None,
             },
             quantiles: None,
             samples_left_out: 0,

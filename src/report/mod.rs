@@ -16,6 +16,7 @@ mod forecast_text;
 mod inputs;
 mod journal;
 mod outcome;
+mod pack;
 mod summary;
 pub mod text;
 
@@ -41,6 +42,7 @@ pub use outcome::{
     counted_warning_lines, counted_warnings_json, failure_text, stop_json, stop_text, warning_json, warning_kind_text,
     warning_text,
 };
+pub use pack::{pack_csv, pack_svg, pack_text, PACK_CSV_HEADER};
 pub use summary::{cycle_cautions, cycle_summary};
 
 use std::path::PathBuf;

@@ -9,7 +9,8 @@
 // Each test and benchmark uses a subset.
 #![allow(dead_code)]
 
-use fadecast::cycle::Scenario;
+use fadecast::cycle::pack::PackLayout;
+use fadecast::cycle::{Drive, DutyCycle, Scenario, Step, StepEnd, StepProfile};
 use fadecast::ensemble::{EnsembleConfig, Sampler, Shard, UncertaintySpec};
 use fadecast::forecast::{ForecastOptions, Horizon, Plan};
 use fadecast::input::{load_scenario, parse_override, Override};
@@ -144,4 +145,39 @@ impl EnsembleCase {
 /// The override that swaps the scenario's duty for a profile (an alternative of `compare`).
 pub fn profile_override(profile: &str) -> Override {
     parse_override(&format!("profile={}", repo(profile).display())).expect("valid override")
+}
+
+/// A scenario's cell made into a pack, its duty scaled to the pack: the same C-rates (currents
+/// × parallel) and voltages (× series).
+pub fn pack_scenario(scenario: &Scenario, layout: PackLayout) -> Scenario {
+    let (p, s) = (layout.parallel as f64, layout.series as f64);
+    let DutyCycle::Steps(profile) = &scenario.duty else { panic!("a step profile") };
+    let steps = profile
+        .steps
+        .iter()
+        .map(|step| Step {
+            label: step.label.clone(),
+            drive: match step.drive {
+                Drive::Current(i) => Drive::Current(i * p),
+                Drive::Power(w) => Drive::Power(w * p * s),
+                Drive::Voltage(v) => Drive::Voltage(v * s),
+                Drive::Rest => Drive::Rest,
+            },
+            ends: step
+                .ends
+                .iter()
+                .map(|end| match *end {
+                    StepEnd::Voltage(v) => StepEnd::Voltage(v * s),
+                    StepEnd::CurrentBelow(i) => StepEnd::CurrentBelow(i * p),
+                    StepEnd::Charge(q) => StepEnd::Charge(q * p),
+                    other => other,
+                })
+                .collect(),
+        })
+        .collect();
+    Scenario {
+        duty: DutyCycle::Steps(StepProfile { name: profile.name.clone(), steps }),
+        pack: Some(layout),
+        ..scenario.clone()
+    }
 }
