@@ -5,6 +5,7 @@ mod common;
 
 use common::fadecast;
 
+use predicates::prelude::*;
 use std::fs;
 use std::path::Path;
 
@@ -138,5 +139,54 @@ fn bad_ensemble_input_exits_2_and_names_the_problem() {
         let stderr = String::from_utf8(assert.get_output().stderr.clone()).unwrap();
         assert!(stderr.contains(needle), "case {extra:?}: {stderr}");
         assert!(!out.join("summary.json").exists());
+    }
+}
+
+/// A scenario in `dir` sampling only the cell's specific heat (which barely moves the fade),
+/// with `distribution` lines for it.
+fn heat_spread(dir: &Path, distribution: &str) -> std::path::PathBuf {
+    let text = format!(
+        "name = \"heat spread\"\ncell = {:?}\nprofile = {:?}\nambient_c = 25.0\n\n[uncertainty]\n\
+         sampling = \"latin-hypercube\"\n\n[[uncertainty.parameter]]\npath = \"cell.thermal.specific_heat_j_kg_k\"\n{distribution}\n",
+        Path::new(env!("CARGO_MANIFEST_DIR")).join(common::VAN_CELL),
+        Path::new(env!("CARGO_MANIFEST_DIR")).join(common::PROFILE_OVERNIGHT),
+    );
+    let path = dir.join("heat.toml");
+    fs::write(&path, text).unwrap();
+    path
+}
+
+#[test]
+fn an_impossible_draw_is_recorded_and_the_run_goes_on() {
+    // Latin-hypercube strata of 990 J/(kg·K) from 1000: the top one lies almost wholly past the
+    // plausibility table's 10 000, so one of the ten draws is impossible.
+    let tmp = tempfile::tempdir().unwrap();
+    let scenario = heat_spread(tmp.path(), "distribution = \"uniform\"\nlow = 1000.0\nhigh = 10900.0");
+    let out = tmp.path().join("out");
+    let mut cmd = fadecast();
+    cmd.arg("bands").arg(&scenario).args(["--samples", "10", "--seed", "1", "--cycles", "100", "--quiet", "--out"]);
+    cmd.arg(&out).assert().success().stdout(predicate::str::contains("counted 9, invalid draws 1"));
+    let samples = String::from_utf8(read(&out, "samples.csv")).unwrap();
+    let invalid: Vec<&str> = samples.lines().filter(|l| l.contains(",invalid,")).collect();
+    assert_eq!(invalid.len(), 1, "{samples}");
+    assert!(invalid[0].contains("is not a plausible value"), "the reason is recorded: {}", invalid[0]);
+    assert!(out.join("bands.csv").exists());
+}
+
+#[test]
+fn too_many_impossible_draws_refuse_statistics_but_keep_the_record() {
+    // A log-normal of σ = 5 puts most draws outside 100–10 000 J/(kg·K).
+    let tmp = tempfile::tempdir().unwrap();
+    let scenario = heat_spread(tmp.path(), "distribution = \"log-normal\"\nmedian = 1000.0\nsigma_ln = 5.0");
+    let out = tmp.path().join("out");
+    let mut cmd = fadecast();
+    cmd.arg("bands").arg(&scenario).args(["--samples", "10", "--seed", "1", "--cycles", "100", "--quiet", "--out"]);
+    cmd.arg(&out)
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("were left out").and(predicate::str::contains("no bands")));
+    assert!(out.join("samples.csv").exists() && out.join("samples.journal").exists());
+    for name in ["bands.csv", "summary.json", "bands.svg"] {
+        assert!(!out.join(name).exists(), "{name} holds statistics and is not written");
     }
 }

@@ -122,17 +122,33 @@ fn one_bad_file_among_good_ones_still_reports_the_good_ones() {
 }
 
 #[test]
-fn an_absurd_temperature_stops_at_the_time_step_cap_instead_of_exhausting_memory() {
-    // 1e30 °C makes every time step tiny; the cycle used to grow its trace until the allocator
-    // aborted. Now it stops at the cap on time steps per cycle with an error naming the step.
-    let started = std::time::Instant::now();
-    fadecast()
-        .args(["check", "examples/van-fleet-winter-fast-charge.toml", "--set", "ambient_c=1e30"])
-        .assert()
-        .code(1)
-        .stderr(predicates::str::contains("time steps (the cap on one cycle)"))
-        .stderr(predicates::str::contains("step 3 (fast charge)"));
-    assert!(started.elapsed().as_secs() < 30, "took {:?}", started.elapsed());
+fn absurd_temperatures_are_input_errors_answered_at_once() {
+    // 1e30 °C and 1e9 °C used to make every time step tiny: the cycle grew its trace until
+    // the allocator aborted (exit 134 after 10–40 s). The plausibility table now refuses them
+    // before anything runs; the cap on time steps per cycle stays as the second line
+    // (tested in tests/cycle_model.rs).
+    for args in [
+        &["check", "examples/van-fleet-winter-fast-charge.toml", "--set", "ambient_c=1e30"][..],
+        &[
+            "forecast",
+            "examples/airport-tug-2c.toml",
+            "--cycles",
+            "50",
+            "--set",
+            "ambient_c=1e9",
+            "--out",
+            "/nonexistent/never-written",
+        ][..],
+    ] {
+        let started = std::time::Instant::now();
+        fadecast().args(args).assert().code(2).stderr(one_line_naming(&[
+            "--set",
+            "ambient_c",
+            "is not a plausible value",
+            "°C",
+        ]));
+        assert!(started.elapsed().as_secs_f64() < 2.0, "{args:?} took {:?}", started.elapsed());
+    }
 }
 
 #[test]
@@ -149,4 +165,101 @@ fn thousands_of_jobs_are_refused_before_anything_is_written() {
         .stderr(predicates::str::contains("--jobs: at most"))
         .stderr(predicates::str::contains("found 100000"));
     assert!(!out.exists(), "nothing is written");
+}
+
+#[test]
+fn an_out_path_that_is_a_file_is_an_input_error_naming_it() {
+    // Used to exit 1 with "File exists (os error 17)".
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("a-file");
+    std::fs::write(&file, "x").unwrap();
+    for out in [file.clone(), file.join("below")] {
+        fadecast()
+            .args(["forecast", common::OVERNIGHT, "--cycles", "10", "--out"])
+            .arg(&out)
+            .assert()
+            .code(2)
+            .stderr(one_line_naming(&["--out", "a-file` is a file"]));
+    }
+    assert_eq!(std::fs::read(&file).unwrap(), b"x");
+}
+
+#[test]
+fn a_set_value_no_checked_file_takes_is_refused() {
+    // `check cell.toml --set bogus.key=4` used to pass silently: the value was meant for a
+    // scenario, and none was checked.
+    fadecast().args(["check", common::VAN_CELL, "--set", "bogus.key=4"]).assert().code(2).stderr(one_line_naming(&[
+        "--set",
+        "bogus.key",
+        "no such file is being checked",
+        "cell.bogus.key",
+    ]));
+    fadecast()
+        .args(["check", common::PROFILE_OVERNIGHT, "--set", "bogus.key=4"])
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["bogus.key", "profile.bogus.key"]));
+    fadecast()
+        .args(["check", common::VAN_CELL, "--set", "profile.block.0.repeat=2"])
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["profile.block.0.repeat", "no such file is being checked"]));
+}
+
+#[cfg(unix)]
+#[test]
+fn a_fifo_given_as_input_is_refused_at_once() {
+    // Reading a FIFO used to block forever.
+    let dir = tempfile::tempdir().unwrap();
+    let fifo = dir.path().join("cell.toml");
+    let made = std::process::Command::new("mkfifo").arg(&fifo).status().unwrap();
+    assert!(made.success());
+    let started = std::time::Instant::now();
+    fadecast()
+        .arg("check")
+        .arg(&fifo)
+        .timeout(std::time::Duration::from_secs(10))
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["cell.toml", "not a regular file"]));
+    assert!(started.elapsed().as_secs_f64() < 2.0);
+}
+
+#[test]
+fn a_scenario_naming_itself_as_its_profile_says_so() {
+    // Used to report "unknown key ambient_c" against a step profile's keys.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("scenario.toml");
+    let text = format!(
+        "name = \"self\"\ncell = {:?}\nprofile = \"scenario.toml\"\nambient_c = 25.0\n",
+        common::repo(common::VAN_CELL)
+    );
+    std::fs::write(&path, text).unwrap();
+    fadecast()
+        .arg("check")
+        .arg(&path)
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["scenario.toml:3: profile: names this scenario file itself"]));
+}
+
+#[test]
+fn an_uncertainty_bound_of_1e30_is_refused_before_sampling() {
+    // Its draws used to run the cycle until the allocator aborted the whole ensemble.
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = scenario_copy(dir.path(), "");
+    let mut text = std::fs::read_to_string(&scenario).unwrap();
+    text.push_str("\n[uncertainty]\n[[uncertainty.parameter]]\npath = \"ambient_c\"\ndistribution = \"uniform\"\nlow = 20.0\nhigh = 1e30\n");
+    std::fs::write(&scenario, text).unwrap();
+    let started = std::time::Instant::now();
+    fadecast()
+        .arg("bands")
+        .arg(&scenario)
+        .args(["--samples", "4", "--cycles", "10", "--quiet", "--out"])
+        .arg(dir.path().join("out"))
+        .assert()
+        .code(2)
+        .stderr(one_line_naming(&["uncertainty.parameter.0", "is not a plausible value"]));
+    assert!(started.elapsed().as_secs_f64() < 2.0);
+    assert!(!dir.path().join("out").exists());
 }

@@ -306,6 +306,28 @@ fn steady_heating_rises_by_heat_over_conductance() {
 }
 
 #[test]
+fn a_cycle_stops_at_the_cap_on_time_steps_with_an_error_naming_the_step() {
+    // The cap is what bounds memory for inputs that pass every rule yet make steps tiny;
+    // a small cap shows it is applied (the default, 500 000, takes seconds to reach).
+    let s = scenario(FAST_CHARGE, &[]);
+    let settings = SolverSettings { max_time_steps: 50, ..SolverSettings::default() };
+    let error =
+        simulate_periodic_cycle(&s, &Health::fresh(&s.cell), &settings).expect_err("50 steps cannot hold a cycle");
+    let text = error.to_string();
+    assert!(text.contains("more than 50 time steps (the cap on one cycle)"), "{text}");
+    assert!(text.contains("step "), "names the step: {text}");
+}
+
+#[test]
+fn a_cycle_stops_at_the_cap_on_simulated_time() {
+    // The overnight van cycle spans about 7 h; a cap of one hour stops it in its first steps.
+    let s = scenario(VAN, &[]);
+    let settings = SolverSettings { max_cycle_duration_s: 3600.0, ..SolverSettings::default() };
+    let error = simulate_periodic_cycle(&s, &Health::fresh(&s.cell), &settings).expect_err("7 h cannot fit in 1 h");
+    assert!(error.to_string().contains("past 0.0416"), "{error}");
+}
+
+#[test]
 fn periodic_start_repeats_itself() {
     let s = scenario(FAST_CHARGE, &[]);
     let settings = SolverSettings::default();

@@ -267,8 +267,8 @@ fn runs_of_an_earlier_journal_format_are_refused_not_read_as_empty() {
         run.to_str().unwrap(),
     ]);
     let description = std::fs::read_to_string(run.join("run.json")).unwrap();
-    assert!(description.contains("\"format\": 2"), "{description}");
-    std::fs::write(run.join("run.json"), description.replace("\"format\": 2", "\"format\": 1")).unwrap();
+    assert!(description.contains("\"format\": 3"), "{description}");
+    std::fs::write(run.join("run.json"), description.replace("\"format\": 3", "\"format\": 2")).unwrap();
     let merged = dir.path().join("merged");
     let output = fadecast().args(["merge", run.to_str().unwrap(), "--out", merged.to_str().unwrap()]).output().unwrap();
     assert_eq!(output.status.code(), Some(2));

@@ -21,8 +21,8 @@ use std::sync::Mutex;
 pub const JOURNAL_NAME: &str = "samples.journal";
 pub const RUN_NAME: &str = "run.json";
 /// Version of `run.json` and the journal's records; 2 since records carry warning kinds and
-/// typed stop reasons.
-pub const RUN_FORMAT: u32 = 2;
+/// typed stop reasons, 3 since `run.json` holds the inputs' content hashes.
+pub const RUN_FORMAT: u32 = 3;
 /// Most samples one run may ask for: a million samples keep about 1.2 GB of curves in memory.
 pub const MAX_SAMPLES: u64 = 1_000_000;
 
@@ -40,18 +40,28 @@ pub struct BandsConfig {
     pub warranty: Option<Warranty>,
     pub horizon: Option<Horizon>,
     pub resume: bool,
+    /// Start over even if the directory holds an earlier run's journal.
+    pub force: bool,
     pub quiet: bool,
     /// `--uncertainty FILE`: an `[uncertainty]` section that replaces the scenario's.
     pub uncertainty_file: Option<PathBuf>,
 }
 
 /// What a run is, written to `DIR/run.json`: shards merge only when all of it but the shard
-/// index agrees, and `--resume` only continues a run with the same description.
+/// index agrees, and `--resume` only continues a run with the same description. Inputs are
+/// compared by content: the same files under other paths (or given by other `--set` spellings
+/// that come to the same values) are the same run; one changed value is not.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RunDescription {
     pub format: u32,
+    /// The fadecast version that computed the records.
+    pub tool_version: String,
+    /// The scenario path as given (for the reader; not compared).
     pub scenario: String,
+    /// The `--set` values as given (for the reader; their effect is in `inputs`).
     pub overrides: Vec<String>,
+    /// Every input file's content hash after overrides.
+    pub inputs: Vec<input::InputDigest>,
     pub samples: u64,
     pub seed: u64,
     pub shard_index: u64,
@@ -62,8 +72,6 @@ pub struct RunDescription {
     pub warranty_years: Option<f64>,
     pub warranty_soh_pct: Option<f64>,
     pub parameters: Vec<String>,
-    /// The uncertainty section as understood, so a changed file is caught.
-    pub specification: String,
     pub cycling: bool,
     pub grid: Vec<(f64, f64)>,
     pub scenario_name: String,
@@ -72,8 +80,49 @@ pub struct RunDescription {
 }
 
 impl RunDescription {
-    fn same_run_as(&self, other: &RunDescription) -> bool {
-        RunDescription { shard_index: 0, ..self.clone() } == RunDescription { shard_index: 0, ..other.clone() }
+    /// What makes `other` a different run from this one (shard index aside), in words, or
+    /// None when both describe the same run.
+    fn difference_from(&self, other: &RunDescription) -> Option<String> {
+        if self.tool_version != other.tool_version {
+            return Some(format!("computed by fadecast {}, this is {}", other.tool_version, self.tool_version));
+        }
+        for mine in &self.inputs {
+            match other.inputs.iter().find(|theirs| theirs.role == mine.role) {
+                Some(theirs) if theirs.same_content(mine) => {}
+                Some(theirs) => {
+                    return Some(format!(
+                        "the {} file's content differs (`{}` now, `{}` then, after --set values)",
+                        role_name(mine.role),
+                        mine.path,
+                        theirs.path
+                    ))
+                }
+                None => return Some(format!("the run had no {} file", role_name(mine.role))),
+            }
+        }
+        if let Some(theirs) = other.inputs.iter().find(|t| !self.inputs.iter().any(|m| m.role == t.role)) {
+            return Some(format!("the run had a {} file (`{}`) this one lacks", role_name(theirs.role), theirs.path));
+        }
+        let comparable = |d: &RunDescription| RunDescription {
+            shard_index: 0,
+            scenario: String::new(),
+            overrides: Vec::new(),
+            inputs: Vec::new(),
+            input_warnings: Vec::new(),
+            ..d.clone()
+        };
+        (comparable(self) != comparable(other))
+            .then(|| "samples, seed, shard count, horizon, quantiles, warranty or sampled parameters differ".into())
+    }
+}
+
+fn role_name(role: input::InputRole) -> &'static str {
+    match role {
+        input::InputRole::Scenario => "scenario",
+        input::InputRole::Cell => "cell",
+        input::InputRole::Profile => "step profile",
+        input::InputRole::Series => "time series",
+        input::InputRole::Uncertainty => "uncertainty",
     }
 }
 
@@ -161,10 +210,16 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
     }
     let sampler = Sampler::new(&spec, config.seed, config.samples)
         .map_err(|e| InputError::new(&config.scenario, format!("uncertainty: {e}")))?;
+    let mut inputs = template.input_digests()?;
+    if let Some(file) = &config.uncertainty_file {
+        inputs.push(input::file_digest(input::InputRole::Uncertainty, file)?);
+    }
     let description = RunDescription {
         format: RUN_FORMAT,
+        tool_version: env!("CARGO_PKG_VERSION").to_string(),
         scenario: config.scenario.display().to_string(),
         overrides: config.overrides_text.clone(),
+        inputs,
         samples: config.samples,
         seed: config.seed,
         shard_index: config.shard.index,
@@ -181,7 +236,6 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
         warranty_years: config.warranty.map(|w| w.years),
         warranty_soh_pct: config.warranty.map(|w| w.soh_pct),
         parameters: spec.parameters.iter().map(|p| p.path.clone()).collect(),
-        specification: format!("{spec:?}"),
         cycling: loaded.plan.usage.cycles_per_day > 0.0,
         grid: grid.clone(),
         scenario_name: loaded.scenario.name.clone(),
@@ -192,17 +246,29 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
     let mut previous = Vec::new();
     if config.resume {
         let earlier = read_description(&config.out_dir)?;
-        if !earlier.same_run_as(&description) || earlier.shard_index != description.shard_index {
+        let difference = description.difference_from(&earlier).or_else(|| {
+            (earlier.shard_index != description.shard_index)
+                .then(|| format!("it is shard {}/{}", earlier.shard_index, earlier.shard_count))
+        });
+        if let Some(difference) = difference {
             return Err(InputError::command_line_flag(
                 "--resume",
-                format!(
-                    "{} holds a different run (scenario, options or uncertainty changed); start a new --out",
-                    config.out_dir.display()
-                ),
+                format!("{} holds a different run: {difference}; start a new --out", config.out_dir.display()),
             )
             .into());
         }
-        previous = report::decode_journal(&fs::read(&journal_path).unwrap_or_default());
+        let shard = Shard { index: description.shard_index, count: description.shard_count };
+        previous = read_journal(&journal_path, shard, description.samples, Completeness::Partial)?;
+    } else if !config.force && journal_holds_records(&journal_path) {
+        return Err(InputError::command_line_flag(
+            "--out",
+            format!(
+                "{} holds the journal of an earlier run; give --resume to continue it, --force to discard it, \
+                 or another --out",
+                config.out_dir.display()
+            ),
+        )
+        .into());
     }
     fs::create_dir_all(&config.out_dir)
         .map_err(|source| report::ReportError::Io { path: config.out_dir.clone(), source })?;
@@ -339,19 +405,16 @@ fn finish(
         "shard": format!("{}/{}", description.shard_index, description.shard_count),
         "parameters": description.parameters,
     });
-    let bands = report::bands_csv(&summary)?;
     let samples = report::samples_csv(records, &description.parameters, warranty.is_some())?;
+    if summary.statistics_refused() {
+        return refuse_statistics(description, records, &summary, &samples, out_dir, out);
+    }
+    let bands = report::bands_csv(&summary)?;
     let json = report::ensemble_json(&summary, &run_value, &warnings)?;
     let bands_plot =
         report::bands_svg(&summary, &format!("{}: fade bands", description.scenario_name), description.cycling)?;
     let sensitivity = report::sensitivity_svg(&summary, &format!("{}: what drives life", description.scenario_name))?;
-    // The journal, sorted by sample, streamed: at 100 000 samples it is as large as the records.
-    report::write_atomic_streamed(out_dir, JOURNAL_NAME, |w| {
-        for record in records {
-            w.write_all(&report::encode_record(record))?;
-        }
-        Ok(())
-    })?;
+    write_journal(out_dir, records)?;
     let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
     let written = report::write_all_atomic(
         out_dir,
@@ -373,50 +436,161 @@ fn finish(
     Ok(())
 }
 
+/// The journal sorted by sample, streamed: at 100 000 samples it is as large as the records.
+fn write_journal(out_dir: &Path, records: &[SampleRecord]) -> Result<(), CliError> {
+    report::write_atomic_streamed(out_dir, JOURNAL_NAME, |w| {
+        for record in records {
+            w.write_all(&report::encode_record(record))?;
+        }
+        Ok(())
+    })?;
+    Ok(())
+}
+
+/// The names of the files that carry a run's statistics.
+const STATISTICS_FILES: [&str; 4] = ["bands.csv", "summary.json", "bands.svg", "sensitivity.svg"];
+
+/// Ends a run whose left-out samples are too many for statistics: the journal, the run's
+/// description and samples.csv (every sample with its drawn values and why it was left out) are
+/// written, statistics from an earlier run in the directory are removed, and the run fails.
+fn refuse_statistics(
+    description: &RunDescription,
+    records: &[SampleRecord],
+    summary: &crate::ensemble::EnsembleSummary,
+    samples_csv: &[u8],
+    out_dir: &Path,
+    out: &mut impl Write,
+) -> Result<(), CliError> {
+    write_journal(out_dir, records)?;
+    let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
+    let written =
+        report::write_all_atomic(out_dir, &[("samples.csv", samples_csv), (RUN_NAME, description_bytes.as_slice())])?;
+    for name in STATISTICS_FILES {
+        let stale = out_dir.join(name);
+        if stale.exists() {
+            fs::remove_file(&stale).map_err(|source| report::ReportError::Io { path: stale.clone(), source })?;
+        }
+    }
+    let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
+    writeln!(out, "Wrote {}", names.join(", "))?;
+    Err(CliError::Forecast(report::statistics_refused_text(summary, crate::ensemble::MOST_LEFT_OUT_FRACTION)))
+}
+
+/// Whether a journal exists with at least one byte in it.
+fn journal_holds_records(path: &Path) -> bool {
+    fs::metadata(path).is_ok_and(|m| m.len() > 0)
+}
+
+/// Whether a journal must hold every sample of its shard (`merge`) or may stop short (`--resume`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Completeness {
+    Whole,
+    Partial,
+}
+
+/// The records of a shard's journal, checked: none corrupt, none outside the shard or beyond the
+/// run's samples, none twice, and (for a merge) none missing. Errors name the sample.
+fn read_journal(
+    path: &Path,
+    shard: Shard,
+    samples: u64,
+    completeness: Completeness,
+) -> Result<Vec<SampleRecord>, CliError> {
+    let bytes = match fs::read(path) {
+        Ok(bytes) => bytes,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound && completeness == Completeness::Partial => Vec::new(),
+        Err(e) => return Err(InputError::unreadable(path, &e).into()),
+    };
+    let read = report::decode_journal(&bytes);
+    let problem = |rule: String| -> CliError { InputError::new(path, rule).into() };
+    match read.ending {
+        report::JournalEnding::Corrupt { record, sample } => {
+            let which = sample.map_or(String::new(), |s| format!(" (it claims sample {})", s + 1));
+            return Err(problem(format!(
+                "record {record}{which} fails its checksum: the journal was changed or damaged; \
+                 run the shard again (--force) rather than merge or resume it"
+            )));
+        }
+        report::JournalEnding::TornTail if completeness == Completeness::Whole => {
+            return Err(problem(format!(
+                "ends in a record cut short after {} whole records: the shard was interrupted; finish it with --resume",
+                read.records.len()
+            )));
+        }
+        _ => {}
+    }
+    let mut seen = BTreeSet::new();
+    for record in &read.records {
+        if record.index >= samples || !shard.contains(record.index) {
+            return Err(problem(format!(
+                "holds sample {}, which is not one of shard {}/{}'s {samples} samples",
+                record.index + 1,
+                shard.index,
+                shard.count
+            )));
+        }
+        if !seen.insert(record.index) {
+            return Err(problem(format!("holds sample {} twice", record.index + 1)));
+        }
+    }
+    if completeness == Completeness::Whole {
+        if let Some(missing) = (0..samples).find(|&i| shard.contains(i) && !seen.contains(&i)) {
+            let expected = (0..samples).filter(|&i| shard.contains(i)).count();
+            return Err(problem(format!(
+                "lacks sample {} (holds {} of shard {}/{}'s {expected} samples); finish it with --resume",
+                missing + 1,
+                seen.len(),
+                shard.index,
+                shard.count
+            )));
+        }
+    }
+    Ok(read.records)
+}
+
 /// `fadecast merge DIR... --out DIR`: combines the shards of one run exactly.
 pub fn merge(dirs: &[PathBuf], out_dir: &Path, out: &mut impl Write) -> Result<(), CliError> {
-    let mut descriptions = Vec::new();
+    let mut descriptions: Vec<(PathBuf, RunDescription)> = Vec::new();
     let mut records = Vec::new();
     for dir in dirs {
         let d = read_description(dir)?;
-        let journal = dir.join(JOURNAL_NAME);
-        let shard_records =
-            report::decode_journal(&fs::read(&journal).map_err(|e| InputError::unreadable(&journal, &e))?);
-        let shard = Shard { index: d.shard_index, count: d.shard_count };
-        let expected = (0..d.samples).filter(|&i| shard.contains(i)).count();
-        if shard_records.len() != expected || shard_records.iter().any(|r| !shard.contains(r.index)) {
-            return Err(InputError::new(
-                &journal,
+        if let Some((earlier, _)) = descriptions.iter().find(|(_, e)| e.shard_index == d.shard_index) {
+            return Err(InputError::command_line_flag(
+                "merge",
                 format!(
-                    "shard {}/{} holds {} of its {expected} samples; finish it with --resume first",
+                    "shard {}/{} is given twice: {} and {}",
                     d.shard_index,
                     d.shard_count,
-                    shard_records.len()
+                    earlier.display(),
+                    dir.display()
                 ),
             )
             .into());
         }
-        records.extend(shard_records);
+        let shard = Shard { index: d.shard_index, count: d.shard_count };
+        records.extend(read_journal(&dir.join(JOURNAL_NAME), shard, d.samples, Completeness::Whole)?);
         descriptions.push((dir.clone(), d));
     }
-    let Some((_, first)) = descriptions.first() else {
+    let Some((first_dir, first)) = descriptions.first() else {
         return Err(InputError::command_line_flag("merge", "give the shard directories to merge").into());
     };
-    let first = first.clone();
+    let (first_dir, first) = (first_dir.clone(), first.clone());
     for (dir, d) in &descriptions {
-        if !d.same_run_as(&first) {
+        if let Some(difference) = d.difference_from(&first) {
             return Err(InputError::new(
                 dir.join(RUN_NAME),
-                "not a shard of the same run (scenario, samples, seed or options differ)",
+                format!("not a shard of the same run as {}: {difference}", first_dir.display()),
             )
             .into());
         }
     }
-    let indices: BTreeSet<u64> = descriptions.iter().map(|(_, d)| d.shard_index).collect();
-    if indices.len() != descriptions.len() || indices.len() as u64 != first.shard_count {
+    if let Some(missing) = (1..=first.shard_count).find(|k| !descriptions.iter().any(|(_, d)| d.shard_index == *k)) {
         return Err(InputError::command_line_flag(
             "merge",
-            format!("need each of the {} shards exactly once, found shards {:?}", first.shard_count, indices),
+            format!(
+                "shard {missing}/{} is missing; give each of the {} shards once",
+                first.shard_count, first.shard_count
+            ),
         )
         .into());
     }

@@ -3,7 +3,7 @@
 
 use super::{caution_lines, print_caution, scenario_header, CliError};
 use crate::cycle::{balance_cell, simulate_periodic_cycle, Cell, Health, SolverSettings};
-use crate::input::{self, InputKind, Override};
+use crate::input::{self, InputError, InputKind, Override, OverrideTarget};
 use crate::material::constants::SECONDS_PER_HOUR;
 use crate::report;
 use std::fmt::Write as _;
@@ -21,6 +21,9 @@ pub struct CheckConfig {
 /// Checks every file, even after one fails, so one run lists every bad file.
 pub fn run(config: &CheckConfig, out: &mut impl Write) -> Result<(), CliError> {
     let mut failures = Vec::new();
+    if let Some(error) = unused_override(config) {
+        failures.push(error.into());
+    }
     let mut reported = 0;
     for path in &config.files {
         // Each file's report is built in full first, so a failure prints no partial report.
@@ -45,11 +48,51 @@ pub fn run(config: &CheckConfig, out: &mut impl Write) -> Result<(), CliError> {
     }
 }
 
+/// A `--set` value that no checked file takes: a scenario key when no scenario is checked, a
+/// `cell.` key with neither a cell nor a scenario, a `profile.` key with neither a profile nor a
+/// scenario. Silently ignoring it would report a file as checked with a value it never saw.
+fn unused_override(config: &CheckConfig) -> Option<InputError> {
+    let kinds: Vec<InputKind> = config.files.iter().filter_map(|path| input::detect_kind(path).ok()).collect();
+    let has = |kind: InputKind| kinds.contains(&kind);
+    config.overrides.iter().find_map(|item| {
+        let taken = match item.target {
+            OverrideTarget::Scenario => has(InputKind::Scenario),
+            OverrideTarget::Cell => has(InputKind::Cell) || has(InputKind::Scenario),
+            OverrideTarget::Profile => has(InputKind::Profile) || has(InputKind::Scenario),
+        };
+        let hint = if has(InputKind::Cell) {
+            format!("; for the cell file write `cell.{}`", item.path.join("."))
+        } else if has(InputKind::Profile) {
+            format!("; for the step profile write `profile.{}`", item.path.join("."))
+        } else {
+            String::new()
+        };
+        let what = match item.target {
+            OverrideTarget::Scenario => "a scenario",
+            OverrideTarget::Cell => "a cell (or a scenario's cell)",
+            OverrideTarget::Profile => "a step profile (or a scenario's profile)",
+        };
+        (!taken).then(|| {
+            InputError::command_line(
+                item.key(),
+                format!("sets a value of {what}, but no such file is being checked{hint}"),
+            )
+        })
+    })
+}
+
 fn check_file(path: &Path, overrides: &[Override]) -> Result<String, CliError> {
     let text = match input::detect_kind(path)? {
         InputKind::Cell => {
-            let cell = input::load_cell(path, overrides)?.cell;
-            format!("{}: cell \"{}\"\n{}", path.display(), cell.name, cell_section(&cell))
+            let loaded = input::load_cell(path, overrides)?;
+            let mut text = format!("{}: cell \"{}\"\n{}", path.display(), loaded.cell.name, cell_section(&loaded.cell));
+            if !loaded.warnings.is_empty() {
+                text.push_str("Input warnings\n");
+                for warning in &loaded.warnings {
+                    let _ = writeln!(text, "  {warning}");
+                }
+            }
+            text
         }
         kind @ (InputKind::Profile | InputKind::Series) => {
             let (duty, start_soc) = input::load_duty(path, ONE_AH_COULOMB, overrides)?;

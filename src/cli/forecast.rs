@@ -38,6 +38,9 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
     let scenario = &loaded.scenario;
     let options = ForecastOptions { every_cycle: config.every_cycle, ..ForecastOptions::default() };
     let forecast = run_forecast(scenario, &loaded.plan, horizon, &options);
+    if let Some(error) = super::usage_problem(&config.scenario, &config.overrides, &forecast.stop) {
+        return Err(error.into());
+    }
 
     // Render everything before touching the disk; a failed run still keeps the rows it computed.
     let csv = report::fade_csv(&forecast.points, &forecast.scale)?;

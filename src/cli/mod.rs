@@ -157,6 +157,9 @@ enum Command {
         /// Continue the interrupted run in DIR, keeping the samples it finished.
         #[arg(long)]
         resume: bool,
+        /// Start over in a DIR that holds an earlier run's journal, discarding it.
+        #[arg(long, conflicts_with = "resume")]
+        force: bool,
         /// No progress bar.
         #[arg(long)]
         quiet: bool,
@@ -300,6 +303,7 @@ impl CliError {
 pub fn run() -> Result<(), CliError> {
     let Arguments { overrides: before_command, command } = Arguments::parse();
     let mut stdout = std::io::stdout().lock();
+    check_out_dir(&command)?;
     match command {
         Command::Check { files, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
@@ -326,6 +330,7 @@ pub fn run() -> Result<(), CliError> {
             out,
             horizon,
             resume,
+            force,
             quiet,
             uncertainty,
             overrides,
@@ -346,6 +351,7 @@ pub fn run() -> Result<(), CliError> {
                 warranty: warranty.as_deref().map(bands::parse_warranty).transpose()?,
                 horizon: horizon.parse()?,
                 resume,
+                force,
                 quiet,
                 uncertainty_file: uncertainty,
             };
@@ -390,6 +396,55 @@ pub fn run() -> Result<(), CliError> {
     }
 }
 
+/// Refuses, before any work, an output directory that cannot be one: a path that is a file,
+/// or lies under a file, or (for `merge`) one of the shard directories being merged.
+fn check_out_dir(command: &Command) -> Result<(), InputError> {
+    let (out, inputs): (&Path, &[PathBuf]) = match command {
+        Command::Check { .. } => return Ok(()),
+        Command::Cycle { out, .. }
+        | Command::Forecast { out, .. }
+        | Command::Bands { out, .. }
+        | Command::Compare { out, .. }
+        | Command::Table { out, .. }
+        | Command::Fit { out, .. } => (out, &[]),
+        Command::Merge { out, shards } => (out, shards),
+    };
+    let same = |a: &Path, b: &Path| match (std::fs::canonicalize(a), std::fs::canonicalize(b)) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => a == b,
+    };
+    if let Some(input) = inputs.iter().find(|input| same(out, input)) {
+        return Err(InputError::command_line_flag(
+            "--out",
+            format!("`{}` is one of the inputs being merged; give a new directory", input.display()),
+        ));
+    }
+    // The nearest part of the path that exists must be a directory.
+    let mut existing = Some(out);
+    while let Some(path) = existing {
+        if path.as_os_str().is_empty() {
+            break;
+        }
+        if let Ok(metadata) = std::fs::metadata(path) {
+            if metadata.is_dir() {
+                return Ok(());
+            }
+            let rule = if path == out {
+                format!("`{}` is a file, not a directory; give a directory (created if missing)", out.display())
+            } else {
+                format!(
+                    "`{}` is a file, so `{}` cannot be created; give another directory",
+                    path.display(),
+                    out.display()
+                )
+            };
+            return Err(InputError::command_line_flag("--out", rule));
+        }
+        existing = path.parent();
+    }
+    Ok(())
+}
+
 /// Worker threads allowed per core: more only add memory and switching, never speed.
 const MAX_JOBS_PER_CORE: usize = 8;
 
@@ -414,6 +469,18 @@ fn parse_jobs(jobs: Option<usize>) -> Result<usize, InputError> {
 /// The `--set` values given before and after the command name, in that order.
 fn parse_overrides(before_command: &OverrideArgs, after_command: &OverrideArgs) -> Result<Vec<Override>, InputError> {
     before_command.set.iter().chain(&after_command.set).map(|text| input::parse_override(text)).collect()
+}
+
+/// The forecast's stop as an input error, when it stopped because the scenario's usage asks
+/// more of a day than the duty cycle leaves (a rule of the inputs only a simulated cycle shows).
+fn usage_problem(scenario: &Path, overrides: &[Override], stop: &crate::forecast::StopReason) -> Option<InputError> {
+    match stop {
+        crate::forecast::StopReason::Failed {
+            failure: failure @ crate::forecast::ForecastFailure::UsageExceedsDay { .. },
+            ..
+        } => Some(input::scenario_problem(scenario, overrides, "usage.cycles_per_day", failure.to_string())),
+        _ => None,
+    }
 }
 
 /// Closes a command's output: every result fadecast prints ends with the caution.

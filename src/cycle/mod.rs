@@ -26,4 +26,5 @@ pub use record::{CycleRecord, EndReason, StepSummary, StressHistory, TracePoint}
 pub use response::{CellModel, CellState, Health};
 pub use stepper::{
     simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CycleError, CycleRun, SolverSettings,
+    MAX_STEP_DURATION_S,
 };

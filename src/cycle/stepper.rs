@@ -38,6 +38,9 @@ pub const MAX_STEP_AT_REST_S: f64 = 900.0;
 pub const END_TOLERANCE_V: f64 = 2e-4;
 /// Default duration after which a step is taken never to end: a week, s.
 pub const MAX_STEP_DURATION_S: f64 = 7.0 * 86_400.0;
+/// Simulated time one cycle may span: a year. Longer is no duty cycle (usage repeats it at
+/// least once a year) and only multiplies work.
+pub const MAX_CYCLE_DURATION_S: f64 = 366.0 * 86_400.0;
 /// Default number of warm-up cycles allowed to reach the periodic state.
 pub const MAX_WARMUP_CYCLES: usize = 8;
 /// Time steps one cycle may take. A usual cycle takes a few hundred and a day of a measured
@@ -120,6 +123,8 @@ pub struct SolverSettings {
     pub periodic_tolerance: f64,
     /// Time steps one cycle may take before it is abandoned with an error.
     pub max_time_steps: usize,
+    /// Simulated time one cycle may span before it is abandoned with an error, s.
+    pub max_cycle_duration_s: f64,
 }
 
 impl Default for SolverSettings {
@@ -135,6 +140,7 @@ impl Default for SolverSettings {
             max_step_duration_s: MAX_STEP_DURATION_S,
             max_warmup_cycles: MAX_WARMUP_CYCLES,
             max_time_steps: MAX_TIME_STEPS_PER_CYCLE,
+            max_cycle_duration_s: MAX_CYCLE_DURATION_S,
             periodic_tolerance: PERIODIC_TOLERANCE,
         }
     }
@@ -557,6 +563,13 @@ impl Stepper<'_> {
             let detail = format!(
                 "the cycle needs more than {} time steps (the cap on one cycle); the inputs make every step tiny — check temperatures, currents and powers for a slip of units",
                 self.settings.max_time_steps
+            );
+            return Err(self.fail(step, label, detail));
+        }
+        if self.time_s + trial.dt > self.settings.max_cycle_duration_s {
+            let detail = format!(
+                "the cycle runs past {} days of simulated time (the cap on one cycle); shorten its steps or repeats",
+                self.settings.max_cycle_duration_s / 86_400.0
             );
             return Err(self.fail(step, label, detail));
         }

@@ -14,4 +14,4 @@ pub use sampling::{check_spec, sample_stream, Sampler, SamplingError, MAX_SAMPLE
 pub use spec::{CorrelationGroup, Distribution, Sampling, UncertainParameter, UncertaintySpec};
 pub use stats::{clopper_pearson, quantile, quantile_standard_error, spearman};
 pub use status::SampleStatus;
-pub use summary::{summarize, EnsembleSummary};
+pub use summary::{summarize, EnsembleSummary, MOST_LEFT_OUT_FRACTION};

@@ -54,6 +54,12 @@ pub struct BandPoint {
     pub values: [Vec<f64>; 3],
 }
 
+/// The largest share of a run's samples that may be left out (invalid draws, forecasts that
+/// failed before end of life) with statistics still reported. Left-out draws are rarely a fair
+/// sample (they sit at the edges of the ranges), so beyond this the quantiles would describe
+/// a different population. Common practice, no source.
+pub const MOST_LEFT_OUT_FRACTION: f64 = 0.1;
+
 #[derive(Debug, Clone, PartialEq)]
 pub struct EnsembleSummary {
     pub samples: u64,
@@ -73,6 +79,19 @@ pub struct EnsembleSummary {
     /// Every kind of warning with the number of counted samples that gave it (kinds no
     /// sample gave are left out).
     pub warning_counts: Vec<(WarningKind, usize)>,
+}
+
+impl EnsembleSummary {
+    /// Samples that ran but are not counted, plus invalid draws.
+    pub fn left_out(&self) -> u64 {
+        self.samples - self.counted
+    }
+
+    /// Whether too many samples were left out for the statistics to stand
+    /// ([`MOST_LEFT_OUT_FRACTION`]).
+    pub fn statistics_refused(&self) -> bool {
+        self.samples > 0 && self.left_out() as f64 > MOST_LEFT_OUT_FRACTION * self.samples as f64
+    }
 }
 
 /// Summarises records (sorted by index) of a run over `grid` (the reported (cycle, day) points);

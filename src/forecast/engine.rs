@@ -28,6 +28,9 @@ use ode_solvers::{DVector, Dopri5, OutputType, System};
 use std::cell::RefCell;
 
 const SECONDS_PER_DAY: f64 = 86_400.0;
+/// How far past its share of the day the fresh cell's cycle may run before the usage is
+/// refused: a rounding margin, not a licence.
+const USAGE_DAY_TOLERANCE: f64 = 1e-3;
 const DAYS_PER_YEAR: f64 = 365.25;
 /// Length and C-rate of the resistance pulse.
 const PULSE_S: f64 = 10.0;
@@ -140,6 +143,14 @@ impl<'a> Forecaster<'a> {
         let (cycle, idle_s) = if self.cycling() {
             self.simulate(x, &health, &balance, ambient, &mut record)?;
             let period = SECONDS_PER_DAY / self.plan.usage.cycles_per_day;
+            // Checked on the fresh cell's cycle: the usage is the user's, a cycle that later
+            // lengthens with age is the forecast's business.
+            if x == 0.0 && record.duration_s > period * (1.0 + USAGE_DAY_TOLERANCE) {
+                return Err(RateFailure::Failed(ForecastFailure::UsageExceedsDay {
+                    cycles_per_day: self.plan.usage.cycles_per_day,
+                    cycle_duration_s: record.duration_s,
+                }));
+            }
             (Some(&*record), (period - record.duration_s).max(0.0))
         } else {
             (None, SECONDS_PER_DAY)

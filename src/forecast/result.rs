@@ -175,6 +175,15 @@ pub enum ForecastFailure {
     /// The horizon does not suit the usage (cycles asked of a storage-only scenario).
     #[error("storage-only usage (0 cycles per day) needs a horizon in years")]
     HorizonNeedsYears,
+    /// The fresh cell's duty cycle takes longer than the usage leaves it: the cycles asked
+    /// for do not fit in a day.
+    #[error(
+        "{cycles_per_day} cycles a day of {:.2} h each need {:.1} h a day; at most {:.3} such cycles fit in a day",
+        cycle_duration_s / 3600.0,
+        cycles_per_day * cycle_duration_s / 3600.0,
+        86_400.0 / cycle_duration_s
+    )]
+    UsageExceedsDay { cycles_per_day: f64, cycle_duration_s: f64 },
     /// One duty cycle could not be simulated.
     #[error("{detail}")]
     Cycle { detail: String },

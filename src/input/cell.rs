@@ -9,6 +9,7 @@ use super::document::{check_shape, TomlDocument};
 use super::error::{first_problem, InputError};
 use super::mechanisms::{convert_calibration, reject_misplaced, CalibrationSection, Surroundings, TableRules};
 use super::overrides::{Override, OverrideTarget};
+use super::plausible::{report_implausible, unusual_values};
 use super::suggest;
 use super::units::{CUBIC_CENTIMETRE, GIGA, KILO, MICRO, MILLI};
 use crate::aging::{self, MechanismTable, Side};
@@ -20,6 +21,9 @@ use crate::material::{BuiltinOcp, OpenCircuit};
 const DEFAULT_REFERENCE_TEMPERATURE_C: f64 = 25.0;
 const DEFAULT_SHELLS: i64 = 16;
 const SHELL_RANGE: (i64, i64) = (4, 200);
+/// Nominal capacity over the charge of the smaller electrode window: wide enough for any
+/// real rating, narrow enough to catch a factor-of-1000 slip.
+const NOMINAL_TO_WINDOW_RANGE: (f64, f64) = (0.2, 1.5);
 
 /// The cell file as written (units as in the key suffixes).
 #[derive(Debug, Deserialize)]
@@ -129,6 +133,8 @@ pub struct LoadedCell {
     pub aging: AgingParams,
     /// The aging data the parameters were calibrated on, if the file says.
     pub calibration: Option<CalibrationRange>,
+    /// Values outside their usual range (`file:line: key: warning: …`).
+    pub warnings: Vec<String>,
 }
 
 /// Reads, overrides, checks and converts a cell file; the first problem is the error.
@@ -206,6 +212,9 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<LoadedCell, V
     let positive = convert_electrode(&mut checks, Side::Positive, &file.positive);
     let aging = convert_aging(&mut checks, &file, reference_temperature_c);
     let calibration = file.calibration.as_ref().map(|section| convert_calibration(&mut checks, section));
+    check_capacity_matches_electrodes(&mut checks, &file, &negative, &positive);
+    report_implausible(&mut checks, document);
+    let warnings = unusual_values(document);
 
     let cell = Cell {
         name: file.name.trim().to_string(),
@@ -231,7 +240,40 @@ fn convert_cell(document: &TomlDocument, file: CellFile) -> Result<LoadedCell, V
         // the other aging laws.
         plating: aging.plating,
     };
-    checks.finish(LoadedCell { cell, aging, calibration })
+    checks.finish(LoadedCell { cell, aging, calibration, warnings })
+}
+
+/// The nominal capacity cannot be far from the charge the electrodes' windows hold: a cell
+/// rated at 5000 Ah on electrodes holding 5 Ah (a mAh slip, or a pasted value) would have
+/// every C-rate wrong by the same factor. Common practice, no source: rated capacity lies
+/// within a few per cent of the smaller window's charge.
+fn check_capacity_matches_electrodes(
+    checks: &mut Checks<'_>,
+    file: &CellFile,
+    negative: &Electrode,
+    positive: &Electrode,
+) {
+    let negative_ah =
+        (negative.stoich_at_soc100 - negative.stoich_at_soc0) * negative.capacity_coulomb() / SECONDS_PER_HOUR;
+    let positive_ah =
+        (positive.stoich_at_soc0 - positive.stoich_at_soc100) * positive.capacity_coulomb() / SECONDS_PER_HOUR;
+    let held_ah = negative_ah.min(positive_ah);
+    let nominal_ah = file.nominal_capacity_ah;
+    if !(held_ah.is_finite() && held_ah > 0.0 && nominal_ah.is_finite() && nominal_ah > 0.0) {
+        return; // Reported by the rules of the values themselves.
+    }
+    let ratio = nominal_ah / held_ah;
+    if !(NOMINAL_TO_WINDOW_RANGE.0..=NOMINAL_TO_WINDOW_RANGE.1).contains(&ratio) {
+        checks.report(
+            "nominal_capacity_ah",
+            format!(
+                "{nominal_ah} Ah is {ratio:.3} times the {held_ah:.4} Ah the electrodes hold between 0 and 100 % \
+                 state of charge; it must lie within {}–{} times that (check the unit: Ah, not mAh; and the \
+                 electrodes' thickness, area and active fraction)",
+                NOMINAL_TO_WINDOW_RANGE.0, NOMINAL_TO_WINDOW_RANGE.1
+            ),
+        );
+    }
 }
 
 fn convert_electrode(checks: &mut Checks<'_>, side: Side, section: &ElectrodeSection) -> Electrode {

@@ -7,16 +7,26 @@ use super::error::InputError;
 pub(crate) struct Checks<'d> {
     document: &'d TomlDocument,
     problems: Vec<InputError>,
+    /// How many problems at the front explain the rest (see [`Checks::report_leading`]).
+    leading: usize,
 }
 
 impl<'d> Checks<'d> {
     pub fn new(document: &'d TomlDocument) -> Self {
-        Self { document, problems: Vec::new() }
+        Self { document, problems: Vec::new(), leading: 0 }
     }
 
     pub fn report(&mut self, key: &str, rule: impl Into<String>) {
         let problem = self.document.problem(key, rule);
         self.problems.push(problem);
+    }
+
+    /// Reports a problem ahead of those found so far: an implausible value (a radius typed in
+    /// metres) explains the rules it breaks downstream, so it is the one to show first.
+    pub fn report_leading(&mut self, key: &str, rule: impl Into<String>) {
+        let problem = self.document.problem(key, rule);
+        self.problems.insert(self.leading, problem);
+        self.leading += 1;
     }
 
     /// Reports two keys that must not both be given against the one a `--set` value gave,
@@ -67,6 +77,12 @@ impl<'d> Checks<'d> {
         if self.finite(key, value) && value <= -crate::material::constants::ZERO_CELSIUS_K {
             self.report(key, format!("must be above absolute zero (−273.15 °C), found {value}"));
         }
+    }
+
+    /// Whether a problem is already recorded against `key`.
+    pub fn has_problem_at(&self, key: &str) -> bool {
+        let placed = self.document.problem(key, "");
+        self.problems.iter().any(|p| p.key == placed.key && p.file == placed.file)
     }
 
     pub fn problem_count(&self) -> usize {

@@ -164,9 +164,32 @@ pub(crate) fn check_shape<T: DeserializeOwned>(
     TomlDocument::read_overridden(path, target, overrides)?.deserialize::<T>().map(drop)
 }
 
-/// Reads a whole input file as UTF-8 text.
+/// The largest input file read: far above any cell, profile or measured day (a one-second
+/// series of a year is about 30 MB), small enough that memory stays bounded.
+pub const MAX_INPUT_BYTES: u64 = 64 * 1024 * 1024;
+
+/// Reads a whole input file as UTF-8 text. Only regular files are read (a FIFO or a device
+/// would block or never end), and none larger than [`MAX_INPUT_BYTES`].
 pub(crate) fn read_text(path: &Path) -> Result<String, InputError> {
-    let bytes = std::fs::read(path).map_err(|error| InputError::unreadable(path, &error))?;
+    use std::io::Read;
+    let metadata = std::fs::metadata(path).map_err(|error| InputError::unreadable(path, &error))?;
+    if !metadata.is_file() {
+        let what = if metadata.is_dir() { "a directory" } else { "not a regular file (a pipe or a device?)" };
+        return Err(InputError::new(path, format!("is {what}; give the path of an input file")));
+    }
+    if metadata.len() > MAX_INPUT_BYTES {
+        return Err(InputError::new(
+            path,
+            format!("is {} bytes; input files may hold at most {MAX_INPUT_BYTES} bytes", metadata.len()),
+        ));
+    }
+    let file = std::fs::File::open(path).map_err(|error| InputError::unreadable(path, &error))?;
+    let mut bytes = Vec::new();
+    // The file may grow after the size check; read no more than the cap allows.
+    file.take(MAX_INPUT_BYTES + 1).read_to_end(&mut bytes).map_err(|error| InputError::unreadable(path, &error))?;
+    if bytes.len() as u64 > MAX_INPUT_BYTES {
+        return Err(InputError::new(path, format!("input files may hold at most {MAX_INPUT_BYTES} bytes")));
+    }
     String::from_utf8(bytes).map_err(|error| {
         InputError::new(
             path,

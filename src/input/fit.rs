@@ -156,6 +156,7 @@ pub fn load_fit(path: &Path, overrides: &[Override]) -> Result<LoadedFit, InputE
         }
         let name = entry.name.clone().unwrap_or_else(|| format!("dataset {}", d + 1));
         let (axis, points) = load_measured(&data_path)?;
+        check_measured_scale(&data_path, &points, &loaded.scenario.cell)?;
         datasets.push(Dataset { name, axis, points });
         sources.push(DatasetSource { scenario_path, data_path, overrides: dataset_overrides });
         first_scenario.get_or_insert(loaded);
@@ -239,6 +240,56 @@ fn value_at(path: &str, source: &DatasetSource, loaded: &LoadedScenario) -> Resu
         toml::Value::Integer(x) => Ok(x as f64),
         _ => Err(format!("`{path}` does not hold a number in {}", file.display())),
     }
+}
+
+/// Measured capacity over the cell's nominal capacity: fade data lie within this (a column in
+/// mAh is 1000 times off). Common practice, no source.
+const CAPACITY_TO_NOMINAL_RANGE: (f64, f64) = (0.2, 2.0);
+/// Measured resistance over the cell file's ohmic plus film resistance: a DC resistance is a
+/// few times the ohmic part, never a thousand times more or less (a column in Ω). Common
+/// practice, no source.
+const RESISTANCE_TO_CELL_RANGE: (f64, f64) = (0.05, 100.0);
+
+/// Refuses measured data whose scale cannot belong to the cell (a unit slip in a column):
+/// the median of each column against the cell file's own values.
+fn check_measured_scale(path: &Path, points: &[MeasuredPoint], cell: &crate::cycle::Cell) -> Result<(), InputError> {
+    let median = |mut values: Vec<f64>| -> Option<f64> {
+        values.sort_by(f64::total_cmp);
+        values.get(values.len() / 2).copied()
+    };
+    let nominal_ah = cell.nominal_capacity_coulomb / crate::material::constants::SECONDS_PER_HOUR;
+    if let Some(capacity) = median(points.iter().map(|p| p.capacity_ah).collect()) {
+        let ratio = capacity / nominal_ah;
+        if !(CAPACITY_TO_NOMINAL_RANGE.0..=CAPACITY_TO_NOMINAL_RANGE.1).contains(&ratio) {
+            let hint = if ratio > 100.0 { " (is the column in mAh? it must be in Ah)" } else { "" };
+            return Err(InputError::new(
+                path,
+                format!(
+                "the measured capacities (median {capacity}) are {ratio:.3} times the cell's nominal {nominal_ah} Ah; \
+                 they must lie within {}–{} times it{hint}",
+                CAPACITY_TO_NOMINAL_RANGE.0, CAPACITY_TO_NOMINAL_RANGE.1
+            ),
+            )
+            .with_key("capacity_ah"));
+        }
+    }
+    let cell_mohm = (cell.ohmic_resistance_ohm + cell.film_resistance_ohm) * 1e3;
+    if let Some(resistance) = median(points.iter().filter_map(|p| p.resistance_mohm).collect()) {
+        let ratio = resistance / cell_mohm;
+        if cell_mohm > 0.0 && !(RESISTANCE_TO_CELL_RANGE.0..=RESISTANCE_TO_CELL_RANGE.1).contains(&ratio) {
+            let hint = if ratio < 0.01 { " (is the column in Ω? it must be in mΩ)" } else { "" };
+            return Err(InputError::new(
+                path,
+                format!(
+                "the measured resistances (median {resistance}) are {ratio:.4} times the cell file's ohmic plus film \
+                 resistance, {cell_mohm:.4} mΩ; they must lie within {}–{} times it{hint}",
+                RESISTANCE_TO_CELL_RANGE.0, RESISTANCE_TO_CELL_RANGE.1
+            ),
+            )
+            .with_key("resistance_mohm"));
+        }
+    }
+    Ok(())
 }
 
 const KNOWN_COLUMNS: [&str; 5] = ["cycle", "day", "efc", "capacity_ah", "resistance_mohm"];

@@ -10,6 +10,7 @@
 
 mod cell;
 mod checks;
+mod digest;
 mod document;
 mod duty;
 mod error;
@@ -18,6 +19,7 @@ pub mod locate;
 mod mechanisms;
 mod overrides;
 mod plan;
+mod plausible;
 mod profile;
 mod scenario;
 mod series;
@@ -29,6 +31,7 @@ use crate::material::units;
 use std::path::Path;
 
 pub use cell::{check_cell, load_cell, LoadedCell};
+pub use digest::{file_digest, InputDigest, InputRole};
 pub use duty::load_duty;
 pub use error::{InputError, COMMAND_LINE_FLAG_SOURCE, COMMAND_LINE_SOURCE};
 pub use fit::{cell_table_with, load_fit, load_measured, DatasetSource, LoadedFit};
@@ -40,6 +43,16 @@ pub use series::load_series;
 pub use template::{number_paths, ScenarioTemplate};
 
 use document::read_text;
+
+/// A problem with `key` of the scenario at `path` (its overrides applied), found after loading
+/// (by running the forecast): placed on the key's line, or on the `--set` value that gave it.
+pub fn scenario_problem(path: &Path, overrides: &[Override], key: &str, rule: impl Into<String>) -> InputError {
+    let rule = rule.into();
+    match document::TomlDocument::read_overridden(path, OverrideTarget::Scenario, overrides) {
+        Ok(document) => document.problem(key, rule),
+        Err(_) => InputError::new(path, rule).with_key(key),
+    }
+}
 
 /// The kinds of input file fadecast reads.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

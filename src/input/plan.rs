@@ -187,9 +187,21 @@ enum HorizonProblem {
 
 /// The one rule set shared by the scenario's `[horizon]` and the command-line flags.
 fn horizon_from(cycles: Option<f64>, years: Option<f64>) -> Result<Option<Horizon>, HorizonProblem> {
-    let checked = |key, value, horizon| match positive_violation(value) {
-        Some(rule) => Err(HorizonProblem::BadValue { key, rule }),
-        None => Ok(Some(horizon)),
+    let checked = |key, value: f64, horizon| {
+        let row = match key {
+            HorizonKey::Cycles => "horizon.cycles",
+            HorizonKey::Years => "horizon.years",
+        };
+        // The plausibility table's bound keeps the work of one forecast finite.
+        let implausible =
+            super::plausible::plausible_for(row).and_then(|row| match super::plausible::judge(row, value) {
+                super::plausible::Verdict::Impossible(rule) => Some(rule),
+                _ => None,
+            });
+        match positive_violation(value).or(implausible) {
+            Some(rule) => Err(HorizonProblem::BadValue { key, rule }),
+            None => Ok(Some(horizon)),
+        }
     };
     match (cycles, years) {
         (Some(_), Some(_)) => Err(HorizonProblem::Both),

@@ -9,13 +9,17 @@ use super::checks::Checks;
 use super::document::{check_shape, TomlDocument};
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
-use crate::cycle::{Drive, Step, StepEnd, StepProfile};
+use super::plausible::report_implausible;
+use crate::cycle::{Drive, Step, StepEnd, StepProfile, MAX_STEP_DURATION_S};
 use crate::material::constants::SECONDS_PER_HOUR;
 
 const DEFAULT_START_SOC_PCT: f64 = 100.0;
 const MAX_REPEAT: i64 = 100_000;
 /// Guards memory: the expanded list is held in full.
 const MAX_EXPANDED_STEPS: u64 = 1_000_000;
+/// The largest current or power, as a multiple of the cell's rating, a step may ask of one
+/// cell; the same bound as the `charge_c` / `discharge_c` rows of the plausibility table.
+const MAX_C_RATE: f64 = 100.0;
 
 const DRIVE_KEYS: &str = "charge_c, charge_a, discharge_c, discharge_a, charge_w, discharge_w, hold_v or rest = true";
 const TIME_ENDS: &str = "end_time_s, end_time_min or end_time_h";
@@ -194,6 +198,7 @@ fn convert_profile(
             ),
         );
     }
+    report_implausible(&mut checks, document);
     checks.finish((StepProfile { name, steps }, start_soc_pct / 100.0))
 }
 
@@ -213,7 +218,21 @@ fn convert_step(
             checks.positive(&key_of(found.name), found.written);
         }
     }
+    if let Some(window) = window {
+        check_rates_against_cell(checks, key, &drives, &ends, amps_per_c_rate, window);
+    }
     for found in &ends {
+        if found.is_time() && found.written.is_finite() && seconds_of(found.end) > MAX_STEP_DURATION_S {
+            checks.report(
+                &key_of(found.name),
+                format!(
+                    "a step may last at most {} h (the simulator's limit per step), found {} {}",
+                    MAX_STEP_DURATION_S / SECONDS_PER_HOUR,
+                    found.written,
+                    found.name.rsplit('_').next().unwrap_or("")
+                ),
+            );
+        }
         if found.name == "end_soc_pct" {
             checks.within(&key_of(found.name), found.written, 0.0, 100.0);
         } else {
@@ -262,6 +281,49 @@ fn convert_step(
         None => format!("step {position_in_file}"),
     };
     Some(Step { label, drive: drive?, ends: ends.iter().map(|e| e.end).collect() })
+}
+
+/// Seconds of a time end (0 for any other end).
+fn seconds_of(end: StepEnd) -> f64 {
+    match end {
+        StepEnd::Time(seconds) => seconds,
+        _ => 0.0,
+    }
+}
+
+/// Currents and powers in absolute units, judged as multiples of the cell's rating: a current
+/// or power beyond [`MAX_C_RATE`] times the nominal capacity (or energy) cannot be a duty cycle
+/// of this cell (a kW typed as W, a pack's current given to one cell).
+fn check_rates_against_cell(
+    checks: &mut Checks<'_>,
+    key: &str,
+    drives: &[DriveKey],
+    ends: &[EndKey],
+    amps_per_c_rate: f64,
+    window: VoltageWindow,
+) {
+    // The window's middle stands for the nominal voltage (common practice, no source).
+    let watts_per_c_rate = amps_per_c_rate * 0.5 * (window.min_v + window.max_v);
+    let absolute =
+        drives.iter().map(|d| (d.name, d.written)).chain(ends.iter().map(|e| (e.name, e.written))).filter_map(
+            |(name, written)| match name {
+                "charge_a" | "discharge_a" | "end_current_a" => Some((name, written, written / amps_per_c_rate, "A")),
+                "charge_w" | "discharge_w" => Some((name, written, written / watts_per_c_rate, "W")),
+                _ => None,
+            },
+        );
+    for (name, written, c_rate, unit) in absolute {
+        if c_rate.is_finite() && c_rate > MAX_C_RATE {
+            checks.report(
+                &format!("{key}.{name}"),
+                format!(
+                    "{written} {unit} is {c_rate:.0} times the cell's rating (1 C = {:.4} {unit}); at most {MAX_C_RATE} C \
+                     is plausible for one cell",
+                    if unit == "A" { amps_per_c_rate } else { watts_per_c_rate }
+                ),
+            );
+        }
+    }
 }
 
 /// Which end keys make sense for which drive (see FORMATS.md, step profile rules).

@@ -16,6 +16,7 @@ use super::duty::{check_duty_file, check_duty_shape, read_duty, DutyFile};
 use super::error::{first_problem, InputError};
 use super::overrides::{Override, OverrideTarget};
 use super::plan::{convert_plan, EndOfLifeSection, HorizonSection, PlanSections, UsageSection, MONTH_NAMES};
+use super::plausible::{report_implausible, unusual_values};
 use super::profile::VoltageWindow;
 use super::template::ScenarioTemplate;
 use super::uncertainty::{check_sampled_paths, convert_uncertainty, ScenarioProbe, UncertaintySection};
@@ -192,6 +193,9 @@ pub(super) fn convert_scenario(
     let directory = path.parent().unwrap_or(Path::new(""));
     let cell_path = referenced_file(&mut checks, files, directory, "cell", &file.cell);
     let profile_path = referenced_file(&mut checks, files, directory, "profile", &file.profile);
+    let cell_path = cell_path.filter(|cell| !names_itself(&mut checks, path, cell, "cell", "a cell file"));
+    let profile_path = profile_path
+        .filter(|profile| !names_itself(&mut checks, path, profile, "profile", "a step profile or a time series"));
     let mut plan = convert_plan(
         &mut checks,
         PlanSections {
@@ -202,6 +206,7 @@ pub(super) fn convert_scenario(
         },
     );
     let uncertainty = convert_uncertainty(&mut checks, file.uncertainty.as_ref());
+    report_implausible(&mut checks, document);
     let mut problems = checks.finish(()).err().unwrap_or_default();
 
     let cell = match &cell_path {
@@ -241,11 +246,15 @@ pub(super) fn convert_scenario(
     else {
         return Err(problems);
     };
-    let LoadedCell { cell, aging, calibration } = loaded_cell;
+    let LoadedCell { cell, aging, calibration, warnings: cell_warnings } = loaded_cell;
     plan.aging = aging;
     plan.calibration = calibration;
 
-    let mut warnings = Vec::new();
+    let mut warnings = unusual_values(document);
+    warnings.extend(cell_warnings);
+    if let DutyFile::Profile(profile) = &duty_file {
+        warnings.extend(unusual_values(profile));
+    }
     if let Some(warning) = window_mismatch_warning(&cell, &cell_path) {
         warnings.push(warning);
     }
@@ -302,6 +311,18 @@ impl ScenarioProbe for FileProbe<'_> {
     fn load(&self, extra: &[Override]) -> Result<(), Vec<InputError>> {
         check_scenario_files(self.scenario_path, &self.with(extra)).map(drop)
     }
+}
+
+/// Whether `referenced` is the scenario file itself (reported: it would be read as the wrong kind).
+fn names_itself(checks: &mut Checks<'_>, scenario: &Path, referenced: &Path, key: &str, wanted: &str) -> bool {
+    let same = match (std::fs::canonicalize(scenario), std::fs::canonicalize(referenced)) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => scenario == referenced,
+    };
+    if same {
+        checks.report(key, format!("names this scenario file itself; give {wanted}"));
+    }
+    same
 }
 
 /// `written` resolved against the scenario's directory, if that file exists.

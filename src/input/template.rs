@@ -10,6 +10,7 @@
 
 use std::path::{Path, PathBuf};
 
+use super::digest::{document_digest, duty_digest, InputDigest, InputRole};
 use super::document::TomlDocument;
 use super::duty::DutyFile;
 use super::error::{first_problem, InputError};
@@ -51,6 +52,16 @@ impl ScenarioTemplate {
     /// The scenario with the base overrides alone.
     pub fn loaded(&self) -> &LoadedScenario {
         &self.loaded
+    }
+
+    /// Content hashes of the scenario, cell and duty-cycle files as this template holds them
+    /// (every base override applied).
+    pub fn input_digests(&self) -> Result<Vec<InputDigest>, InputError> {
+        Ok(vec![
+            document_digest(InputRole::Scenario, &self.document, &["cell", "profile"]),
+            document_digest(InputRole::Cell, &self.files.cell, &[]),
+            duty_digest(&self.files.duty, &self.loaded.profile_path)?,
+        ])
     }
 
     pub fn into_loaded(self) -> LoadedScenario {

@@ -167,6 +167,20 @@ pub fn ensemble_notes(
     notes
 }
 
+/// Why a run reports no statistics: how many samples were left out, of which kind.
+pub fn statistics_refused_text(summary: &EnsembleSummary, most_left_out: f64) -> String {
+    format!(
+        "{} of {} samples were left out ({} invalid draws, {} forecasts stopped before end of life), more than \
+         the {:.0} % that statistics allow; no bands, quantiles or warranty odds are reported. samples.csv lists \
+         each sample's drawn values and why it was left out: narrow the [uncertainty] ranges or fix the inputs",
+        summary.left_out(),
+        summary.samples,
+        summary.invalid,
+        summary.left_out() - summary.invalid,
+        100.0 * most_left_out
+    )
+}
+
 /// An ensemble run as the terminal shows it: counts, end-of-life quantiles, warranty odds
 /// (marked when the samples extrapolate past the calibration range), sensitivity, notes.
 pub fn ensemble_text(scenario: &str, seed: u64, summary: &EnsembleSummary, notes: &[String]) -> String {

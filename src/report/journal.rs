@@ -1,7 +1,8 @@
 //! The sample journal: one binary record per finished sample, appended as samples complete, so
 //! an interrupted run keeps its work and shards can be merged exactly. Each record is framed by
-//! its length and a checksum; a record cut short by a kill fails the check and is dropped on
-//! reading (that sample simply runs again on resume).
+//! its length and a checksum; a record cut short by a kill is dropped on reading (that sample
+//! simply runs again on resume), while a whole record that fails its checksum is reported as
+//! corrupt, with the sample it claims.
 //!
 //! Layout (little-endian): u32 payload length, payload, u32 FNV-1a checksum of the payload.
 //! Payload: u64 index; u8 status (0 ok, 1 invalid, 2 failed), u32 message length, message (the
@@ -138,25 +139,56 @@ fn decode_payload(payload: &[u8]) -> Option<SampleRecord> {
     })
 }
 
-/// Every whole record in a journal's bytes, in file order; reading stops at the first torn or
-/// corrupt record (the tail an interrupted run may leave).
-pub fn decode_journal(bytes: &[u8]) -> Vec<SampleRecord> {
+/// A journal as read: its whole records in file order, and how reading ended.
+#[derive(Debug, Clone, PartialEq)]
+pub struct JournalRead {
+    pub records: Vec<SampleRecord>,
+    pub ending: JournalEnding,
+}
+
+/// How reading a journal ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum JournalEnding {
+    /// Every byte belonged to a whole record.
+    Whole,
+    /// The last record is cut short: the tail an interrupted run leaves (records are appended
+    /// with one write each, so a kill can only shorten the last one).
+    TornTail,
+    /// A record whose frame is complete fails its checksum or does not decode: the file was
+    /// changed or damaged. `record` counts from 1; `sample` is the index the record claims, if
+    /// its first bytes can be read.
+    Corrupt { record: usize, sample: Option<u64> },
+}
+
+/// Every whole record in a journal's bytes, in file order, up to the first record that is
+/// cut short (a torn tail) or damaged (corrupt); the ending says which.
+pub fn decode_journal(bytes: &[u8]) -> JournalRead {
     let mut records = Vec::new();
     let mut at = 0;
-    while at + 4 <= bytes.len() {
-        let length = u32::from_le_bytes([bytes[at], bytes[at + 1], bytes[at + 2], bytes[at + 3]]) as usize;
-        let Some(payload) = bytes.get(at + 4..at + 4 + length) else { break };
-        let Some(sum) = bytes.get(at + 4 + length..at + 8 + length) else { break };
-        if u32::from_le_bytes([sum[0], sum[1], sum[2], sum[3]]) != checksum(payload) {
-            break;
+    let ending = loop {
+        if at == bytes.len() {
+            break JournalEnding::Whole;
         }
-        match decode_payload(payload) {
+        let Some(frame) = bytes.get(at..at + 4) else { break JournalEnding::TornTail };
+        let length = u32::from_le_bytes([frame[0], frame[1], frame[2], frame[3]]) as usize;
+        let (Some(payload), Some(sum)) =
+            (bytes.get(at + 4..at + 4 + length), bytes.get(at + 4 + length..at + 8 + length))
+        else {
+            break JournalEnding::TornTail;
+        };
+        let decoded = (u32::from_le_bytes([sum[0], sum[1], sum[2], sum[3]]) == checksum(payload))
+            .then(|| decode_payload(payload))
+            .flatten();
+        match decoded {
             Some(record) => records.push(record),
-            None => break,
+            None => {
+                let sample = payload.get(..8).and_then(|b| b.try_into().ok()).map(u64::from_le_bytes);
+                break JournalEnding::Corrupt { record: records.len() + 1, sample };
+            }
         }
         at += 8 + length;
-    }
-    records
+    };
+    JournalRead { records, ending }
 }
 
 #[cfg(test)]
@@ -195,7 +227,9 @@ mod tests {
         for i in 0..3 {
             bytes.extend(encode_record(&record(i)));
         }
-        let back = decode_journal(&bytes);
+        let read = decode_journal(&bytes);
+        assert_eq!(read.ending, JournalEnding::Whole);
+        let back = read.records;
         assert_eq!(back.len(), 3);
         for (i, r) in back.iter().enumerate() {
             let original = record(i as u64);
@@ -212,6 +246,20 @@ mod tests {
         let mut bytes = encode_record(&record(0));
         let second = encode_record(&record(1));
         bytes.extend_from_slice(&second[..second.len() - 3]);
-        assert_eq!(decode_journal(&bytes).len(), 1);
+        let read = decode_journal(&bytes);
+        assert_eq!((read.records.len(), read.ending), (1, JournalEnding::TornTail));
+    }
+
+    #[test]
+    fn a_changed_byte_in_a_whole_record_is_corrupt_and_names_the_sample() {
+        let mut bytes = encode_record(&record(0));
+        let second = encode_record(&record(7));
+        let last_value = bytes.len() + second.len() - 10;
+        bytes.extend_from_slice(&second);
+        bytes.extend(encode_record(&record(2)));
+        bytes[last_value] ^= 0x40;
+        let read = decode_journal(&bytes);
+        assert_eq!(read.records.len(), 1);
+        assert_eq!(read.ending, JournalEnding::Corrupt { record: 2, sample: Some(7) });
     }
 }

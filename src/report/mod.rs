@@ -27,14 +27,16 @@ pub use compare::{
 };
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
 pub use cycle_svg::cycle_svg;
-pub use ensemble::{bands_csv, ensemble_json, ensemble_notes, ensemble_text, percent_label, samples_csv};
+pub use ensemble::{
+    bands_csv, ensemble_json, ensemble_notes, ensemble_text, percent_label, samples_csv, statistics_refused_text,
+};
 pub use fade_csv::{fade_columns, fade_csv};
 pub use fade_svg::fade_svg;
 pub use fit::{fit_json, fit_svg, fit_text, fit_warning_text, fitted_cell_toml, uncertainty_toml};
 pub use forecast_json::forecast_json;
 pub use forecast_text::forecast_text;
 pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
-pub use journal::{decode_journal, encode_record};
+pub use journal::{decode_journal, encode_record, JournalEnding, JournalRead};
 pub use outcome::{
     counted_warning_lines, counted_warnings_json, failure_text, stop_json, stop_text, warning_json, warning_kind_text,
     warning_text,
