@@ -395,9 +395,9 @@ fn binary_answers_every_mutated_run_within_limits() {
 }
 
 /// The failures the campaigns found, one command line each in `tests/data/fuzz/findings.txt`
-/// (run from the repository root, `--out` added), replayed with the driver's limits. Ignored
-/// until the issue-15 caps and plausibility ranges land: today these runs take 20–100 s of
-/// CPU each; every one must end (exit 0, 1 or 2) in under 2 s.
+/// (run from the repository root, `--out` added), replayed with the driver's limits; every one
+/// must end (exit 0, 1 or 2) in under 2 s. Ignored in the default run only because it starts a
+/// dozen processes; every finding now ends at once with exit 2.
 #[test]
 #[ignore = "fuzz findings of issue 15, fixed by its input ranges and caps; run with --ignored"]
 fn fuzz_findings_end_within_two_seconds() {
@@ -428,6 +428,32 @@ fn fuzz_findings_end_within_two_seconds() {
     let _ = std::fs::remove_dir_all(&out);
     assert!(replayed > 0, "no findings listed");
     assert!(problems.is_empty(), "fuzz findings that still fail:\n{}", problems.join("\n"));
+}
+
+/// The driver's verdicts, on made-up endings.
+#[test]
+fn endings_are_classified_as_issue_15_counts_them() {
+    let ending = |code: Option<i32>, signal: Option<i32>, cpu_s: u64, rss_mib: u64, killed: bool| Ending {
+        code,
+        signal,
+        wall: Duration::from_secs(cpu_s),
+        cpu: Duration::from_secs(cpu_s),
+        peak_rss_bytes: rss_mib << 20,
+        killed_for_time: killed,
+    };
+    for code in 0..=2 {
+        assert_eq!(classify(&ending(Some(code), None, 1, 10, false), ""), None);
+    }
+    assert_eq!(classify(&ending(Some(101), None, 1, 10, false), "thread 'main' panicked"), Some("panic"));
+    assert_eq!(classify(&ending(None, Some(libc::SIGABRT), 1, 10, false), ""), Some("abort"));
+    assert_eq!(classify(&ending(None, Some(libc::SIGSEGV), 1, 10, false), ""), Some("signal"));
+    assert_eq!(classify(&ending(Some(3), None, 1, 10, false), ""), Some("exit-code"));
+    assert_eq!(classify(&ending(None, Some(libc::SIGXCPU), 21, 10, false), ""), Some("timeout"));
+    assert_eq!(classify(&ending(Some(0), None, 25, 10, false), ""), Some("timeout"));
+    assert_eq!(classify(&ending(None, Some(libc::SIGKILL), 2, 10, true), ""), Some("stalled"));
+    assert_eq!(classify(&ending(Some(1), None, 1, 1100, false), ""), Some("memory"));
+    let oom = "memory allocation of 8589934592 bytes failed";
+    assert_eq!(classify(&ending(None, Some(libc::SIGABRT), 1, 900, false), oom), Some("memory"));
 }
 
 /// The binary the runs start: `FADECAST_FUZZ_BINARY` (a frozen copy, so a long campaign is not
