@@ -19,7 +19,8 @@
 mod fuzz;
 
 use fuzz::{
-    env_number, findings_dir, mutate_number, mutated, random_override, scratch_dir, write_corpus, Corpus, FileKind, Rng,
+    campaign_range, env_number, findings_dir, mutate_number, mutated, random_override, scratch_dir, write_corpus,
+    Corpus, FileKind, Rng,
 };
 use std::collections::BTreeMap;
 use std::io::Write as _;
@@ -350,17 +351,7 @@ fn worker(corpus: &Corpus, seed: u64, next: &AtomicU64, end: u64, name: &str, ta
 #[test]
 fn binary_answers_every_mutated_run_within_limits() {
     let seed = env_number("FADECAST_FUZZ_SEED", 1);
-    let (start, end) = match std::env::var("FADECAST_FUZZ_ONLY") {
-        Ok(_) => {
-            let only = env_number("FADECAST_FUZZ_ONLY", 0);
-            (only, only + 1)
-        }
-        // `FADECAST_FUZZ_FIRST` shifts the range, to continue or split a campaign.
-        Err(_) => {
-            let first = env_number("FADECAST_FUZZ_FIRST", 0);
-            (first, first + env_number("FADECAST_FUZZ_RUNS", 30))
-        }
-    };
+    let (start, end) = campaign_range("FADECAST_FUZZ_RUNS", 30);
     let jobs = env_number("FADECAST_FUZZ_JOBS", 1).max(1) as usize;
     let corpus = Arc::new(Corpus::load());
     let next = Arc::new(AtomicU64::new(start));

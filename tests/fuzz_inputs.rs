@@ -20,7 +20,10 @@ use fadecast::input::{
     check_cell, detect_kind, load_duty, load_fit, load_measured, load_profile, load_series, load_uncertainty_file,
     number_paths, parse_horizon, parse_override, InputError, Override, ScenarioTemplate,
 };
-use fuzz::{env_number, findings_dir, mutated, random_override, scratch_dir, write_corpus, Corpus, FileKind, Rng};
+use fuzz::{
+    campaign_range, env_number, findings_dir, mutated, random_override, scratch_dir, write_corpus, Corpus, FileKind,
+    Rng,
+};
 use std::cell::RefCell;
 use std::io::Write as _;
 use std::panic::{catch_unwind, AssertUnwindSafe};
@@ -414,17 +417,7 @@ fn worker(shared: &Shared, name: &str, running: &AtomicU64, started_ms: &AtomicU
 #[test]
 fn loaders_return_an_answer_for_every_mutated_input() {
     let seed = env_number("FADECAST_FUZZ_SEED", 1);
-    let (start, end) = match std::env::var("FADECAST_FUZZ_ONLY") {
-        Ok(_) => {
-            let only = env_number("FADECAST_FUZZ_ONLY", 0);
-            (only, only + 1)
-        }
-        // `FADECAST_FUZZ_FIRST` shifts the range, to continue or split a campaign.
-        Err(_) => {
-            let first = env_number("FADECAST_FUZZ_FIRST", 0);
-            (first, first + env_number("FADECAST_FUZZ_CASES", 300))
-        }
-    };
+    let (start, end) = campaign_range("FADECAST_FUZZ_CASES", 300);
     let jobs = env_number("FADECAST_FUZZ_JOBS", 1).max(1) as usize;
     let shared = Arc::new(Shared {
         corpus: Corpus::load(),

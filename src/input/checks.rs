@@ -81,6 +81,10 @@ impl<'d> Checks<'d> {
 
     /// Whether a problem is already recorded against `key`.
     pub fn has_problem_at(&self, key: &str) -> bool {
+        // Placing a key costs a line lookup; a valid document (every draw, nearly) has none.
+        if self.problems.is_empty() {
+            return false;
+        }
         let placed = self.document.problem(key, "");
         self.problems.iter().any(|p| p.key == placed.key && p.file == placed.file)
     }

@@ -102,7 +102,7 @@ fn check_series_against_cell(
     let amps_per_c_rate = nominal_capacity_coulomb / SECONDS_PER_HOUR;
     let (column, per_c_rate, unit) = match series.signal {
         SeriesSignal::CurrentA => ("current_a", amps_per_c_rate, "A"),
-        SeriesSignal::PowerW => ("power_w", amps_per_c_rate * 0.5 * (window.min_v + window.max_v), "W"),
+        SeriesSignal::PowerW => ("power_w", window.watts_per_c_rate(amps_per_c_rate), "W"),
     };
     let most = super::profile::MAX_C_RATE;
     let found = series.value.iter().zip(&series.time_s).enumerate().find(|(_, (v, _))| v.abs() / per_c_rate > most);

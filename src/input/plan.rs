@@ -193,12 +193,7 @@ fn horizon_from(cycles: Option<f64>, years: Option<f64>) -> Result<Option<Horizo
             HorizonKey::Years => "horizon.years",
         };
         // The plausibility table's bound keeps the work of one forecast finite.
-        let implausible =
-            super::plausible::plausible_for(row).and_then(|row| match super::plausible::judge(row, value) {
-                super::plausible::Verdict::Impossible(rule) => Some(rule),
-                _ => None,
-            });
-        match positive_violation(value).or(implausible) {
+        match positive_violation(value).or_else(|| super::plausible::impossible(row, value)) {
             Some(rule) => Err(HorizonProblem::BadValue { key, rule }),
             None => Ok(Some(horizon)),
         }

@@ -190,6 +190,15 @@ pub(crate) fn judge(row: &Plausible, value: f64) -> Verdict {
     }
 }
 
+/// The rule `value` (finite) of `key_path` breaks by lying outside its row's error range, if
+/// the key has a row and the value breaks it.
+pub(crate) fn impossible(key_path: &str, value: f64) -> Option<String> {
+    match judge(plausible_for(key_path)?, value) {
+        Verdict::Impossible(rule) => Some(rule),
+        _ => None,
+    }
+}
+
 /// The first slip whose correction lands the value inside `range`, worded for the user.
 fn slip_hint(row: &Plausible, value: f64, range: (f64, f64)) -> Option<String> {
     row.slips.iter().find_map(|slip| {
@@ -302,10 +311,8 @@ pub(crate) fn report_implausible(checks: &mut Checks<'_>, document: &TomlDocumen
             );
             continue;
         }
-        if let Some(row) = plausible_for(&key) {
-            if let Verdict::Impossible(rule) = judge(row, value) {
-                checks.report_leading(&key, format!("{which}{rule}"));
-            }
+        if let Some(rule) = impossible(&key, value) {
+            checks.report_leading(&key, format!("{which}{rule}"));
         }
     }
 }

@@ -76,6 +76,14 @@ pub(crate) struct VoltageWindow {
     pub max_v: f64,
 }
 
+impl VoltageWindow {
+    /// Watts per C-rate of a cell of `amps_per_c_rate`: the window's middle stands for the
+    /// nominal voltage (common practice, no source).
+    pub fn watts_per_c_rate(&self, amps_per_c_rate: f64) -> f64 {
+        amps_per_c_rate * 0.5 * (self.min_v + self.max_v)
+    }
+}
+
 /// A step key's name, its value if given, and what a value means (given amps per C-rate).
 type KeyMeaning<T> = (&'static str, Option<f64>, fn(f64, f64) -> T);
 
@@ -302,8 +310,7 @@ fn check_rates_against_cell(
     amps_per_c_rate: f64,
     window: VoltageWindow,
 ) {
-    // The window's middle stands for the nominal voltage (common practice, no source).
-    let watts_per_c_rate = amps_per_c_rate * 0.5 * (window.min_v + window.max_v);
+    let watts_per_c_rate = window.watts_per_c_rate(amps_per_c_rate);
     let absolute =
         drives.iter().map(|d| (d.name, d.written)).chain(ends.iter().map(|e| (e.name, e.written))).filter_map(
             |(name, written)| match name {

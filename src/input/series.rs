@@ -6,7 +6,7 @@ use std::path::Path;
 
 use super::document::read_text;
 use super::error::InputError;
-use super::plausible::{judge, plausible_for, Verdict};
+use super::plausible::impossible;
 use super::profile::file_stem;
 use super::suggest;
 use crate::cycle::{SeriesSignal, TimeSeries, MAX_CYCLE_DURATION_S};
@@ -80,7 +80,7 @@ fn parse_series(path: &Path, text: &str) -> Result<TimeSeries, InputError> {
             if celsius <= -ZERO_CELSIUS_K {
                 return Err(error(line, AMBIENT, format!("must be above absolute zero (−273.15 °C), found {celsius}")));
             }
-            if let Some(Verdict::Impossible(rule)) = plausible_for(AMBIENT).map(|row| judge(row, celsius)) {
+            if let Some(rule) = impossible(AMBIENT, celsius) {
                 return Err(error(line, AMBIENT, rule));
             }
             ambient_k.push(celsius + ZERO_CELSIUS_K);

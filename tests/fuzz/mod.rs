@@ -61,6 +61,22 @@ pub fn env_number(name: &str, default: u64) -> u64 {
     }
 }
 
+/// The cases or runs a campaign covers: `FADECAST_FUZZ_ONLY` alone, else `count_var` of them
+/// (default `default_count`) from `FADECAST_FUZZ_FIRST`, which shifts the range to continue or
+/// split a campaign.
+pub fn campaign_range(count_var: &str, default_count: u64) -> (u64, u64) {
+    match std::env::var("FADECAST_FUZZ_ONLY") {
+        Ok(_) => {
+            let only = env_number("FADECAST_FUZZ_ONLY", 0);
+            (only, only + 1)
+        }
+        Err(_) => {
+            let first = env_number("FADECAST_FUZZ_FIRST", 0);
+            (first, first + env_number(count_var, default_count))
+        }
+    }
+}
+
 /// What a corpus file is, which decides the loader it goes to.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum FileKind {
