@@ -14,16 +14,27 @@ use std::time::Instant;
 
 const CYCLES: f64 = 3000.0;
 
-fn median_seconds(runs: usize, mut run: impl FnMut()) -> f64 {
-    let mut seconds: Vec<f64> = (0..runs)
-        .map(|_| {
-            let start = Instant::now();
-            run();
-            start.elapsed().as_secs_f64()
-        })
-        .collect();
-    seconds.sort_by(f64::total_cmp);
-    seconds[runs / 2]
+fn seconds(run: &mut impl FnMut()) -> f64 {
+    let start = Instant::now();
+    run();
+    start.elapsed().as_secs_f64()
+}
+
+/// Medians of each command's time and of the per-pair ratio b/a, over `pairs` runs taken
+/// alternately, so that a change in the machine's load falls on both sides of a pair.
+fn paired_medians(pairs: usize, mut a: impl FnMut(), mut b: impl FnMut()) -> (f64, f64, f64) {
+    let median = |mut v: Vec<f64>| {
+        v.sort_by(f64::total_cmp);
+        v[v.len() / 2]
+    };
+    let (mut ta, mut tb, mut ratio) = (Vec::new(), Vec::new(), Vec::new());
+    for _ in 0..pairs {
+        let (x, y) = (seconds(&mut a), seconds(&mut b));
+        ta.push(x);
+        tb.push(y);
+        ratio.push(y / x);
+    }
+    (median(ta), median(tb), median(ratio))
 }
 
 fn pack(c: &mut Criterion) {
@@ -39,20 +50,23 @@ fn pack(c: &mut Criterion) {
         ..PackLayout::uniform(&scenario.cell, 4, 1)
     };
     let packed = cases::pack_scenario(&scenario, layout);
+    let cell_probe = run_forecast(&scenario, &plan, horizon, &options);
     let probe = run_forecast(&packed, &plan, horizon, &options);
-    let t_cell = median_seconds(7, || {
-        black_box(run_forecast(&scenario, &plan, horizon, &options));
-    });
-    let t_pack = median_seconds(7, || {
-        black_box(run_forecast(&packed, &plan, horizon, &options));
-    });
+    let (t_cell, t_pack, ratio) = paired_medians(
+        9,
+        || {
+            black_box(run_forecast(&scenario, &plan, horizon, &options));
+        },
+        || {
+            black_box(run_forecast(&packed, &plan, horizon, &options));
+        },
+    );
     eprintln!(
-        "forecast {CYCLES} cycles: cell {:.1} ms, 4-in-parallel pack {:.1} ms ({} simulated cycles, {} steps); ratio {:.2}× (target ≤ 6×)",
+        "forecast {CYCLES} cycles: cell {:.1} ms ({} simulated cycles), 4-in-parallel pack {:.1} ms ({} simulated cycles); median paired ratio {ratio:.2}× (target ≤ 6×)",
         t_cell * 1e3,
+        cell_probe.simulated_cycles,
         t_pack * 1e3,
         probe.simulated_cycles,
-        probe.accepted_steps,
-        t_pack / t_cell
     );
 
     let offsets: Vec<f64> = (0..100).map(|k| 0.05 * k as f64).collect();

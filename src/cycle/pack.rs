@@ -11,7 +11,9 @@
 //! by Newton's method on the small system: each cell's local slope −dV_i/dI + R_i (a forward
 //! difference) linearises it, which gives the node voltage in closed form and every current
 //! from it; the iteration stops once the node voltages of the cells agree to
-//! [`SPLIT_TOLERANCE_V`]. Identical cells at identical positions take bit-identical currents
+//! [`SPLIT_TOLERANCE_V`]. Slopes cost a voltage evaluation each, so they are taken once per
+//! trial, and only when its first iterate has not converged; that iterate starts on the line
+//! through the step's last two accepted splits, so it is off by their curvature only. Identical cells at identical positions take bit-identical currents
 //! (the same arithmetic on the same numbers). At rest the group current is zero and cells at
 //! different open-circuit voltages exchange current through the node.
 //!
@@ -34,8 +36,10 @@ use super::stepper::*;
 use super::Cell;
 use crate::material::constants::SECONDS_PER_HOUR;
 
-/// The cells' node voltages in a parallel group agree to this, V.
-pub const SPLIT_TOLERANCE_V: f64 = 1e-10;
+/// The cells' node voltages in a parallel group agree to this, V: a current error of about
+/// 1e-5 A per 10 mΩ, far below what the 10 mV voltage steps resolve; the currents sum to the
+/// group's exactly whatever the tolerance.
+pub const SPLIT_TOLERANCE_V: f64 = 1e-7;
 /// Newton iterations of one group's split before the trial counts as failed.
 const SPLIT_MAX_ITERATIONS: usize = 50;
 /// Forward-difference step of a cell's slope, relative to its current (at least 1 A).
@@ -196,8 +200,7 @@ struct PackSolver<'a> {
     /// Node voltage of each cell at the current iterate, and its slope.
     node: Vec<f64>,
     slope: Vec<f64>,
-    /// Whether `slope` was taken in this trial (slopes are taken once per trial unless the
-    /// split's Newton iteration takes them again).
+    /// Whether `slope` was taken in this trial.
     slope_fresh: Vec<bool>,
     /// Start-of-step temperatures, K.
     temperatures: Vec<f64>,
@@ -276,12 +279,14 @@ impl<'a> PackSolver<'a> {
                 // The mean, summed in position order.
                 return Some(self.node[range.clone()].iter().sum::<f64>() / p as f64);
             }
-            // Linearise each cell: v_i(I) ≈ v_i − r_i (I − I_i), r_i > 0.
+            // Linearise each cell: v_i(I) ≈ v_i − r_i (I − I_i), r_i > 0, with the slope taken
+            // at the trial's first iterate (later iterates move too little to change it much).
             let (mut numerator, mut conductance) = (0.0, 0.0);
             for i in range.clone() {
-                let r = self.local_slope(i)?;
-                self.slope[i] = r;
-                self.slope_fresh[i] = true;
+                if !self.slope_fresh[i] {
+                    self.take_slope(i)?;
+                }
+                let r = self.slope[i];
                 numerator += self.currents[i] + self.node[i] / r;
                 conductance += 1.0 / r;
             }
@@ -293,16 +298,25 @@ impl<'a> PackSolver<'a> {
         None
     }
 
-    /// −dv_i/dI + R_i of cell i at its present current (forward difference), > 0.
-    fn local_slope(&self, i: usize) -> Option<f64> {
+    /// Takes −dv_i/dI + R_i of cell i at its present current (forward difference), > 0.
+    fn take_slope(&mut self, i: usize) -> Option<()> {
         let h = SPLIT_SLOPE_STEP_RELATIVE * self.currents[i].abs().max(1.0);
         let r = -(self.node_voltage(i, self.currents[i] + h) - self.node[i]) / h;
-        (r.is_finite() && r > 0.0).then_some(r)
+        if !(r.is_finite() && r > 0.0) {
+            return None;
+        }
+        self.slope[i] = r;
+        self.slope_fresh[i] = true;
+        Some(())
     }
 
     /// Pack voltage at a pack current (all groups split).
     fn pack_voltage(&mut self, current: f64) -> Option<f64> {
-        self.pack_voltage_and_slope(current).map(|(v, _)| v)
+        let mut total = 0.0;
+        for g in 0..self.model.layout.series {
+            total += self.split_group(g, current)?;
+        }
+        Some(total)
     }
 
     /// Pack voltage at a pack current and its slope dV/dI from the cells' latest local slopes
@@ -313,8 +327,7 @@ impl<'a> PackSolver<'a> {
             total += self.split_group(g, current)?;
             for i in self.model.layout.group(g) {
                 if !self.slope_fresh[i] {
-                    self.slope[i] = self.local_slope(i)?;
-                    self.slope_fresh[i] = true;
+                    self.take_slope(i)?;
                 }
             }
             let conductance: f64 = self.slope[self.model.layout.group(g)].iter().map(|r| 1.0 / r).sum();
@@ -345,12 +358,14 @@ impl<'a> PackSolver<'a> {
             let maps = self.model.models[i].step_maps(state, &self.conds[i], dt, &mut self.scratch[i]);
             self.maps.push(maps);
         }
+        let tolerance = if self.model.layout.parallel > 1 { CONTROL_RESIDUAL_SPLIT } else { CONTROL_RESIDUAL };
         let current = match control {
             Control::Current(i) => i,
             // I·V(I) rises with I and V(I) falls on the branch a pack operates on.
             Control::Power(target) => solve_with_slope(
                 |i| self.pack_voltage_and_slope(i).map(|(v, dv)| (target - i * v, -(v + i * dv))),
                 guess,
+                tolerance,
             )?,
             Control::Voltage(target) => solve_with_slope(
                 |i| {
@@ -368,6 +383,7 @@ impl<'a> PackSolver<'a> {
                     Some((residual, slope))
                 },
                 guess,
+                tolerance,
             )?,
         };
         let voltage = self.pack_voltage(current)?;
@@ -411,7 +427,7 @@ impl<'a> PackSolver<'a> {
 /// the split supplies, kept inside a bracket that grows by one current scale while only one
 /// side is known and is bisected when a Newton step would leave it (as a lone cell's
 /// constant-voltage and constant-power steps are solved, [`super::response`]).
-fn solve_with_slope(mut f: impl FnMut(f64) -> Option<(f64, f64)>, guess: f64) -> Option<f64> {
+fn solve_with_slope(mut f: impl FnMut(f64) -> Option<(f64, f64)>, guess: f64, residual: f64) -> Option<f64> {
     let scale = guess.abs().max(CONTROL_MIN_CURRENT_SCALE_A);
     let mut x = guess;
     let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
@@ -420,7 +436,7 @@ fn solve_with_slope(mut f: impl FnMut(f64) -> Option<(f64, f64)>, guess: f64) ->
         if !fx.is_finite() {
             return None;
         }
-        if fx.abs() < CONTROL_RESIDUAL {
+        if fx.abs() < residual {
             return Some(x);
         }
         if fx > 0.0 {
@@ -445,8 +461,11 @@ fn solve_with_slope(mut f: impl FnMut(f64) -> Option<(f64, f64)>, guess: f64) ->
     None
 }
 
-/// Solving for a pack current: as a lone cell's controls (`response.rs`), residual in V or W.
+/// Solving for a pack current: as a lone cell's controls (`response.rs`), residual in V or W;
+/// with parallel groups, ten times the split's tolerance, since the pack voltage is only known
+/// to it.
 const CONTROL_RESIDUAL: f64 = 1e-10;
+const CONTROL_RESIDUAL_SPLIT: f64 = 10.0 * SPLIT_TOLERANCE_V;
 const CONTROL_MAX_ITERATIONS: usize = 60;
 const CONTROL_CURRENT_STEP_RELATIVE: f64 = 1e-12;
 const CONTROL_MIN_CURRENT_SCALE_A: f64 = 1.0;
@@ -488,6 +507,8 @@ pub fn simulate_pack_cycle(
         margins: Vec::new(),
         time_s: 0.0,
         current_guess: 0.0,
+        split_start: Vec::new(),
+        split_rate: vec![0.0; model.layout.len()],
     };
     record.pack.trace.clear();
     record.pack.steps.clear();
@@ -565,9 +586,21 @@ struct PackStepper<'a> {
     margins: Vec<(EndReason, f64)>,
     time_s: f64,
     current_guess: f64,
+    /// Each cell's current at the last accepted point and its rate of change over the step's
+    /// last accepted trial, A/s: a trial of length dt starts its split from the line through
+    /// them, so the first iterate is off by the curvature only.
+    split_start: Vec<f64>,
+    split_rate: Vec<f64>,
 }
 
 impl PackStepper<'_> {
+    /// Starts the split of a trial of length `dt` on the line through the last accepted split.
+    fn predict_split(&mut self, dt: f64) {
+        for ((current, start), rate) in self.solver.currents.iter_mut().zip(&self.split_start).zip(&self.split_rate) {
+            *current = start + rate * dt;
+        }
+    }
+
     fn fail(&self, step: usize, label: &str, detail: impl Into<String>) -> CycleError {
         CycleError::Failed { step: step + 1, label: label.to_string(), time_s: self.time_s, detail: detail.into() }
     }
@@ -754,6 +787,8 @@ impl PackStepper<'_> {
         let mut charge = 0.0;
         let mut dt = self.settings.first_dt_s;
         let mut first = true;
+        self.split_start.clone_from(&self.solver.currents);
+        self.split_rate.fill(0.0);
         self.current_guess = match step.drive {
             Drive::Current(i) => i,
             Drive::Power(p) => {
@@ -774,12 +809,11 @@ impl PackStepper<'_> {
             }
             dt = dt.min(time_end - elapsed).max(MIN_STEP_S);
             self.solver.prepare(states, &self.ambients);
-            let start_currents = self.solver.currents.clone();
+            self.predict_split(dt);
             let trial = self.solver.trial(states, control, dt, self.current_guess);
             let trial = match self.judge(dt, trial, record, !first) {
                 PackJudged::Accept(trial) => trial,
                 PackJudged::Retry(shorter) => {
-                    self.solver.currents.clone_from(&start_currents);
                     dt = shorter;
                     continue;
                 }
@@ -791,7 +825,6 @@ impl PackStepper<'_> {
             let time_end_reached = self.margins.iter().any(|(r, m)| *r == EndReason::Time && *m <= 0.0);
             if other_end || time_end_reached {
                 let (trial, reason) = if other_end {
-                    self.solver.currents.clone_from(&start_currents);
                     self.locate(step, index, states, control, elapsed, charge, dt)?
                 } else {
                     (trial, EndReason::Time)
@@ -809,6 +842,11 @@ impl PackStepper<'_> {
             }
             let changes = self.changes(record, &trial);
             self.accept(states, &trial, (index, &step.label), record)?;
+            // The first trial of a step carries the jump to the step's own split, not a trend.
+            for (i, cell) in trial.cells.iter().enumerate() {
+                self.split_rate[i] = if first { 0.0 } else { (cell.current - self.split_start[i]) / trial.dt };
+                self.split_start[i] = cell.current;
+            }
             charge = passed;
             elapsed += dt;
             dt = self.next_dt(changes, trial.dt, !first, max_dt);
@@ -854,6 +892,7 @@ impl PackStepper<'_> {
         dt: f64,
     ) -> Result<(PackTrial, EndReason), CycleError> {
         let evaluate = |this: &mut Self, h: f64| -> Option<(PackTrial, EndReason, f64)> {
+            this.predict_split(h);
             let trial = this.solver.trial(states, control, h, this.current_guess)?;
             let progress = PackProgress { elapsed_s: elapsed + h, charge_passed_coulomb: charge + trial.current * h };
             this.end_margins(step, &trial, progress);
