@@ -33,6 +33,18 @@ fn a_pack_forecast_writes_its_cells_and_names_the_weakest() {
     assert!(out.path().join("fade.csv").is_file());
     let svg = std::fs::read_to_string(out.path().join("pack.svg")).unwrap();
     assert!(svg.contains("cell 16 (group 4, place 4)"));
+    // The summary carries the pack: every cell at the horizon and the weakest one by number.
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.path().join("summary.json")).unwrap()).unwrap();
+    let pack = &summary["pack"];
+    assert_eq!(pack["parallel"], 4);
+    let cells = pack["cells"].as_array().unwrap();
+    assert_eq!(cells.len(), 16);
+    let weakest = pack["weakest_cell"].as_u64().unwrap() as usize;
+    let lowest = cells.iter().map(|c| c["soh_pct"].as_f64().unwrap()).fold(f64::INFINITY, f64::min);
+    assert_eq!(cells[weakest - 1]["soh_pct"].as_f64().unwrap(), lowest);
+    assert_eq!(pack["at_horizon"]["soh_pct"]["min"].as_f64().unwrap(), lowest);
+    assert!(text.contains(&format!("cell {weakest} (group")), "{text}");
 }
 
 #[test]
@@ -48,6 +60,8 @@ fn bad_pack_input_exits_2_naming_the_key() {
         ("parallel = 4", "parallel = 0", "pack.parallel"),
         ("parallel = 4", "parallel = 400", "pack.parallel"),
         ("neighbour_conductance_w_k = 0.05", "neighbour_conductance_w_k = 0.05\ncoolant_inlet_c = 20", "pack."),
+        // The pack's day (charge from solar, evening discharge, rests) cannot repeat 6 times a day.
+        ("cycles_per_day = 1", "cycles_per_day = 6", "usage.cycles_per_day"),
     ] {
         let path = dir.path().join("pack.toml");
         assert!(text.contains(from), "{from}");

@@ -84,6 +84,13 @@ impl PackForecaster<'_> {
         let (cycle, idle_s) = if self.cycling() {
             self.simulate(x, &healths, &balances, ambient, &mut record)?;
             let period = SECONDS_PER_DAY / self.plan.usage.cycles_per_day;
+            // As for a lone cell: checked on the fresh pack's cycle.
+            if x == 0.0 && record.pack.duration_s > period * (1.0 + USAGE_DAY_TOLERANCE) {
+                return Err(RateFailure::Failed(ForecastFailure::UsageExceedsDay {
+                    cycles_per_day: self.plan.usage.cycles_per_day,
+                    cycle_duration_s: record.pack.duration_s,
+                }));
+            }
             (Some(&*record), (period - record.pack.duration_s).max(0.0))
         } else {
             (None, SECONDS_PER_DAY)

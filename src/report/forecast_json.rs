@@ -79,6 +79,7 @@ pub fn forecast_json(forecast: &Forecast, scenario: &str, cell: &str, cycling: b
         "simulated_cycles": forecast.simulated_cycles,
         "integrator": { "accepted_steps": forecast.accepted_steps, "rejected_steps": forecast.rejected_steps },
         "stop": stop_json(&forecast.stop, cycling),
+        "pack": forecast.pack.as_deref().and_then(super::pack::pack_summary),
         "warnings": forecast.warnings.iter().map(warning_json).collect::<Vec<_>>(),
         "caution": crate::CAUTION,
     });

@@ -210,3 +210,104 @@ pub fn pack_text(pack: &PackOutcome, cycling: bool) -> String {
     }
     out
 }
+
+/// The pack's part of `summary.json`: layout, the cells' spread at the start and the horizon,
+/// every cell at the horizon, the weakest cell and the first cell to end its life.
+#[derive(serde::Serialize)]
+pub struct PackSummary {
+    pub parallel: usize,
+    pub series: usize,
+    pub fresh: PackSpread,
+    pub at_horizon: PackSpread,
+    pub cells: Vec<PackCellSummary>,
+    /// 1-based cell numbers, as in `pack.csv`.
+    pub weakest_cell: Option<usize>,
+    pub first_cell_to_end_life: Option<usize>,
+}
+
+/// The cells' spread of each quantity.
+#[derive(serde::Serialize)]
+pub struct PackSpread {
+    pub soh_pct: Spread,
+    pub current_share_pct: Spread,
+    pub peak_temperature_c: Spread,
+}
+
+/// Minimum, maximum and (population) standard deviation over the cells.
+#[derive(serde::Serialize)]
+pub struct Spread {
+    pub min: f64,
+    pub max: f64,
+    pub sd: f64,
+}
+
+impl Spread {
+    fn of(values: impl Iterator<Item = f64> + Clone) -> Spread {
+        let (min, max, sd) = spread(values);
+        Spread { min, max, sd }
+    }
+}
+
+#[derive(serde::Serialize)]
+pub struct PackCellSummary {
+    pub cell: usize,
+    pub group: usize,
+    pub place: usize,
+    pub interconnect_mohm: f64,
+    pub cycle_ambient_c: f64,
+    pub soh_pct: f64,
+    pub resistance_mohm: f64,
+    pub current_share_pct: f64,
+    pub peak_temperature_c: f64,
+    /// The cell's own end of life by the pack's capacity threshold; `null` when not reached.
+    pub end_of_life_cycles: Option<f64>,
+    pub end_of_life_years: Option<f64>,
+    /// Values drawn for this cell (parameter path → value), when cells are drawn apart.
+    pub drawn: std::collections::BTreeMap<String, f64>,
+}
+
+/// The pack summary, or None when the forecast reported no point.
+pub fn pack_summary(pack: &PackOutcome) -> Option<PackSummary> {
+    let spread_at = |cells: &[crate::forecast::PackCellPoint]| PackSpread {
+        soh_pct: Spread::of(cells.iter().map(|c| c.soh_pct)),
+        current_share_pct: Spread::of(cells.iter().map(|c| c.current_share_pct)),
+        peak_temperature_c: Spread::of(cells.iter().map(|c| c.peak_temperature_c)),
+    };
+    let (first, last) = (pack.points.first()?, pack.points.last()?);
+    let cells = pack
+        .positions
+        .iter()
+        .zip(last)
+        .enumerate()
+        .map(|(i, (position, point))| PackCellSummary {
+            cell: i + 1,
+            group: position.group + 1,
+            place: position.place + 1,
+            interconnect_mohm: position.interconnect_ohm * 1e3,
+            cycle_ambient_c: position.cycle_ambient_k - ZERO_CELSIUS_K,
+            soh_pct: point.soh_pct,
+            resistance_mohm: point.resistance_mohm,
+            current_share_pct: point.current_share_pct,
+            peak_temperature_c: point.peak_temperature_c,
+            end_of_life_cycles: pack.cell_end_of_life[i].map(|l| l.cycles),
+            end_of_life_years: pack.cell_end_of_life[i].map(|l| l.years),
+            drawn: pack.drawn.get(i).map(|d| d.iter().cloned().collect()).unwrap_or_default(),
+        })
+        .collect();
+    let first_to_end = pack
+        .cell_end_of_life
+        .iter()
+        .enumerate()
+        .filter_map(|(i, l)| l.map(|l| (i, l)))
+        .min_by(|a, b| a.1.years.total_cmp(&b.1.years))
+        .map(|(i, _)| i + 1);
+    Some(PackSummary {
+        parallel: pack.parallel,
+        series: pack.series,
+        fresh: spread_at(first),
+        at_horizon: spread_at(last),
+        cells,
+        weakest_cell: pack.weakest().map(|i| i + 1),
+        first_cell_to_end_life: first_to_end,
+    })
+}
