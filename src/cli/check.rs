@@ -1,7 +1,7 @@
 //! `fadecast check FILE...`: load each file, whatever its kind, and print what it describes
 //! with the quantities derived from it.
 
-use super::{caution_lines, print_caution, scenario_header, CliError};
+use super::{caution_lines, input_warning_lines, scenario_header, CliError};
 use crate::cycle::{balance_cell, simulate_periodic_cycle, Cell, Health, SolverSettings};
 use crate::input::{self, InputError, InputKind, Override, OverrideTarget};
 use crate::material::constants::SECONDS_PER_HOUR;
@@ -37,9 +37,6 @@ pub fn run(config: &CheckConfig, out: &mut impl Write) -> Result<(), CliError> {
             }
             Err(error) => failures.push(error),
         }
-    }
-    if reported > 0 {
-        print_caution(out)?;
     }
     match failures.len() {
         0 => Ok(()),
@@ -116,6 +113,8 @@ fn check_scenario(path: &Path, overrides: &[Override]) -> Result<String, CliErro
     let record = simulate_periodic_cycle(scenario, &Health::fresh(&scenario.cell), &SolverSettings::default())?;
     let capacity_ah = scenario.cell.nominal_capacity_coulomb / SECONDS_PER_HOUR;
     let mut text = scenario_header(path, &loaded);
+    // `check` reports what it understood, input warnings included, on standard output.
+    text.push_str(&input_warning_lines(&loaded).join("\n"));
     let _ = write!(text, "\nCell \"{}\"\n{}", scenario.cell.name, cell_section(&scenario.cell));
     let _ = write!(
         text,

@@ -6,8 +6,8 @@
 //! scenario itself, as given, is the first alternative ("scenario"), so
 //! `--variant 'hot: ambient_c=40'` compares the scenario with a hotter version of itself.
 
-use super::{caution_lines, print_caution, CliError};
-use crate::compare::{self, summarize_comparison, Alternative, CompareConfig, CompareError};
+use super::{print_caution, print_cautions, CliError};
+use crate::compare::{self, summarize_comparison_at, Alternative, CompareConfig, CompareError};
 use crate::ensemble::SampleStatus;
 use crate::forecast::{ForecastOptions, Horizon};
 use crate::input::{self, InputError, Override, OverrideTarget};
@@ -27,10 +27,8 @@ pub struct CompareCommandConfig {
     /// `NAME: key=value key=value`, as given.
     pub variants: Vec<String>,
     pub overrides: Vec<Override>,
-    /// 0: each alternative once, deterministically.
-    pub samples: u64,
-    pub seed: u64,
-    pub jobs: usize,
+    /// Samples 0: each alternative once, deterministically.
+    pub sampling: super::Sampling,
     pub horizon: Option<Horizon>,
     pub out_dir: PathBuf,
 }
@@ -136,10 +134,11 @@ fn refuse_variants_of_sampled_inputs(sources: &[AlternativeSource], parameters: 
 }
 
 pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), CliError> {
-    if config.samples > MAX_SAMPLES {
+    let sampling = &config.sampling;
+    if sampling.samples > MAX_SAMPLES {
         return Err(InputError::command_line_flag(
             "--samples",
-            format!("must be at most {MAX_SAMPLES}, found {}", config.samples),
+            format!("must be at most {MAX_SAMPLES}, found {}", sampling.samples),
         )
         .into());
     }
@@ -175,11 +174,15 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         .into());
     }
     let mut notes: Vec<String> = first.warnings.clone();
-    let spec = &first.uncertainty;
+    let from_file = match &sampling.uncertainty {
+        Some(file) => Some(input::load_uncertainty_file(file, &config.scenario, &config.overrides)?),
+        None => None,
+    };
+    let spec = from_file.as_ref().unwrap_or(&first.uncertainty);
     let sampler = super::bands::optional_sampler(
         spec,
-        config.samples,
-        config.seed,
+        sampling.samples,
+        sampling.seed,
         &config.scenario,
         "each alternative ran once",
         &mut notes,
@@ -196,7 +199,7 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         templates[alternative].build_drawn(spec, &paths, values).map_err(|e| e.to_string())
     };
     let compare_config =
-        CompareConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
+        CompareConfig { samples: sampling.samples, horizon, options: ForecastOptions::default(), jobs: sampling.jobs };
     let comparison =
         compare::run_comparison(&alternatives, sampler.as_ref(), &compare_config, &build).map_err(|e| -> CliError {
             match e {
@@ -211,9 +214,10 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
                 CompareError::Threads { .. } => CliError::Forecast(e.to_string()),
             }
         })?;
-    let summaries = summarize_comparison(&comparison);
+    let quantiles = sampling.outer_quantiles();
+    let summaries = summarize_comparison_at(&comparison, quantiles);
 
-    let csv = report::compare_csv(&summaries)?;
+    let csv = report::compare_csv(&summaries, quantiles)?;
     let svg = report::compare_svg(&summaries, &format!("{}: compared", first.scenario.name), cycling)?;
     let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice()), (SVG_NAME, svg.as_bytes())])?;
 
@@ -224,16 +228,16 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
             "  {} samples of {} uncertain inputs (seed {}), the same draws for every alternative",
             sampler.samples(),
             sampler.parameter_count(),
-            config.seed
+            sampling.seed
         );
     }
-    text.push_str(&report::compare_text(&summaries, comparison.sampled));
+    text.push_str(&report::compare_text(&summaries, comparison.sampled, quantiles));
     let cautions = report::compare_cautions(notes, &summaries, &comparison);
-    text.push_str(&caution_lines(&cautions));
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
-    print_caution(out)?;
+    print_cautions(&cautions)?;
+    print_caution()?;
     // A deterministic comparison with an alternative that has no result is a failed run, as a
     // failed `forecast` is (its outputs were still written, with that alternative's row blank).
     let failed: Vec<String> = comparison

@@ -4,7 +4,7 @@
 use super::cycle_svg::{padded_range, plot_error};
 use super::text::sig;
 use super::ReportError;
-use crate::calibrate::{Axis, FitResult, FitWarning, FittedParameter, HoldoutError, ResidualStats};
+use crate::calibrate::{Axis, FitResult, FitWarning, FittedParameter, HoldoutError, ResidualStats, Termination};
 use plotters::prelude::*;
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -26,19 +26,33 @@ struct FitRecord<'a> {
     residual_count: usize,
     model_evaluations: usize,
     starts: usize,
-    termination: &'a str,
+    termination: Termination,
     converged: bool,
     warnings: Vec<serde_json::Value>,
     /// Per dataset, the warnings of its forecast at the fitted values.
     forecast_warnings: Vec<serde_json::Value>,
 }
 
+/// Why the optimiser stopped, in words.
+pub fn termination_text(termination: Termination) -> &'static str {
+    match termination {
+        Termination::Converged => "converged",
+        Termination::Orthogonal => "converged (gradient test)",
+        Termination::ResidualsZero => "converged (residuals zero)",
+        Termination::LostPatience => "evaluation limit reached",
+        Termination::NoImprovementPossible => "no further improvement possible at floating-point precision",
+        Termination::NumericalTrouble => "numerical trouble (not-a-number or a failed trial)",
+        Termination::BadProblem => "no parameters or residuals to fit",
+    }
+}
+
 /// One fit warning in words.
 pub fn fit_warning_text(warning: &FitWarning) -> String {
     match warning {
         FitWarning::NotConverged { termination } => format!(
-            "WARNING: the fit did not converge (the optimiser stopped with {termination}): the values may not be \
-             a minimum and their standard errors may mislead; refit with other starts, bounds or data"
+            "WARNING: the fit did not converge (the optimiser stopped: {}): the values may not be \
+             a minimum and their standard errors may mislead; refit with other starts, bounds or data",
+            termination_text(*termination)
         ),
         FitWarning::Singular => "the data do not determine the parameters (JᵀJ is singular): no standard errors".into(),
         FitWarning::StandardErrorExceedsValue { path, standard_error, value } => {
@@ -64,7 +78,7 @@ pub fn fit_text(name: &str, datasets: usize, result: &FitResult, holdout_after: 
         result.starts,
         result.residual_count,
         sig(result.residual_variance, 3),
-        result.termination
+        termination_text(result.termination)
     );
     text.push_str("Parameters (± one standard error)\n");
     for p in &result.parameters {
@@ -153,7 +167,7 @@ pub fn fit_json(result: &FitResult, name: &str, holdout_after: Option<f64>) -> R
         residual_count: result.residual_count,
         model_evaluations: result.model_evaluations,
         starts: result.starts,
-        termination: &result.termination,
+        termination: result.termination,
         converged: result.converged,
         warnings: result.warnings.iter().map(|w| super::outcome::with_message(w, Some(fit_warning_text(w)))).collect(),
         forecast_warnings: result
@@ -167,9 +181,7 @@ pub fn fit_json(result: &FitResult, name: &str, holdout_after: Option<f64>) -> R
             })
             .collect(),
     };
-    let mut bytes = serde_json::to_vec_pretty(&record)?;
-    bytes.push(b'\n');
-    Ok(bytes)
+    Ok(super::schema::json_bytes(record)?)
 }
 
 /// The fitted cell file: the cell's table (fitted values and `[calibration]` already in it),
