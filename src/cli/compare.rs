@@ -49,14 +49,43 @@ pub fn parse_variant(text: &str) -> Result<(String, Vec<Override>), InputError> 
     if name.is_empty() {
         return Err(bad("the variant needs a name before `:`"));
     }
-    let overrides = settings
-        .split_whitespace()
-        .map(|s| input::parse_override(s).map_err(|e| InputError::command_line_flag("--variant", e.to_string())))
+    let overrides = settings_of(settings)
+        .iter()
+        .map(|s| super::command_line_override(s).map_err(|e| InputError::command_line_flag("--variant", e.to_string())))
         .collect::<Result<Vec<_>, _>>()?;
     if overrides.is_empty() {
         return Err(bad("give at least one key=value after the name"));
     }
     Ok((name.to_string(), overrides))
+}
+
+/// `key=value key=value` split into settings at white space outside brackets, braces and
+/// quotes, so a value is any TOML value: `usage.monthly_ambient_c=[1, 2, 3]`, `name="a b"`.
+fn settings_of(text: &str) -> Vec<String> {
+    let mut settings = Vec::new();
+    let mut current = String::new();
+    let (mut depth, mut quote): (i32, Option<char>) = (0, None);
+    for c in text.chars() {
+        match (quote, c) {
+            (Some(q), c) if c == q => quote = None,
+            (Some(_), _) => {}
+            (None, '"' | '\'') => quote = Some(c),
+            (None, '[' | '{') => depth += 1,
+            (None, ']' | '}') => depth -= 1,
+            (None, c) if c.is_whitespace() && depth <= 0 => {
+                if !current.is_empty() {
+                    settings.push(std::mem::take(&mut current));
+                }
+                continue;
+            }
+            _ => {}
+        }
+        current.push(c);
+    }
+    if !current.is_empty() {
+        settings.push(current);
+    }
+    settings
 }
 
 /// The scenario's `profile` replaced by a file given on the command line (made absolute, as the
@@ -267,6 +296,11 @@ mod tests {
         let (name, overrides) = parse_variant("hot depot: ambient_c=40 cell.limits.max_charge_current_a=8").unwrap();
         assert_eq!(name, "hot depot");
         assert_eq!(overrides.len(), 2);
+        let (_, overrides) =
+            parse_variant("mild: usage.monthly_ambient_c=[1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12] ambient_c=20")
+                .unwrap();
+        assert_eq!(overrides.len(), 2);
+        assert_eq!(overrides[0].value.as_array().map(Vec::len), Some(12), "a list value is one TOML array");
         for bad in ["ambient_c=40", ": ambient_c=40", "hot:", "hot: ambient_c"] {
             let e = parse_variant(bad).unwrap_err().to_string();
             assert!(e.contains("--variant"), "{bad}: {e}");

@@ -144,12 +144,23 @@ fn fitted_cell(loaded: &LoadedFit, result: &FitResult, origin: &str) -> Result<S
         overrides.push(Override::number("cell.calibration.min_temperature_c", low - ZERO_CELSIUS_K)?);
         overrides.push(Override::number("cell.calibration.max_temperature_c", high - ZERO_CELSIUS_K)?);
     }
-    let table = input::cell_table_with(&loaded.cell_path, &overrides)?;
+    // The values must make a loadable cell table (every input rule applies) …
+    input::cell_table_with(&loaded.cell_path, &overrides)?;
+    // … and are written into the original file's text, which keeps its comments and layout.
+    let original = std::fs::read_to_string(&loaded.cell_path)
+        .map_err(|e| CliError::Input(InputError::unreadable(&loaded.cell_path, &e)))?;
+    let values: Vec<(Vec<String>, f64)> = overrides
+        .iter()
+        .filter(|o| o.target == input::OverrideTarget::Cell)
+        .filter_map(|o| {
+            o.value.as_float().or_else(|| o.value.as_integer().map(|i| i as f64)).map(|v| (o.path.clone(), v))
+        })
+        .collect();
     let mut origin = origin.to_string();
     let others: Vec<&str> =
         result.parameters.iter().filter(|p| !p.path.starts_with("cell.")).map(|p| p.path.as_str()).collect();
     if !others.is_empty() {
         let _ = write!(origin, "\nFitted inputs outside the cell (see fit.json): {}", others.join(", "));
     }
-    Ok(report::fitted_cell_toml(&table, &origin)?)
+    Ok(report::fitted_cell_toml(&original, &values, &origin)?)
 }

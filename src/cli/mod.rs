@@ -15,7 +15,7 @@ use crate::input::{self, InputError, LoadedScenario, Override};
 use crate::material::constants::ZERO_CELSIUS_K;
 use crate::report::text::sig;
 use crate::report::ReportError;
-use clap::{Args, Parser, Subcommand};
+use clap::{Args, CommandFactory, Parser, Subcommand};
 use std::fmt::Write as _;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -299,6 +299,19 @@ enum Command {
         #[command(flatten)]
         overrides: OverrideArgs,
     },
+    /// Print a shell completion script, generated from these definitions
+    ///
+    /// For example `fadecast completions bash > ~/.local/share/bash-completion/completions/fadecast`
+    /// or `fadecast completions zsh > "${fpath[1]}/_fadecast"`.
+    Completions {
+        /// The shell to complete in.
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff), generated from these definitions
+    ///
+    /// For example `fadecast man > fadecast.1 && man ./fadecast.1`.
+    Man,
     /// Combine the shards of one `bands` run into the outputs of a single run
     Merge {
         /// The shards' output directories.
@@ -442,6 +455,14 @@ pub fn run() -> Result<(), CliError> {
             fit::run(&config, &mut stdout)
         }
         Command::Merge { shards, out } => bands::merge(&shards, &out, &mut stdout),
+        Command::Completions { shell } => {
+            clap_complete::generate(shell, &mut Arguments::command(), "fadecast", &mut stdout);
+            Ok(())
+        }
+        Command::Man => {
+            clap_mangen::Man::new(Arguments::command()).render(&mut stdout)?;
+            Ok(())
+        }
     }
 }
 
@@ -449,7 +470,7 @@ pub fn run() -> Result<(), CliError> {
 /// or lies under a file, or (for `merge`) one of the shard directories being merged.
 fn check_out_dir(command: &Command) -> Result<(), InputError> {
     let (out, inputs): (&Path, &[PathBuf]) = match command {
-        Command::Check { .. } => return Ok(()),
+        Command::Check { .. } | Command::Completions { .. } | Command::Man => return Ok(()),
         Command::Cycle { out, .. }
         | Command::Forecast { out, .. }
         | Command::Bands { out, .. }
@@ -517,7 +538,25 @@ fn parse_jobs(jobs: Option<usize>) -> Result<usize, InputError> {
 
 /// The `--set` values given before and after the command name, in that order.
 fn parse_overrides(before_command: &OverrideArgs, after_command: &OverrideArgs) -> Result<Vec<Override>, InputError> {
-    before_command.set.iter().chain(&after_command.set).map(|text| input::parse_override(text)).collect()
+    before_command.set.iter().chain(&after_command.set).map(|text| command_line_override(text)).collect()
+}
+
+/// A `KEY=VALUE` from the command line. A file named there (`cell=…`, `profile=…`) is relative
+/// to the current directory, as every other path on the command line is, not to the scenario
+/// file: it is made absolute here.
+fn command_line_override(text: &str) -> Result<Override, InputError> {
+    let mut item = input::parse_override(text)?;
+    let names_a_file = item.target == input::OverrideTarget::Scenario
+        && matches!(item.path.as_slice(), [key] if key == "cell" || key == "profile");
+    if let (true, toml::Value::String(path)) = (names_a_file, &item.value) {
+        let path = Path::new(path);
+        if path.is_relative() {
+            if let Ok(here) = std::env::current_dir() {
+                item.value = toml::Value::String(here.join(path).display().to_string());
+            }
+        }
+    }
+    Ok(item)
 }
 
 /// The forecast's stop as an input error, when it stopped because the scenario's usage asks
@@ -582,7 +621,6 @@ fn caution_lines(cautions: &[String]) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use clap::CommandFactory;
 
     #[test]
     fn argument_definitions_are_consistent() {
