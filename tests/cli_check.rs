@@ -49,12 +49,40 @@ fn several_files_of_every_kind_in_one_run() {
 }
 
 #[test]
-fn profile_steps_read_in_words() {
+fn profile_steps_read_as_a_table() {
     fadecast().args(["check", common::PROFILE_OVERNIGHT]).assert().success().stdout(
         predicate::str::is_match(r"steps\s+\d+ after expanding repeats")
             .unwrap()
-            .and(predicate::str::contains(" until ")),
+            .and(predicate::str::is_match(r"step\s+mode\s+set point\s+ends when").unwrap())
+            .and(predicate::str::contains("constant current, charge")),
     );
+}
+
+#[test]
+fn fit_descriptions_aging_data_and_uncertainty_sections_are_recognised() {
+    fadecast()
+        .args(["check", "examples/fit/van-storage-fit.toml", "examples/fit/storage-25c.csv"])
+        .assert()
+        .success()
+        .stdout(
+            predicate::str::contains("fit description")
+                .and(predicate::str::contains("free parameters"))
+                .and(predicate::str::contains("measured aging data"))
+                .and(predicate::str::is_match(r"axis\s+day").unwrap()),
+        );
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("uncertainty.toml");
+    std::fs::write(
+        &file,
+        "[uncertainty]\n[[uncertainty.parameter]]\npath = \"ambient_c\"\ndistribution = \"normal\"\nmean = 25\nsd = 2\n",
+    )
+    .unwrap();
+    fadecast()
+        .arg("check")
+        .arg(&file)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("uncertainty section").and(predicate::str::contains("normal, mean 25 sd 2")));
 }
 
 #[test]

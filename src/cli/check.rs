@@ -53,9 +53,9 @@ fn unused_override(config: &CheckConfig) -> Option<InputError> {
     let has = |kind: InputKind| kinds.contains(&kind);
     config.overrides.iter().find_map(|item| {
         let taken = match item.target {
-            OverrideTarget::Scenario => has(InputKind::Scenario),
-            OverrideTarget::Cell => has(InputKind::Cell) || has(InputKind::Scenario),
-            OverrideTarget::Profile => has(InputKind::Profile) || has(InputKind::Scenario),
+            OverrideTarget::Scenario => has(InputKind::Scenario) || has(InputKind::Fit),
+            OverrideTarget::Cell => has(InputKind::Cell) || has(InputKind::Scenario) || has(InputKind::Fit),
+            OverrideTarget::Profile => has(InputKind::Profile) || has(InputKind::Scenario) || has(InputKind::Fit),
         };
         let hint = if has(InputKind::Cell) {
             format!("; for the cell file write `cell.{}`", item.path.join("."))
@@ -97,6 +97,24 @@ fn check_file(path: &Path, overrides: &[Override]) -> Result<String, CliError> {
             format!("{}: {what} \"{}\"\n{}", path.display(), duty.name(), report::duty_report(&duty, start_soc, None))
         }
         InputKind::Scenario => check_scenario(path, overrides)?,
+        InputKind::Fit => {
+            let loaded = input::load_fit(path, overrides)?;
+            let scenarios: Vec<String> = loaded.sources.iter().map(|s| s.scenario_path.display().to_string()).collect();
+            format!(
+                "{}: fit description, cell {}\n{}",
+                path.display(),
+                loaded.cell_path.display(),
+                report::fit_report(&loaded.name, &loaded.problem, &scenarios)
+            )
+        }
+        InputKind::AgingData => {
+            let (axis, points) = input::load_measured(path)?;
+            format!("{}: measured aging data\n{}", path.display(), report::aging_data_report(axis, &points))
+        }
+        InputKind::Uncertainty => {
+            let spec = input::load_uncertainty_alone(path)?;
+            format!("{}: uncertainty section\n{}", path.display(), report::uncertainty_report(&spec))
+        }
     };
     Ok(text)
 }

@@ -37,7 +37,10 @@ pub use fade_svg::fade_svg;
 pub use fit::{fit_json, fit_svg, fit_text, fit_warning_text, fitted_cell_toml, uncertainty_toml};
 pub use forecast_json::forecast_json;
 pub use forecast_text::{forecast_text, forecast_warning_lines};
-pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
+pub use inputs::{
+    aging_data_report, cell_report, describe_step, duty_report, fit_report, series_totals, uncertainty_report,
+    SeriesTotals,
+};
 pub use journal::{decode_journal, encode_record, JournalEnding, JournalRead};
 pub use outcome::{
     counted_warning_lines, counted_warnings_json, failure_text, stop_json, stop_text, warning_json, warning_kind_text,
