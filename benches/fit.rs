@@ -81,7 +81,7 @@ fn main() {
     let elapsed = started.elapsed().as_secs_f64();
     println!(
         "fit: 3 parameters, 2 datasets × {POINTS} points, {} starts: {elapsed:.2} s, {} model evaluations \
-         ({:.1} ms each), termination {}",
+         ({:.1} ms each), termination {:?}",
         result.starts,
         result.model_evaluations,
         1000.0 * elapsed / result.model_evaluations as f64,

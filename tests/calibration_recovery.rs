@@ -203,7 +203,7 @@ fn cycling_fit_recovers_film_rate_film_diffusion_and_paris_coefficient() {
         );
     }
     println!(
-        "{} model evaluations; warnings {:?} term {} ssr {} m {}",
+        "{} model evaluations; warnings {:?} term {:?} ssr {} m {}",
         result.model_evaluations, result.warnings, result.termination, result.sum_of_squares, result.residual_count
     );
     for (p, e) in result.parameters.iter().zip(&errors) {

@@ -11,16 +11,10 @@ const SCENARIO: &str = common::OVERNIGHT;
 
 /// Runs `cycle` on the demo scenario with extra arguments, writing into `out`; returns stdout.
 fn run_cycle(out: &Path, extra: &[&str]) -> String {
-    let output = fadecast()
-        .args(["cycle", SCENARIO, "--out"])
-        .arg(out)
-        .args(extra)
-        .assert()
-        .success()
-        .get_output()
-        .stdout
-        .clone();
-    String::from_utf8(output).unwrap()
+    let output =
+        fadecast().args(["cycle", SCENARIO, "--out"]).arg(out).args(extra).assert().success().get_output().clone();
+    // Results on stdout, warnings and cautions on stderr: read both, in that order.
+    format!("{}{}", String::from_utf8_lossy(&output.stdout), String::from_utf8_lossy(&output.stderr))
 }
 
 /// The largest value of `column` in a cycle.csv.
@@ -89,7 +83,7 @@ fn temperature_outside_the_window_is_warned_about() {
         .args(["--set", "ambient_c=35", "--set", "cell.limits.max_temperature_c=30"])
         .assert()
         .success()
-        .stdout(predicate::str::contains("WARNING: peak temperature"));
+        .stderr(predicate::str::contains("WARNING: peak temperature"));
 }
 
 #[test]
@@ -110,7 +104,7 @@ fn series_held_back_at_the_voltage_limit_is_warned_about() {
         .arg(&out)
         .assert()
         .success()
-        .stdout(predicate::str::contains("was derated there"));
+        .stderr(predicate::str::contains("was derated there"));
     let csv = std::fs::read_to_string(out.join("cycle.csv")).unwrap();
     assert!(csv.lines().nth(1).unwrap().ends_with(",1,series"), "a series is step 1, labelled by its name");
 }

@@ -110,8 +110,8 @@ fn fit_writes_its_outputs_and_its_uncertainty_gives_bands_that_widen_beyond_the_
         .arg(dir.path().join("forecast"))
         .assert()
         .success();
-    let stdout = String::from_utf8_lossy(&forecast.get_output().stdout).to_string();
-    assert!(stdout.contains("beyond the calibration range"), "{stdout}");
+    let stderr = String::from_utf8_lossy(&forecast.get_output().stderr).to_string();
+    assert!(stderr.contains("beyond the calibration range"), "warnings go to stderr: {stderr}");
 
     // Bands from the fit's uncertainty: no spread at the start, and wider at ten years than at
     // the end of the data (five years).

@@ -18,7 +18,7 @@ fn a_pack_forecast_writes_its_cells_and_names_the_weakest() {
         .success()
         .stdout(predicate::str::contains("Pack: 4 in parallel × 4 in series (16 cells)"))
         .stdout(predicate::str::contains("weakest cell"))
-        .stdout(predicate::str::contains(fadecast::CAUTION))
+        .stderr(predicate::str::contains(fadecast::CAUTION))
         .get_output()
         .stdout
         .clone();

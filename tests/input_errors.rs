@@ -56,7 +56,7 @@ diffusivity_m2_s = 1.0e-14
 diffusivity_activation_kj_mol = 30.0
 rate_constant_m_s = 1.0e-10
 rate_constant_activation_kj_mol = 40.0
-ocp = "graphite-2011"
+ocp = "graphite-staged"
 entropic_coefficient_mv_k = -0.2
 youngs_modulus_gpa = 10.0
 poisson_ratio = 0.25
@@ -321,7 +321,7 @@ fn valid_cell_converts_to_si_units() {
     assert_close(negative.entropic_coefficient_v_k, -0.2e-3);
     assert_close(negative.youngs_modulus_pa, 10.0e9);
     assert_close(negative.partial_molar_volume_m3_mol, 3.0e-6);
-    assert_eq!(negative.ocp, OpenCircuit::Builtin(BuiltinOcp::Graphite2011));
+    assert_eq!(negative.ocp, OpenCircuit::Builtin(BuiltinOcp::GraphiteStaged));
     assert_close(negative.capacity_coulomb(), 50.0e-6 * 0.1 * 0.5 * 30000.0 * FARADAY);
 
     let positive = &cell.positive;
@@ -400,11 +400,11 @@ fn impossible_cell_values_name_key_rule_and_line() {
         ("poisson_ratio = 0.3", "poisson_ratio = 0.7", "positive.poisson_ratio", "must lie in 0–0.5", "0.7"),
         ("min_temperature_c = -10.0", "min_temperature_c = 70.0", "limits.min_temperature_c", "must be below", "70.0"),
         (
-            "ocp = \"graphite-2011\"",
-            "ocp = \"graphite-201\"",
+            "ocp = \"graphite-staged\"",
+            "ocp = \"graphite-stage\"",
             "negative.ocp",
-            "did you mean `graphite-2011`?",
-            "-201\"",
+            "did you mean `graphite-staged`?",
+            "-stage\"",
         ),
         ("  [0.6, 3.9],", "  [0.2, 3.9],", "positive.ocp_table", "must increase strictly", "ocp_table"),
         ("diffusivity_m2_s = 1.0e-14", "diffusivity_m2_s = nan", "negative.diffusivity_m2_s", "finite", "nan"),
@@ -420,7 +420,7 @@ fn impossible_cell_values_name_key_rule_and_line() {
 #[test]
 fn both_ocp_forms_is_an_error() {
     let files = Files::new();
-    let text = edited(CELL, "ocp_table = [", "ocp = \"cobalt-oxide-1996\"\nocp_table = [");
+    let text = edited(CELL, "ocp_table = [", "ocp = \"cobalt-oxide\"\nocp_table = [");
     let (path, error) = cell_error(&files, &text);
     assert_error(&error, &path, Some(line_of(&text, "ocp_table")), "positive.ocp_table", "not both");
 }

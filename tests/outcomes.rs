@@ -21,7 +21,8 @@ fn fadecast() -> Command {
 fn run_ok(args: &[&str]) -> String {
     let output = fadecast().args(args).output().unwrap();
     assert!(output.status.success(), "{args:?}: {}", String::from_utf8_lossy(&output.stderr));
-    String::from_utf8(output.stdout).unwrap()
+    // Results on stdout, warnings and cautions on stderr: read both.
+    format!("{}{}", String::from_utf8_lossy(&output.stdout), String::from_utf8_lossy(&output.stderr))
 }
 
 fn json(path: &Path) -> Value {
@@ -167,7 +168,7 @@ fn compare_and_table_flag_plating_from_the_typed_warning() {
     let header: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
     let column = header.iter().position(|h| *h == "plating_predicted").unwrap();
     let flags: Vec<String> = csv.lines().skip(1).map(|l| l.split(',').nth(column).unwrap().to_string()).collect();
-    assert_eq!(flags, ["no", "yes"], "{csv}");
+    assert_eq!(flags, ["false", "true"], "{csv}");
 
     let table_out = dir.path().join("table");
     run_ok(&[
@@ -193,7 +194,7 @@ fn compare_and_table_flag_plating_from_the_typed_warning() {
     for line in csv.lines().skip(1) {
         let cells: Vec<&str> = line.split(',').collect();
         let cold = cells[ambient].parse::<f64>().unwrap() < 1.0;
-        assert_eq!(cells[plating], if cold { "yes" } else { "no" }, "{line}");
+        assert_eq!(cells[plating], if cold { "true" } else { "false" }, "{line}");
     }
 }
 

@@ -244,7 +244,7 @@ pub enum FitWarning {
     /// The optimiser stopped without meeting its convergence tests (iteration or patience
     /// limit, or a numerical failure): the values may not be a minimum.
     NotConverged {
-        termination: String,
+        termination: Termination,
     },
     /// JᵀJ is singular: the data do not determine the parameters.
     Singular,
@@ -266,6 +266,41 @@ pub enum FitWarning {
     },
 }
 
+/// Why the optimiser stopped on the winning start (the `levenberg-marquardt` crate's reasons,
+/// kept as a type so outputs carry a name, not a debug string).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Termination {
+    /// The change of the sum of squares or of the parameters fell below its tolerance.
+    Converged,
+    /// The residuals are orthogonal to the Jacobian's columns (gradient test).
+    Orthogonal,
+    ResidualsZero,
+    /// The evaluation limit (patience) was reached.
+    LostPatience,
+    /// A tolerance is below what floating point can resolve.
+    NoImprovementPossible,
+    /// Not-a-number or infinity met, or the model failed at a trial.
+    NumericalTrouble,
+    /// No parameters, no residuals or mismatched dimensions.
+    BadProblem,
+}
+
+impl Termination {
+    pub fn of(reason: &levenberg_marquardt::TerminationReason) -> Self {
+        use levenberg_marquardt::TerminationReason as R;
+        match reason {
+            R::Converged { .. } => Termination::Converged,
+            R::Orthogonal => Termination::Orthogonal,
+            R::ResidualsZero => Termination::ResidualsZero,
+            R::LostPatience => Termination::LostPatience,
+            R::NoImprovementPossible(_) => Termination::NoImprovementPossible,
+            R::Numerical(_) | R::User(_) => Termination::NumericalTrouble,
+            R::NoParameters | R::NoResiduals | R::WrongDimensions(_) => Termination::BadProblem,
+        }
+    }
+}
+
 /// Everything a fit found.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct FitResult {
@@ -285,7 +320,7 @@ pub struct FitResult {
     pub model_evaluations: usize,
     pub starts: usize,
     /// The optimiser's termination on the winning start.
-    pub termination: String,
+    pub termination: Termination,
     /// Whether that termination met the optimiser's convergence tests.
     pub converged: bool,
     pub warnings: Vec<FitWarning>,

@@ -8,7 +8,9 @@ use super::{
 use crate::forecast::{run_forecast, FadePoint, Forecast, ForecastOptions, Horizon, StopReason, WarningKind};
 use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
 use nalgebra::{DMatrix, DVector, Dyn, Owned};
-use std::cell::{Cell, RefCell};
+use rayon::prelude::*;
+use std::cell::RefCell;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 const DAYS_PER_YEAR: f64 = 365.25;
 /// The optimiser works on z + Z_SHIFT: the crate sizes its first trust region and tests its
@@ -43,7 +45,7 @@ pub fn fit(
     let initial: Vec<f64> = problem.parameters.iter().map(|p| p.initial).collect();
     model.residuals(&initial).map_err(CalibrationError::StartFailed)?;
 
-    let mut best: Option<(Vec<f64>, f64, String, bool)> = None;
+    let mut best: Option<(Vec<f64>, f64, super::Termination, bool)> = None;
     let mut last_failure = String::new();
     for start in 0..options.starts.max(1) {
         let z0: Vec<f64> =
@@ -62,7 +64,7 @@ pub fn fit(
                 let ssr: f64 = r.iter().map(|x| x * x).sum();
                 if best.as_ref().is_none_or(|(_, b, _, _)| ssr < *b) {
                     let converged = report.termination.was_successful();
-                    best = Some((values, ssr, format!("{:?}", report.termination), converged));
+                    best = Some((values, ssr, super::Termination::of(&report.termination), converged));
                 }
             }
             Err(e) => last_failure = e,
@@ -101,7 +103,7 @@ struct Model<'a> {
     /// Equivalent full cycles per cycle at the starting values, for datasets on the efc axis:
     /// a forecast runs in cycles, so the horizon that covers the data is estimated from it.
     efc_per_cycle: Vec<f64>,
-    evaluations: Cell<usize>,
+    evaluations: AtomicUsize,
 }
 
 impl<'a> Model<'a> {
@@ -118,7 +120,7 @@ impl<'a> Model<'a> {
             curve_points: options.curve_points.max(2),
             bounds,
             efc_per_cycle: vec![1.0; problem.datasets.len()],
-            evaluations: Cell::new(0),
+            evaluations: AtomicUsize::new(0),
         };
         let initial: Vec<f64> = problem.parameters.iter().map(|p| p.initial).collect();
         for (d, dataset) in problem.datasets.iter().enumerate() {
@@ -169,7 +171,7 @@ impl<'a> Model<'a> {
         report_points: usize,
     ) -> Result<Forecast, String> {
         let (scenario, plan) = self.source.scenario(d, values)?;
-        self.evaluations.set(self.evaluations.get() + 1);
+        self.evaluations.fetch_add(1, Ordering::Relaxed);
         let options = ForecastOptions { report_points, ..self.forecast };
         let forecast = run_forecast(&scenario, &plan, horizon, &options);
         match &forecast.stop {
@@ -223,20 +225,34 @@ impl<'a> Model<'a> {
     /// Weighted residuals at the fitted points for parameter values.
     fn residuals(&self, values: &[f64]) -> Result<Vec<f64>, String> {
         let w = &self.problem.weights;
-        let mut out = Vec::with_capacity(self.residual_count());
-        for (d, dataset) in self.problem.datasets.iter().enumerate() {
-            let fitted: Vec<_> = dataset.points.iter().filter(|p| self.is_fitted(p.x)).collect();
-            if fitted.is_empty() {
-                continue;
-            }
-            let xs: Vec<f64> = fitted.iter().map(|p| p.x).collect();
-            let (predicted, _) = self.predict(d, values, &xs)?;
-            for (point, (capacity, resistance)) in fitted.iter().zip(predicted) {
-                out.push(w.capacity_per_ah * (capacity - point.capacity_ah));
-                if let Some(measured) = point.resistance_mohm.filter(|_| w.resistance_per_mohm > 0.0) {
-                    out.push(w.resistance_per_mohm * (resistance - measured));
+        // The datasets' forecasts are independent: run them on the thread pool the caller
+        // installed (`--jobs`), then join them in dataset order, so the result is the same for
+        // any number of threads.
+        let per_dataset: Vec<Result<Vec<f64>, String>> = self
+            .problem
+            .datasets
+            .par_iter()
+            .enumerate()
+            .map(|(d, dataset)| {
+                let fitted: Vec<_> = dataset.points.iter().filter(|p| self.is_fitted(p.x)).collect();
+                let mut out = Vec::with_capacity(2 * fitted.len());
+                if fitted.is_empty() {
+                    return Ok(out);
                 }
-            }
+                let xs: Vec<f64> = fitted.iter().map(|p| p.x).collect();
+                let (predicted, _) = self.predict(d, values, &xs)?;
+                for (point, (capacity, resistance)) in fitted.iter().zip(predicted) {
+                    out.push(w.capacity_per_ah * (capacity - point.capacity_ah));
+                    if let Some(measured) = point.resistance_mohm.filter(|_| w.resistance_per_mohm > 0.0) {
+                        out.push(w.resistance_per_mohm * (resistance - measured));
+                    }
+                }
+                Ok(out)
+            })
+            .collect();
+        let mut out = Vec::with_capacity(self.residual_count());
+        for residuals in per_dataset {
+            out.extend(residuals?);
         }
         Ok(out)
     }
@@ -254,7 +270,7 @@ impl<'a> Model<'a> {
         &self,
         values: &[f64],
         ssr: f64,
-        termination: String,
+        termination: super::Termination,
         converged: bool,
     ) -> Result<FitResult, CalibrationError> {
         let n = values.len();
@@ -282,7 +298,7 @@ impl<'a> Model<'a> {
         let residual_variance = ssr / dof as f64;
         let mut warnings = Vec::new();
         if !converged {
-            warnings.push(FitWarning::NotConverged { termination: termination.clone() });
+            warnings.push(FitWarning::NotConverged { termination });
         }
         let covariance = match (jacobian.transpose() * &jacobian).try_inverse() {
             Some(inverse) => inverse * residual_variance,
@@ -352,7 +368,7 @@ impl<'a> Model<'a> {
             sum_of_squares: base.iter().map(|x| x * x).sum(),
             residual_variance,
             residual_count: m,
-            model_evaluations: self.evaluations.get(),
+            model_evaluations: self.evaluations.load(Ordering::Relaxed),
             starts: 0,
             termination,
             converged,

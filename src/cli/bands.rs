@@ -4,7 +4,7 @@
 //! merged exactly (`fadecast merge`). `fadecast merge DIR... --out DIR` lives here too: both
 //! end in the same [`finish`], so a merged set of shards writes the same bytes as one run.
 
-use super::{print_caution, CliError};
+use super::{print_caution, print_cautions, CliError};
 use crate::ensemble::Sampler;
 use crate::ensemble::{run_ensemble, summarize, EnsembleConfig, SampleRecord, Shard, Warranty};
 use crate::forecast::{report_grid, ForecastOptions, Horizon};
@@ -431,11 +431,12 @@ fn finish(
         ],
     )?;
 
-    let mut text = report::ensemble_text(&description.scenario, description.seed, &summary, &warnings);
+    let mut text = report::ensemble_text(&description.scenario, description.seed, &summary, &[]);
     let names: Vec<String> = written.iter().take(5).map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
-    print_caution(out)?;
+    print_cautions(&warnings)?;
+    print_caution()?;
     Ok(())
 }
 

@@ -1,7 +1,7 @@
 //! `fadecast check FILE...`: load each file, whatever its kind, and print what it describes
 //! with the quantities derived from it.
 
-use super::{caution_lines, print_caution, scenario_header, CliError};
+use super::{caution_lines, input_warning_lines, scenario_header, CliError};
 use crate::cycle::{balance_cell, simulate_periodic_cycle, Cell, Health, SolverSettings};
 use crate::input::{self, InputError, InputKind, Override, OverrideTarget};
 use crate::material::constants::SECONDS_PER_HOUR;
@@ -38,9 +38,6 @@ pub fn run(config: &CheckConfig, out: &mut impl Write) -> Result<(), CliError> {
             Err(error) => failures.push(error),
         }
     }
-    if reported > 0 {
-        print_caution(out)?;
-    }
     match failures.len() {
         0 => Ok(()),
         1 => Err(failures.remove(0)),
@@ -56,9 +53,9 @@ fn unused_override(config: &CheckConfig) -> Option<InputError> {
     let has = |kind: InputKind| kinds.contains(&kind);
     config.overrides.iter().find_map(|item| {
         let taken = match item.target {
-            OverrideTarget::Scenario => has(InputKind::Scenario),
-            OverrideTarget::Cell => has(InputKind::Cell) || has(InputKind::Scenario),
-            OverrideTarget::Profile => has(InputKind::Profile) || has(InputKind::Scenario),
+            OverrideTarget::Scenario => has(InputKind::Scenario) || has(InputKind::Fit),
+            OverrideTarget::Cell => has(InputKind::Cell) || has(InputKind::Scenario) || has(InputKind::Fit),
+            OverrideTarget::Profile => has(InputKind::Profile) || has(InputKind::Scenario) || has(InputKind::Fit),
         };
         let hint = if has(InputKind::Cell) {
             format!("; for the cell file write `cell.{}`", item.path.join("."))
@@ -100,6 +97,24 @@ fn check_file(path: &Path, overrides: &[Override]) -> Result<String, CliError> {
             format!("{}: {what} \"{}\"\n{}", path.display(), duty.name(), report::duty_report(&duty, start_soc, None))
         }
         InputKind::Scenario => check_scenario(path, overrides)?,
+        InputKind::Fit => {
+            let loaded = input::load_fit(path, overrides)?;
+            let scenarios: Vec<String> = loaded.sources.iter().map(|s| s.scenario_path.display().to_string()).collect();
+            format!(
+                "{}: fit description, cell {}\n{}",
+                path.display(),
+                loaded.cell_path.display(),
+                report::fit_report(&loaded.name, &loaded.problem, &scenarios)
+            )
+        }
+        InputKind::AgingData => {
+            let (axis, points) = input::load_measured(path)?;
+            format!("{}: measured aging data\n{}", path.display(), report::aging_data_report(axis, &points))
+        }
+        InputKind::Uncertainty => {
+            let spec = input::load_uncertainty_alone(path)?;
+            format!("{}: uncertainty section\n{}", path.display(), report::uncertainty_report(&spec))
+        }
     };
     Ok(text)
 }
@@ -116,6 +131,8 @@ fn check_scenario(path: &Path, overrides: &[Override]) -> Result<String, CliErro
     let record = simulate_periodic_cycle(scenario, &Health::fresh(&scenario.cell), &SolverSettings::default())?;
     let capacity_ah = scenario.cell.nominal_capacity_coulomb / SECONDS_PER_HOUR;
     let mut text = scenario_header(path, &loaded);
+    // `check` reports what it understood, input warnings included, on standard output.
+    text.push_str(&input_warning_lines(&loaded).join("\n"));
     let _ = write!(text, "\nCell \"{}\"\n{}", scenario.cell.name, cell_section(&scenario.cell));
     let _ = write!(
         text,

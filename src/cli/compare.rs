@@ -6,8 +6,8 @@
 //! scenario itself, as given, is the first alternative ("scenario"), so
 //! `--variant 'hot: ambient_c=40'` compares the scenario with a hotter version of itself.
 
-use super::{caution_lines, print_caution, CliError};
-use crate::compare::{self, summarize_comparison, Alternative, CompareConfig, CompareError};
+use super::{print_caution, print_cautions, CliError};
+use crate::compare::{self, summarize_comparison_at, Alternative, CompareConfig, CompareError};
 use crate::ensemble::SampleStatus;
 use crate::forecast::{ForecastOptions, Horizon};
 use crate::input::{self, InputError, Override, OverrideTarget};
@@ -27,10 +27,8 @@ pub struct CompareCommandConfig {
     /// `NAME: key=value key=value`, as given.
     pub variants: Vec<String>,
     pub overrides: Vec<Override>,
-    /// 0: each alternative once, deterministically.
-    pub samples: u64,
-    pub seed: u64,
-    pub jobs: usize,
+    /// Samples 0: each alternative once, deterministically.
+    pub sampling: super::Sampling,
     pub horizon: Option<Horizon>,
     pub out_dir: PathBuf,
 }
@@ -51,14 +49,43 @@ pub fn parse_variant(text: &str) -> Result<(String, Vec<Override>), InputError> 
     if name.is_empty() {
         return Err(bad("the variant needs a name before `:`"));
     }
-    let overrides = settings
-        .split_whitespace()
-        .map(|s| input::parse_override(s).map_err(|e| InputError::command_line_flag("--variant", e.to_string())))
+    let overrides = settings_of(settings)
+        .iter()
+        .map(|s| super::command_line_override(s).map_err(|e| InputError::command_line_flag("--variant", e.to_string())))
         .collect::<Result<Vec<_>, _>>()?;
     if overrides.is_empty() {
         return Err(bad("give at least one key=value after the name"));
     }
     Ok((name.to_string(), overrides))
+}
+
+/// `key=value key=value` split into settings at white space outside brackets, braces and
+/// quotes, so a value is any TOML value: `usage.monthly_ambient_c=[1, 2, 3]`, `name="a b"`.
+fn settings_of(text: &str) -> Vec<String> {
+    let mut settings = Vec::new();
+    let mut current = String::new();
+    let (mut depth, mut quote): (i32, Option<char>) = (0, None);
+    for c in text.chars() {
+        match (quote, c) {
+            (Some(q), c) if c == q => quote = None,
+            (Some(_), _) => {}
+            (None, '"' | '\'') => quote = Some(c),
+            (None, '[' | '{') => depth += 1,
+            (None, ']' | '}') => depth -= 1,
+            (None, c) if c.is_whitespace() && depth <= 0 => {
+                if !current.is_empty() {
+                    settings.push(std::mem::take(&mut current));
+                }
+                continue;
+            }
+            _ => {}
+        }
+        current.push(c);
+    }
+    if !current.is_empty() {
+        settings.push(current);
+    }
+    settings
 }
 
 /// The scenario's `profile` replaced by a file given on the command line (made absolute, as the
@@ -136,10 +163,11 @@ fn refuse_variants_of_sampled_inputs(sources: &[AlternativeSource], parameters: 
 }
 
 pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), CliError> {
-    if config.samples > MAX_SAMPLES {
+    let sampling = &config.sampling;
+    if sampling.samples > MAX_SAMPLES {
         return Err(InputError::command_line_flag(
             "--samples",
-            format!("must be at most {MAX_SAMPLES}, found {}", config.samples),
+            format!("must be at most {MAX_SAMPLES}, found {}", sampling.samples),
         )
         .into());
     }
@@ -175,11 +203,15 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         .into());
     }
     let mut notes: Vec<String> = first.warnings.clone();
-    let spec = &first.uncertainty;
+    let from_file = match &sampling.uncertainty {
+        Some(file) => Some(input::load_uncertainty_file(file, &config.scenario, &config.overrides)?),
+        None => None,
+    };
+    let spec = from_file.as_ref().unwrap_or(&first.uncertainty);
     let sampler = super::bands::optional_sampler(
         spec,
-        config.samples,
-        config.seed,
+        sampling.samples,
+        sampling.seed,
         &config.scenario,
         "each alternative ran once",
         &mut notes,
@@ -196,7 +228,7 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
         templates[alternative].build_drawn(spec, &paths, values).map_err(|e| e.to_string())
     };
     let compare_config =
-        CompareConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
+        CompareConfig { samples: sampling.samples, horizon, options: ForecastOptions::default(), jobs: sampling.jobs };
     let comparison =
         compare::run_comparison(&alternatives, sampler.as_ref(), &compare_config, &build).map_err(|e| -> CliError {
             match e {
@@ -211,9 +243,10 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
                 CompareError::Threads { .. } => CliError::Forecast(e.to_string()),
             }
         })?;
-    let summaries = summarize_comparison(&comparison);
+    let quantiles = sampling.outer_quantiles();
+    let summaries = summarize_comparison_at(&comparison, quantiles);
 
-    let csv = report::compare_csv(&summaries)?;
+    let csv = report::compare_csv(&summaries, quantiles)?;
     let svg = report::compare_svg(&summaries, &format!("{}: compared", first.scenario.name), cycling)?;
     let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice()), (SVG_NAME, svg.as_bytes())])?;
 
@@ -224,16 +257,16 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
             "  {} samples of {} uncertain inputs (seed {}), the same draws for every alternative",
             sampler.samples(),
             sampler.parameter_count(),
-            config.seed
+            sampling.seed
         );
     }
-    text.push_str(&report::compare_text(&summaries, comparison.sampled));
+    text.push_str(&report::compare_text(&summaries, comparison.sampled, quantiles));
     let cautions = report::compare_cautions(notes, &summaries, &comparison);
-    text.push_str(&caution_lines(&cautions));
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
-    print_caution(out)?;
+    print_cautions(&cautions)?;
+    print_caution()?;
     // A deterministic comparison with an alternative that has no result is a failed run, as a
     // failed `forecast` is (its outputs were still written, with that alternative's row blank).
     let failed: Vec<String> = comparison
@@ -263,6 +296,11 @@ mod tests {
         let (name, overrides) = parse_variant("hot depot: ambient_c=40 cell.limits.max_charge_current_a=8").unwrap();
         assert_eq!(name, "hot depot");
         assert_eq!(overrides.len(), 2);
+        let (_, overrides) =
+            parse_variant("mild: usage.monthly_ambient_c=[1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12] ambient_c=20")
+                .unwrap();
+        assert_eq!(overrides.len(), 2);
+        assert_eq!(overrides[0].value.as_array().map(Vec::len), Some(12), "a list value is one TOML array");
         for bad in ["ambient_c=40", ": ambient_c=40", "hot:", "hot: ambient_c"] {
             let e = parse_variant(bad).unwrap_err().to_string();
             assert!(e.contains("--variant"), "{bad}: {e}");

@@ -1,7 +1,7 @@
 //! `fadecast cycle SCENARIO`: simulate one periodic duty cycle of the fresh cell, write the
 //! trace and its plot, print the summary.
 
-use super::{caution_lines, print_caution, scenario_header, step_labels, CliError};
+use super::{input_warning_lines, print_caution, print_cautions, scenario_header, step_labels, CliError};
 use crate::cycle::{simulate_periodic_cycle, Health, SolverSettings};
 use crate::input::InputError;
 use crate::input::{self, Override};
@@ -38,10 +38,12 @@ pub fn run(config: &CycleConfig, out: &mut impl Write) -> Result<(), CliError> {
     let mut text = scenario_header(&config.scenario, &loaded);
     text.push_str("\nOne periodic cycle at beginning of life\n");
     text.push_str(&report::cycle_summary(&record));
-    text.push_str(&caution_lines(&report::cycle_cautions(&record, &scenario.cell)));
+    let mut cautions = input_warning_lines(&loaded);
+    cautions.extend(report::cycle_cautions(&record, &scenario.cell));
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
-    print_caution(out)?;
+    print_cautions(&cautions)?;
+    print_caution()?;
     Ok(())
 }

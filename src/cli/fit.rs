@@ -21,6 +21,10 @@ pub struct FitConfig {
     pub overrides: Vec<Override>,
     /// Fit only points up to this (on each dataset's axis); report the error beyond.
     pub holdout_after: Option<f64>,
+    /// Worker threads for the datasets' forecasts and the Jacobian's columns.
+    pub jobs: usize,
+    /// Show the model evaluations as they run.
+    pub progress: bool,
 }
 
 pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
@@ -58,7 +62,26 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
         templates[dataset].build(&number_paths, values).map_err(|e| e.to_string())
     };
     let options = FitOptions { starts: loaded.starts, patience: loaded.patience, ..FitOptions::default() };
-    let result = calibrate::fit(&problem, &source, &options).map_err(|e| match e {
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(config.jobs)
+        .build()
+        .map_err(|e| CliError::Forecast(format!("could not start {} worker threads: {e}", config.jobs)))?;
+    // The fit has no fixed number of evaluations: a spinner with the elapsed time shows it runs.
+    let spinner = config.progress.then(|| {
+        let bar = indicatif::ProgressBar::new_spinner();
+        bar.set_style(
+            indicatif::ProgressStyle::with_template("{spinner} fitting {msg} [{elapsed_precise}]")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_spinner()),
+        );
+        bar.set_message(format!("{} parameters to {} datasets", paths.len(), problem.datasets.len()));
+        bar.enable_steady_tick(std::time::Duration::from_millis(120));
+        bar
+    });
+    let fitted = pool.install(|| calibrate::fit(&problem, &source, &options));
+    if let Some(bar) = spinner {
+        bar.finish_and_clear();
+    }
+    let result = fitted.map_err(|e| match e {
         CalibrationError::TooFewPoints { .. } => {
             CliError::Input(InputError::new(&config.fit_file, format!("{e} (with --holdout-after)")))
         }
@@ -90,7 +113,7 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
-    print_caution(out)?;
+    print_caution()?;
     Ok(())
 }
 
@@ -121,12 +144,23 @@ fn fitted_cell(loaded: &LoadedFit, result: &FitResult, origin: &str) -> Result<S
         overrides.push(Override::number("cell.calibration.min_temperature_c", low - ZERO_CELSIUS_K)?);
         overrides.push(Override::number("cell.calibration.max_temperature_c", high - ZERO_CELSIUS_K)?);
     }
-    let table = input::cell_table_with(&loaded.cell_path, &overrides)?;
+    // The values must make a loadable cell table (every input rule applies) …
+    input::cell_table_with(&loaded.cell_path, &overrides)?;
+    // … and are written into the original file's text, which keeps its comments and layout.
+    let original = std::fs::read_to_string(&loaded.cell_path)
+        .map_err(|e| CliError::Input(InputError::unreadable(&loaded.cell_path, &e)))?;
+    let values: Vec<(Vec<String>, f64)> = overrides
+        .iter()
+        .filter(|o| o.target == input::OverrideTarget::Cell)
+        .filter_map(|o| {
+            o.value.as_float().or_else(|| o.value.as_integer().map(|i| i as f64)).map(|v| (o.path.clone(), v))
+        })
+        .collect();
     let mut origin = origin.to_string();
     let others: Vec<&str> =
         result.parameters.iter().filter(|p| !p.path.starts_with("cell.")).map(|p| p.path.as_str()).collect();
     if !others.is_empty() {
         let _ = write!(origin, "\nFitted inputs outside the cell (see fit.json): {}", others.join(", "));
     }
-    Ok(report::fitted_cell_toml(&table, &origin)?)
+    Ok(report::fitted_cell_toml(&original, &values, &origin)?)
 }

@@ -1,7 +1,7 @@
 //! `fadecast forecast SCENARIO`: integrate the aging state over the horizon (cycle jumping, or
 //! every cycle for reference), write the fade curve, its summary and plot, print the summary.
 
-use super::{print_caution, scenario_header, CliError};
+use super::{input_warning_lines, print_caution, print_cautions, scenario_header, CliError};
 use crate::forecast::{run_forecast, ForecastOptions, Horizon, StopReason};
 use crate::input::{self, InputError, Override};
 use crate::report;
@@ -62,13 +62,16 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
 
     let mut text = scenario_header(&config.scenario, &loaded);
     text.push_str(&report::forecast_text(&forecast, cycling));
+    let mut cautions = input_warning_lines(&loaded);
+    cautions.extend(report::forecast_warning_lines(&forecast));
     if let Some(pack) = &forecast.pack {
         text.push_str(&report::pack_text(pack, cycling));
     }
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
-    print_caution(out)?;
+    print_cautions(&cautions)?;
+    print_caution()?;
     match &forecast.stop {
         StopReason::Failed { last_soh_pct, .. } => {
             let why = report::stop_text(&forecast.stop, cycling).unwrap_or_default();

@@ -15,7 +15,7 @@ use crate::input::{self, InputError, LoadedScenario, Override};
 use crate::material::constants::ZERO_CELSIUS_K;
 use crate::report::text::sig;
 use crate::report::ReportError;
-use clap::{Args, Parser, Subcommand};
+use clap::{Args, CommandFactory, Parser, Subcommand};
 use std::fmt::Write as _;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -70,6 +70,67 @@ impl HorizonArgs {
     }
 }
 
+/// The options every sampling command shares (`bands`, `compare`, `table`), one definition
+/// flattened into each so they read and behave alike.
+#[derive(Debug, Args)]
+struct SamplingArgs {
+    /// Number of samples (bands: required, all shards together; compare and table: per
+    /// alternative or condition, 0 for one run of the nominal inputs).
+    #[arg(long, value_name = "N")]
+    samples: Option<u64>,
+    /// Random seed: the same seed gives the same numbers, bit for bit.
+    #[arg(long, value_name = "S", default_value_t = 1)]
+    seed: u64,
+    /// Worker threads (default: the machine's cores).
+    #[arg(long, value_name = "J")]
+    jobs: Option<usize>,
+    /// Quantiles in percent (compare and table report the median and the outermost two).
+    #[arg(long, value_name = "LIST", default_value = "5,50,95")]
+    quantiles: String,
+    /// Sample this file's [uncertainty] section instead of the scenario's (for example the
+    /// uncertainty.toml `fadecast fit` writes).
+    #[arg(long, value_name = "FILE")]
+    uncertainty: Option<PathBuf>,
+    /// No progress bar.
+    #[arg(long)]
+    quiet: bool,
+}
+
+/// The sampling options, checked.
+struct Sampling {
+    samples: u64,
+    seed: u64,
+    jobs: usize,
+    /// Fractions, ascending.
+    quantiles: Vec<f64>,
+    uncertainty: Option<PathBuf>,
+    /// Whether to show progress (a terminal and no --quiet).
+    progress: bool,
+}
+
+impl SamplingArgs {
+    fn parse(self) -> Result<Sampling, InputError> {
+        use std::io::IsTerminal;
+        Ok(Sampling {
+            samples: self.samples.unwrap_or(0),
+            seed: self.seed,
+            jobs: parse_jobs(self.jobs)?,
+            quantiles: bands::parse_quantiles(&self.quantiles)?,
+            uncertainty: self.uncertainty,
+            progress: !self.quiet && std::io::stderr().is_terminal(),
+        })
+    }
+}
+
+impl Sampling {
+    /// The outer quantiles compare and table report beside the median.
+    fn outer_quantiles(&self) -> (f64, f64) {
+        let low = self.quantiles.first().copied().unwrap_or(0.05).min(0.5);
+        let high = self.quantiles.last().copied().unwrap_or(0.95).max(0.5);
+        (low, high)
+    }
+}
+
 #[derive(Debug, Subcommand)]
 enum Command {
     /// Load input files and print what they describe
@@ -94,7 +155,7 @@ enum Command {
         /// Scenario file (TOML).
         scenario: PathBuf,
         /// Directory for the outputs; created if missing.
-        #[arg(long, value_name = "DIR", default_value = "out")]
+        #[arg(long, value_name = "DIR", default_value = "cycle")]
         out: PathBuf,
         #[command(flatten)]
         overrides: OverrideArgs,
@@ -110,7 +171,7 @@ enum Command {
         /// Scenario file (TOML).
         scenario: PathBuf,
         /// Directory for the outputs; created if missing.
-        #[arg(long, value_name = "DIR", default_value = "out")]
+        #[arg(long, value_name = "DIR", default_value = "forecast")]
         out: PathBuf,
         #[command(flatten)]
         horizon: HorizonArgs,
@@ -135,26 +196,16 @@ enum Command {
     Bands {
         /// Scenario file (TOML) with an [uncertainty] section.
         scenario: PathBuf,
-        /// Number of samples (all shards together), 1 to 1 000 000.
-        #[arg(long, value_name = "N")]
-        samples: u64,
-        /// Random seed: the same seed gives the same numbers, bit for bit.
-        #[arg(long, value_name = "S", default_value_t = 1)]
-        seed: u64,
-        /// Worker threads (default: the machine's cores).
-        #[arg(long, value_name = "J")]
-        jobs: Option<usize>,
+        #[command(flatten)]
+        sampling: SamplingArgs,
         /// Run only shard K of N (sample i belongs to shard i mod N + 1); merge with `fadecast merge`.
         #[arg(long, value_name = "K/N")]
         shard: Option<String>,
-        /// Quantiles in percent.
-        #[arg(long, value_name = "LIST", default_value = "5,50,95")]
-        quantiles: String,
         /// Warranty point: state of health still at least SOH_PCT after YEARS.
         #[arg(long, value_name = "YEARS:SOH_PCT")]
         warranty: Option<String>,
         /// Directory for the outputs and the run's journal; created if missing.
-        #[arg(long, value_name = "DIR", default_value = "out")]
+        #[arg(long, value_name = "DIR", default_value = "bands")]
         out: PathBuf,
         #[command(flatten)]
         horizon: HorizonArgs,
@@ -164,13 +215,6 @@ enum Command {
         /// Start over in a DIR that holds an earlier run's journal, discarding it.
         #[arg(long, conflicts_with = "resume")]
         force: bool,
-        /// No progress bar.
-        #[arg(long)]
-        quiet: bool,
-        /// Sample this file's [uncertainty] section instead of the scenario's (for example
-        /// the uncertainty.toml `fadecast fit` writes).
-        #[arg(long, value_name = "FILE")]
-        uncertainty: Option<PathBuf>,
         #[command(flatten)]
         overrides: OverrideArgs,
     },
@@ -190,18 +234,12 @@ enum Command {
         /// An alternative given by overrides (repeatable), e.g. 'hot depot: ambient_c=40'.
         #[arg(long = "variant", value_name = "'NAME: KEY=VALUE ...'")]
         variants: Vec<String>,
-        /// Samples per alternative (0: one deterministic run each).
-        #[arg(long, value_name = "N", default_value_t = 0)]
-        samples: u64,
-        #[arg(long, value_name = "S", default_value_t = 1)]
-        seed: u64,
-        /// Worker threads (default: the machine's cores).
-        #[arg(long, value_name = "J")]
-        jobs: Option<usize>,
+        #[command(flatten)]
+        sampling: SamplingArgs,
         #[command(flatten)]
         horizon: HorizonArgs,
         /// Directory for the outputs; created if missing.
-        #[arg(long, value_name = "DIR", default_value = "out")]
+        #[arg(long, value_name = "DIR", default_value = "compare")]
         out: PathBuf,
         #[command(flatten)]
         overrides: OverrideArgs,
@@ -224,18 +262,12 @@ enum Command {
         /// State-of-charge windows in percent, LOW-HIGH, comma-separated.
         #[arg(long = "soc-window", value_name = "LIST", allow_hyphen_values = true)]
         soc_window: String,
-        /// Samples per condition (0: the nominal inputs only).
-        #[arg(long, value_name = "N", default_value_t = 0)]
-        samples: u64,
-        #[arg(long, value_name = "S", default_value_t = 1)]
-        seed: u64,
-        /// Worker threads (default: the machine's cores).
-        #[arg(long, value_name = "J")]
-        jobs: Option<usize>,
+        #[command(flatten)]
+        sampling: SamplingArgs,
         #[command(flatten)]
         horizon: HorizonArgs,
         /// Directory for the outputs; created if missing.
-        #[arg(long, value_name = "DIR", default_value = "out")]
+        #[arg(long, value_name = "DIR", default_value = "table")]
         out: PathBuf,
         #[command(flatten)]
         overrides: OverrideArgs,
@@ -255,18 +287,38 @@ enum Command {
         /// counts) and report the forecast error on the rest.
         #[arg(long, value_name = "N", allow_negative_numbers = true)]
         holdout_after: Option<f64>,
-        #[arg(long, value_name = "DIR", default_value = "out")]
+        /// Worker threads for the datasets' forecasts (default: the machine's cores).
+        #[arg(long, value_name = "J")]
+        jobs: Option<usize>,
+        /// No progress bar.
+        #[arg(long)]
+        quiet: bool,
+        /// Directory for the outputs; created if missing.
+        #[arg(long, value_name = "DIR", default_value = "fit")]
         out: PathBuf,
         #[command(flatten)]
         overrides: OverrideArgs,
     },
+    /// Print a shell completion script, generated from these definitions
+    ///
+    /// For example `fadecast completions bash > ~/.local/share/bash-completion/completions/fadecast`
+    /// or `fadecast completions zsh > "${fpath[1]}/_fadecast"`.
+    Completions {
+        /// The shell to complete in.
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff), generated from these definitions
+    ///
+    /// For example `fadecast man > fadecast.1 && man ./fadecast.1`.
+    Man,
     /// Combine the shards of one `bands` run into the outputs of a single run
     Merge {
         /// The shards' output directories.
         #[arg(required = true, value_name = "DIR")]
         shards: Vec<PathBuf>,
         /// Directory for the merged outputs; created if missing.
-        #[arg(long, value_name = "DIR", default_value = "out")]
+        #[arg(long, value_name = "DIR", default_value = "merge")]
         out: PathBuf,
     },
 }
@@ -336,60 +388,46 @@ pub fn run() -> Result<(), CliError> {
             let config = forecast::ForecastConfig { scenario, out_dir: out, overrides, horizon, every_cycle, seed };
             forecast::run(&config, &mut stdout)
         }
-        Command::Bands {
-            scenario,
-            samples,
-            seed,
-            jobs,
-            shard,
-            quantiles,
-            warranty,
-            out,
-            horizon,
-            resume,
-            force,
-            quiet,
-            uncertainty,
-            overrides,
-        } => {
+        Command::Bands { scenario, sampling, shard, warranty, out, horizon, resume, force, overrides } => {
             let overrides_text: Vec<String> = before_command.set.iter().chain(&overrides.set).cloned().collect();
             let overrides = parse_overrides(&before_command, &overrides)?;
-            let jobs = parse_jobs(jobs)?;
+            if sampling.samples.is_none() {
+                return Err(InputError::command_line_flag("--samples", "bands needs --samples N").into());
+            }
+            let sampling = sampling.parse()?;
             let config = bands::BandsConfig {
                 scenario,
                 out_dir: out,
                 overrides,
                 overrides_text,
-                samples,
-                seed,
-                jobs,
+                samples: sampling.samples,
+                seed: sampling.seed,
+                jobs: sampling.jobs,
                 shard: shard.as_deref().map(bands::parse_shard).transpose()?.unwrap_or(crate::ensemble::Shard::WHOLE),
-                quantiles: bands::parse_quantiles(&quantiles)?,
+                quantiles: sampling.quantiles,
                 warranty: warranty.as_deref().map(bands::parse_warranty).transpose()?,
                 horizon: horizon.parse()?,
                 resume,
                 force,
-                quiet,
-                uncertainty_file: uncertainty,
+                quiet: !sampling.progress,
+                uncertainty_file: sampling.uncertainty,
             };
             bands::run(&config, &mut stdout)
         }
-        Command::Compare { scenario, profiles, variants, samples, seed, jobs, horizon, out, overrides } => {
+        Command::Compare { scenario, profiles, variants, sampling, horizon, out, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
             let config = compare::CompareCommandConfig {
                 scenario,
                 profiles,
                 variants,
                 overrides,
-                samples,
-                seed,
-                jobs: parse_jobs(jobs)?,
+                sampling: sampling.parse()?,
                 horizon: horizon.parse()?,
                 out_dir: out,
             };
             compare::run(&config, &mut stdout)
         }
-        Command::Table { scenario, ambient_c, c_rate, soc_window, samples, seed, jobs, horizon, out, overrides } => {
+        Command::Table { scenario, ambient_c, c_rate, soc_window, sampling, horizon, out, overrides } => {
             let overrides = parse_overrides(&before_command, &overrides)?;
             let config = table::TableCommandConfig {
                 scenario,
@@ -397,19 +435,34 @@ pub fn run() -> Result<(), CliError> {
                 c_rate,
                 soc_window,
                 overrides,
-                samples,
-                seed,
-                jobs: parse_jobs(jobs)?,
+                sampling: sampling.parse()?,
                 horizon: horizon.parse()?,
                 out_dir: out,
             };
             table::run(&config, &mut stdout)
         }
-        Command::Fit { fit, holdout_after, out, overrides } => {
+        Command::Fit { fit, holdout_after, jobs, quiet, out, overrides } => {
+            use std::io::IsTerminal;
             let overrides = parse_overrides(&before_command, &overrides)?;
-            fit::run(&fit::FitConfig { fit_file: fit, out_dir: out, overrides, holdout_after }, &mut stdout)
+            let config = fit::FitConfig {
+                fit_file: fit,
+                out_dir: out,
+                overrides,
+                holdout_after,
+                jobs: parse_jobs(jobs)?,
+                progress: !quiet && std::io::stderr().is_terminal(),
+            };
+            fit::run(&config, &mut stdout)
         }
         Command::Merge { shards, out } => bands::merge(&shards, &out, &mut stdout),
+        Command::Completions { shell } => {
+            clap_complete::generate(shell, &mut Arguments::command(), "fadecast", &mut stdout);
+            Ok(())
+        }
+        Command::Man => {
+            clap_mangen::Man::new(Arguments::command()).render(&mut stdout)?;
+            Ok(())
+        }
     }
 }
 
@@ -417,7 +470,7 @@ pub fn run() -> Result<(), CliError> {
 /// or lies under a file, or (for `merge`) one of the shard directories being merged.
 fn check_out_dir(command: &Command) -> Result<(), InputError> {
     let (out, inputs): (&Path, &[PathBuf]) = match command {
-        Command::Check { .. } => return Ok(()),
+        Command::Check { .. } | Command::Completions { .. } | Command::Man => return Ok(()),
         Command::Cycle { out, .. }
         | Command::Forecast { out, .. }
         | Command::Bands { out, .. }
@@ -485,7 +538,25 @@ fn parse_jobs(jobs: Option<usize>) -> Result<usize, InputError> {
 
 /// The `--set` values given before and after the command name, in that order.
 fn parse_overrides(before_command: &OverrideArgs, after_command: &OverrideArgs) -> Result<Vec<Override>, InputError> {
-    before_command.set.iter().chain(&after_command.set).map(|text| input::parse_override(text)).collect()
+    before_command.set.iter().chain(&after_command.set).map(|text| command_line_override(text)).collect()
+}
+
+/// A `KEY=VALUE` from the command line. A file named there (`cell=…`, `profile=…`) is relative
+/// to the current directory, as every other path on the command line is, not to the scenario
+/// file: it is made absolute here.
+fn command_line_override(text: &str) -> Result<Override, InputError> {
+    let mut item = input::parse_override(text)?;
+    let names_a_file = item.target == input::OverrideTarget::Scenario
+        && matches!(item.path.as_slice(), [key] if key == "cell" || key == "profile");
+    if let (true, toml::Value::String(path)) = (names_a_file, &item.value) {
+        let path = Path::new(path);
+        if path.is_relative() {
+            if let Ok(here) = std::env::current_dir() {
+                item.value = toml::Value::String(here.join(path).display().to_string());
+            }
+        }
+    }
+    Ok(item)
 }
 
 /// The forecast's stop as an input error, when it stopped because the scenario's usage asks
@@ -500,9 +571,18 @@ fn usage_problem(scenario: &Path, overrides: &[Override], stop: &crate::forecast
     }
 }
 
-/// Closes a command's output: every result fadecast prints ends with the caution.
-fn print_caution(out: &mut impl Write) -> std::io::Result<()> {
-    writeln!(out, "\n{}", crate::CAUTION)
+/// The standards caution, once per run of a command that computes results, on standard error
+/// with the other cautions (results go to standard output, so they can be piped apart).
+fn print_caution() -> std::io::Result<()> {
+    writeln!(std::io::stderr().lock(), "\n{}", crate::CAUTION)
+}
+
+/// Warnings and cautions, one paragraph each, on standard error.
+fn print_cautions(cautions: &[String]) -> std::io::Result<()> {
+    if cautions.is_empty() {
+        return Ok(());
+    }
+    std::io::stderr().lock().write_all(caution_lines(cautions).as_bytes())
 }
 
 /// The label of each step of the duty cycle, by 0-based step index (a series is one step).
@@ -513,7 +593,7 @@ fn step_labels(duty: &DutyCycle) -> Vec<String> {
     }
 }
 
-/// What a loaded scenario combines, and the warnings loading it raised.
+/// What a loaded scenario combines (its warnings: [`input_warning_lines`]).
 fn scenario_header(path: &Path, loaded: &LoadedScenario) -> String {
     let scenario = &loaded.scenario;
     let mut out = format!("{}: scenario \"{}\"\n", path.display(), scenario.name);
@@ -521,13 +601,16 @@ fn scenario_header(path: &Path, loaded: &LoadedScenario) -> String {
     let _ = writeln!(out, "  {:<28}\"{}\" ({})", "duty cycle", scenario.duty.name(), loaded.profile_path.display());
     let _ = writeln!(out, "  {:<28}{} °C", "ambient", sig(scenario.ambient_k - ZERO_CELSIUS_K, 4));
     let _ = writeln!(out, "  {:<28}{:.0} %", "start state of charge", scenario.start_soc * 100.0);
-    if !loaded.warnings.is_empty() {
-        out.push_str("Input warnings\n");
-        for warning in &loaded.warnings {
-            let _ = writeln!(out, "  {warning}");
-        }
-    }
     out
+}
+
+/// The warnings loading a scenario raised, as one caution paragraph (none when there are none).
+fn input_warning_lines(loaded: &LoadedScenario) -> Vec<String> {
+    if loaded.warnings.is_empty() {
+        return Vec::new();
+    }
+    let lines: Vec<String> = loaded.warnings.iter().map(|w| format!("  {w}")).collect();
+    vec![format!("Input warnings\n{}", lines.join("\n"))]
 }
 
 /// Cautions as printed: one paragraph each, set off from the report above.
@@ -538,7 +621,6 @@ fn caution_lines(cautions: &[String]) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use clap::CommandFactory;
 
     #[test]
     fn argument_definitions_are_consistent() {
@@ -571,7 +653,7 @@ mod tests {
         match parsed.command {
             Command::Cycle { out, overrides, .. } => {
                 assert_eq!(overrides.set, ["b=2", "c=3"]);
-                assert_eq!(out, Path::new("out"));
+                assert_eq!(out, Path::new("cycle"), "each command's outputs default to a directory of its name");
             }
             other => panic!("parsed as {other:?}"),
         }

@@ -2,7 +2,7 @@
 //! the scenario's cell under a standard cycle at every condition of the grid, forecast and
 //! written as one long-format CSV for system models to interpolate.
 
-use super::{caution_lines, print_caution, CliError};
+use super::{print_caution, print_cautions, CliError};
 use crate::compare::{run_table, CompareError, Condition, TableConfig};
 use crate::forecast::{ForecastOptions, Horizon, StopReason};
 use crate::input::{self, InputError, Override};
@@ -24,9 +24,7 @@ pub struct TableCommandConfig {
     pub c_rate: String,
     pub soc_window: String,
     pub overrides: Vec<Override>,
-    pub samples: u64,
-    pub seed: u64,
-    pub jobs: usize,
+    pub sampling: super::Sampling,
     pub horizon: Option<Horizon>,
     pub out_dir: PathBuf,
 }
@@ -86,10 +84,11 @@ pub fn parse_soc_windows(text: &str) -> Result<Vec<(f64, f64)>, InputError> {
 }
 
 pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliError> {
-    if config.samples > MAX_SAMPLES {
+    let sampling = &config.sampling;
+    if sampling.samples > MAX_SAMPLES {
         return Err(InputError::command_line_flag(
             "--samples",
-            format!("must be at most {MAX_SAMPLES}, found {}", config.samples),
+            format!("must be at most {MAX_SAMPLES}, found {}", sampling.samples),
         )
         .into());
     }
@@ -145,11 +144,15 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
         .into());
     }
     let mut notes = loaded.warnings.clone();
-    let spec = &loaded.uncertainty;
+    let from_file = match &sampling.uncertainty {
+        Some(file) => Some(input::load_uncertainty_file(file, &config.scenario, &config.overrides)?),
+        None => None,
+    };
+    let spec = from_file.as_ref().unwrap_or(&loaded.uncertainty);
     let sampler = super::bands::optional_sampler(
         spec,
-        config.samples,
-        config.seed,
+        sampling.samples,
+        sampling.seed,
         &config.scenario,
         "the table has no quantile columns",
         &mut notes,
@@ -158,8 +161,14 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
     let parameters: Vec<String> = spec.parameters.iter().map(|p| p.path.clone()).collect();
     let paths = input::number_paths(&parameters)?;
     let build = |values: &[f64]| template.build_drawn(spec, &paths, values).map_err(|e| e.to_string());
-    let table_config =
-        TableConfig { samples: config.samples, horizon, options: ForecastOptions::default(), jobs: config.jobs };
+    let quantiles = sampling.outer_quantiles();
+    let table_config = TableConfig {
+        samples: sampling.samples,
+        horizon,
+        options: ForecastOptions::default(),
+        jobs: sampling.jobs,
+        quantiles: [quantiles.0, 0.5, quantiles.1],
+    };
     let nominal = (loaded.scenario.clone(), loaded.plan.clone());
     let results =
         run_table(&conditions, &nominal, sampler.as_ref(), &table_config, &build).map_err(|e| -> CliError {
@@ -173,7 +182,7 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
             }
         })?;
 
-    let csv = report::table_csv(&results)?;
+    let csv = report::table_csv(&results, table_config.quantiles)?;
     let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice())])?;
 
     let mut text = format!("{}: cell \"{}\"\n", config.scenario.display(), cell.name);
@@ -187,7 +196,7 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
         windows.len()
     );
     if let Some(sampler) = &sampler {
-        let _ = writeln!(text, "  {} samples per condition (seed {})", sampler.samples(), config.seed);
+        let _ = writeln!(text, "  {} samples per condition (seed {})", sampler.samples(), sampling.seed);
     }
     let (rows, cautions) = report::table_text(&results, notes);
     text.push_str(&rows);
@@ -196,11 +205,11 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
         .filter(|r| matches!(r.nominal.stop, StopReason::Failed { .. }))
         .filter_map(|r| report::stop_text(&r.nominal.stop, true).map(|why| format!("{} {why}", r.condition.label())))
         .collect();
-    text.push_str(&caution_lines(&cautions));
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
-    print_caution(out)?;
+    print_cautions(&cautions)?;
+    print_caution()?;
     if failures.is_empty() {
         Ok(())
     } else {

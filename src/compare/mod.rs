@@ -23,7 +23,7 @@ pub use run::{
     Comparison, Life, Outcome,
 };
 pub use summary::{
-    summarize_comparison, AlternativeSummary, CurveBand, PairedDifference, Spread, DIFFERENCE_INTERVAL,
+    summarize_comparison, summarize_comparison_at, AlternativeSummary, CurveBand, PairedDifference, Spread,
     SPREAD_QUANTILES,
 };
 pub use table::{

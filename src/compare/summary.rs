@@ -10,18 +10,17 @@ use crate::ensemble::summary::count_warnings;
 use crate::ensemble::SampleStatus;
 use crate::forecast::WarningKind;
 
-/// The low and high quantiles reported for life and state of health.
-pub const SPREAD_QUANTILES: (f64, f64) = (0.10, 0.90);
-/// The 90 % interval of a paired difference.
-pub const DIFFERENCE_INTERVAL: (f64, f64) = (0.05, 0.95);
+/// The low and high quantiles reported by default for life, state of health and paired
+/// differences: the same P5 and P95 as `bands`, so every output's quantile columns match.
+pub const SPREAD_QUANTILES: (f64, f64) = (0.05, 0.95);
 
-/// P10, P50, P90 of a quantity over the usable samples; the outer two are None when the
-/// comparison ran deterministically (one run, no spread).
+/// The low quantile, median and high quantile of a quantity over the usable samples; the outer
+/// two are None when the comparison ran deterministically (one run, no spread).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Spread {
-    pub p10: Option<f64>,
-    pub p50: f64,
-    pub p90: Option<f64>,
+    pub low: Option<f64>,
+    pub median: f64,
+    pub high: Option<f64>,
 }
 
 /// State of health over the usable samples at one reported point.
@@ -29,9 +28,9 @@ pub struct Spread {
 pub struct CurveBand {
     pub cycle: f64,
     pub day: f64,
-    pub p10: f64,
-    pub p50: f64,
-    pub p90: f64,
+    pub low: f64,
+    pub median: f64,
+    pub high: f64,
 }
 
 /// An alternative's life against the first alternative's on the same samples.
@@ -43,7 +42,7 @@ pub struct PairedDifference {
     pub censored_pairs: usize,
     /// Median of the per-sample differences (this alternative minus the first), cycles.
     pub median_cycles: f64,
-    /// The 5 % and 95 % quantiles of the differences (None when deterministic), cycles.
+    /// The low and high quantiles of the differences (None when deterministic), cycles.
     pub interval_cycles: Option<(f64, f64)>,
     pub median_efc: f64,
     pub interval_efc: Option<(f64, f64)>,
@@ -81,8 +80,13 @@ pub struct AlternativeSummary {
     pub curve: Vec<CurveBand>,
 }
 
-/// Summarizes every alternative of a comparison.
+/// Summarizes every alternative of a comparison at the default quantiles.
 pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> {
+    summarize_comparison_at(comparison, SPREAD_QUANTILES)
+}
+
+/// Summarizes every alternative of a comparison with `(low, high)` as the outer quantiles.
+pub fn summarize_comparison_at(comparison: &Comparison, quantiles: (f64, f64)) -> Vec<AlternativeSummary> {
     let reference = comparison.outcomes.first();
     comparison
         .outcomes
@@ -99,7 +103,7 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
                 .map(|o| if o.life.is_some_and(|l| l.is_censored()) { f64::INFINITY } else { o.energy_to_end_wh })
                 .collect();
             let soh: Vec<f64> = usable.iter().map(|o| o.soh_at_horizon_pct).filter(|v| v.is_finite()).collect();
-            let spread = |values: Vec<f64>| spread_of(values, comparison.sampled);
+            let spread = |values: Vec<f64>| spread_of(values, comparison.sampled, quantiles);
             AlternativeSummary {
                 name: comparison.names[a].clone(),
                 usable: usable.len(),
@@ -128,10 +132,10 @@ pub fn summarize_comparison(comparison: &Comparison) -> Vec<AlternativeSummary> 
                 charge_time_s: comparison.charge_time_s.get(a).copied().unwrap_or(f64::NAN),
                 warning_counts: count_warnings(outcomes.iter().map(|o| o.warnings)),
                 paired: match reference {
-                    Some(first) if a > 0 => Some(paired_difference(first, outcomes, comparison.sampled)),
+                    Some(first) if a > 0 => Some(paired_difference(first, outcomes, comparison.sampled, quantiles)),
                     _ => None,
                 },
-                curve: curve_bands(&usable),
+                curve: curve_bands(&usable, quantiles),
             }
         })
         .collect()
@@ -143,18 +147,22 @@ fn sorted(mut values: Vec<f64>) -> Vec<f64> {
     values
 }
 
-fn spread_of(values: Vec<f64>, sampled: bool) -> Spread {
+fn spread_of(values: Vec<f64>, sampled: bool, (low, high): (f64, f64)) -> Spread {
     let values = sorted(values);
-    let (low, high) = SPREAD_QUANTILES;
     Spread {
-        p10: sampled.then(|| quantile(&values, low)),
-        p50: quantile(&values, 0.5),
-        p90: sampled.then(|| quantile(&values, high)),
+        low: sampled.then(|| quantile(&values, low)),
+        median: quantile(&values, 0.5),
+        high: sampled.then(|| quantile(&values, high)),
     }
 }
 
 /// Differences on the samples both alternatives could use, sample by sample.
-pub(crate) fn paired_difference(first: &[Outcome], other: &[Outcome], sampled: bool) -> PairedDifference {
+pub(crate) fn paired_difference(
+    first: &[Outcome],
+    other: &[Outcome],
+    sampled: bool,
+    (low, high): (f64, f64),
+) -> PairedDifference {
     let mut cycles = Vec::new();
     let mut efc = Vec::new();
     let mut censored_pairs = 0;
@@ -177,7 +185,6 @@ pub(crate) fn paired_difference(first: &[Outcome], other: &[Outcome], sampled: b
     }
     let pairs = cycles.len();
     let (cycles, efc) = (sorted(cycles), sorted(efc));
-    let (low, high) = DIFFERENCE_INTERVAL;
     let interval = |v: &[f64]| sampled.then(|| (quantile(v, low), quantile(v, high)));
     PairedDifference {
         pairs,
@@ -190,22 +197,21 @@ pub(crate) fn paired_difference(first: &[Outcome], other: &[Outcome], sampled: b
     }
 }
 
-/// P10, P50 and P90 of state of health per reported point, over the samples whose curve
-/// covers the whole horizon (the first such sample's grid).
-fn curve_bands(usable: &[&Outcome]) -> Vec<CurveBand> {
+/// The low quantile, median and high quantile of state of health per reported point, over the
+/// samples whose curve covers the whole horizon (the first such sample's grid).
+fn curve_bands(usable: &[&Outcome], (low, high): (f64, f64)) -> Vec<CurveBand> {
     let full = usable.iter().map(|o| o.curve.len()).max().unwrap_or(0);
     let complete: Vec<&&Outcome> = usable.iter().filter(|o| o.curve.len() == full).collect();
     let Some(grid) = complete.first() else { return Vec::new() };
     (0..full)
         .map(|k| {
             let values = sorted(complete.iter().map(|o| f64::from(o.curve[k].2)).collect());
-            let (low, high) = SPREAD_QUANTILES;
             CurveBand {
                 cycle: grid.curve[k].0,
                 day: grid.curve[k].1,
-                p10: quantile(&values, low),
-                p50: quantile(&values, 0.5),
-                p90: quantile(&values, high),
+                low: quantile(&values, low),
+                median: quantile(&values, 0.5),
+                high: quantile(&values, high),
             }
         })
         .collect()
@@ -241,7 +247,7 @@ mod tests {
             outcome(Some(Life::Censored(at(500.0)))),
             outcome(Some(Life::Reached(at(10.0)))),
         ];
-        let d = paired_difference(&first, &other, true);
+        let d = paired_difference(&first, &other, true, SPREAD_QUANTILES);
         assert_eq!(d.pairs, 2, "a sample unusable in either alternative is not a pair");
         assert_eq!(d.censored_pairs, 1);
         assert_eq!(d.probability_outlasts, 0.75);
@@ -265,10 +271,11 @@ mod tests {
 
     #[test]
     fn censored_lives_read_as_beyond_the_horizon_in_quantiles() {
-        let s = spread_of(vec![100.0, 200.0, f64::INFINITY, f64::INFINITY, f64::INFINITY], true);
-        assert_eq!(s.p10, Some(140.0));
-        assert_eq!(s.p50, f64::INFINITY);
-        let deterministic = spread_of(vec![100.0], false);
-        assert_eq!((deterministic.p10, deterministic.p50, deterministic.p90), (None, 100.0, None));
+        // Type-7 quantiles of 100, 200, ∞, ∞, ∞: P10 at position 0.4 between 100 and 200.
+        let s = spread_of(vec![100.0, 200.0, f64::INFINITY, f64::INFINITY, f64::INFINITY], true, (0.1, 0.9));
+        assert_eq!(s.low, Some(140.0));
+        assert_eq!(s.median, f64::INFINITY);
+        let deterministic = spread_of(vec![100.0], false, SPREAD_QUANTILES);
+        assert_eq!((deterministic.low, deterministic.median, deterministic.high), (None, 100.0, None));
     }
 }

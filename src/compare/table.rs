@@ -17,7 +17,7 @@ use crate::forecast::{run_forecast, Ambient, Forecast, ForecastOptions, Horizon,
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
 use rayon::prelude::*;
 
-/// Quantiles reported per point when the table is sampled.
+/// Quantiles reported per point when the table is sampled, unless the command asks others.
 pub const TABLE_QUANTILES: [f64; 3] = [0.05, 0.5, 0.95];
 const REST_S: f64 = 600.0;
 
@@ -46,6 +46,8 @@ pub struct TableConfig {
     pub horizon: Horizon,
     pub options: ForecastOptions,
     pub jobs: usize,
+    /// Low, median and high quantile of the sampled columns (fractions).
+    pub quantiles: [f64; 3],
 }
 
 /// One condition's forecast.
@@ -54,7 +56,7 @@ pub struct ConditionResult {
     pub condition: Condition,
     /// The nominal inputs' forecast: every row's cycle, day, throughput and central values.
     pub nominal: Forecast,
-    /// When sampled: per reported point of the nominal forecast, the [`TABLE_QUANTILES`] of
+    /// When sampled: per reported point of the nominal forecast, the configured quantiles of
     /// state of health and of resistance growth over the samples covering the whole horizon.
     pub quantiles: Option<Vec<[[f64; 3]; 2]>>,
     /// Samples left out of the quantiles: inputs breaking a rule, or a forecast stopping early.
@@ -161,7 +163,7 @@ where
         .map(|(c, (nominal, condition))| {
             let (quantiles, samples_left_out) = match sampled.get(c) {
                 Some(samples) => {
-                    let (q, left_out) = point_quantiles(&nominal, samples);
+                    let (q, left_out) = point_quantiles(&nominal, samples, config.quantiles);
                     (Some(q), left_out)
                 }
                 None => (None, 0),
@@ -173,7 +175,11 @@ where
 
 /// Quantiles of state of health and resistance growth per reported point over the samples that
 /// reached the horizon with the nominal forecast's grid; returns them and how many were left out.
-fn point_quantiles(nominal: &Forecast, samples: &[Option<Forecast>]) -> (Vec<[[f64; 3]; 2]>, usize) {
+fn point_quantiles(
+    nominal: &Forecast,
+    samples: &[Option<Forecast>],
+    quantiles: [f64; 3],
+) -> (Vec<[[f64; 3]; 2]>, usize) {
     let n = nominal.points.len();
     let complete: Vec<&Forecast> = samples.iter().flatten().filter(|f| f.points.len() == n).collect();
     let quantiles = (0..n)
@@ -181,7 +187,7 @@ fn point_quantiles(nominal: &Forecast, samples: &[Option<Forecast>]) -> (Vec<[[f
             let q = |value: fn(&crate::forecast::FadePoint) -> f64| {
                 let mut v: Vec<f64> = complete.iter().map(|f| value(&f.points[k])).filter(|x| !x.is_nan()).collect();
                 v.sort_by(|a, b| a.total_cmp(b));
-                TABLE_QUANTILES.map(|p| quantile(&v, p))
+                quantiles.map(|p| quantile(&v, p))
             };
             [q(|p| p.soh_pct), q(|p| p.resistance_growth_pct)]
         })

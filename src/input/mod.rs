@@ -39,7 +39,7 @@ pub use fit::{cell_table_with, load_fit, load_measured, DatasetSource, LoadedFit
 pub use overrides::{apply_overrides, parse_override, NumberPath, Override, OverrideTarget};
 pub use plan::parse_horizon;
 pub use profile::load_profile;
-pub use scenario::{check_scenario, load_scenario, load_uncertainty_file, LoadedScenario};
+pub use scenario::{check_scenario, load_scenario, load_uncertainty_alone, load_uncertainty_file, LoadedScenario};
 pub use series::load_series;
 pub use template::{number_paths, ScenarioTemplate};
 
@@ -62,17 +62,30 @@ pub enum InputKind {
     Profile,
     Series,
     Scenario,
+    /// A fit description (`[[dataset]]` and `[[parameter]]`).
+    Fit,
+    /// Measured aging data: a CSV with a `capacity_ah` column.
+    AgingData,
+    /// A file holding only an `[uncertainty]` section (such as the one `fit` writes).
+    Uncertainty,
 }
 
 /// Tells the kind of an input file from its extension and, for TOML, its top-level keys.
 pub fn detect_kind(path: &Path) -> Result<InputKind, InputError> {
     match duty::extension(path).as_deref() {
-        Some("csv") => return Ok(InputKind::Series),
+        Some("csv") => {
+            // Measured aging data name their capacity; a duty-cycle series never does.
+            let text = read_text(path)?;
+            let header = text.lines().next().unwrap_or("");
+            let aging = header.split(',').any(|column| column.trim() == "capacity_ah");
+            return Ok(if aging { InputKind::AgingData } else { InputKind::Series });
+        }
         Some("toml") => {}
         _ => {
             return Err(InputError::new(
                 path,
-                "expected a `.toml` input file (cell, step profile or scenario) or a `.csv` time series",
+                "expected a `.toml` input file (cell, step profile, scenario, fit description or uncertainty \
+                 section) or a `.csv` file (time series or measured aging data)",
             ))
         }
     }
@@ -85,11 +98,17 @@ pub fn detect_kind(path: &Path) -> Result<InputKind, InputError> {
         Ok(InputKind::Profile)
     } else if table.contains_key("cell") && table.contains_key("profile") {
         Ok(InputKind::Scenario)
+    } else if table.contains_key("dataset") || table.contains_key("parameter") {
+        Ok(InputKind::Fit)
+    } else if table.contains_key("uncertainty") && table.len() == 1 {
+        Ok(InputKind::Uncertainty)
     } else {
         Err(InputError::new(
             path,
             "cannot tell what this file is: expected a cell file (with a [negative] table), a step \
-             profile (with [[block]] tables) or a scenario (with `cell` and `profile` keys)",
+             profile (with [[block]] tables), a scenario (with `cell` and `profile` keys), a fit \
+             description (with [[dataset]] and [[parameter]] tables) or an uncertainty section (an \
+             [uncertainty] table alone)",
         ))
     }
 }

@@ -126,6 +126,22 @@ pub fn load_uncertainty_file(
     }
 }
 
+/// The `[uncertainty]` section of a file of its own, checked by its own rules only (`check`
+/// has no scenario to try its paths on; `bands`, `compare` and `table --uncertainty` do).
+pub fn load_uncertainty_alone(file: &Path) -> Result<UncertaintySpec, InputError> {
+    #[derive(Deserialize)]
+    #[serde(deny_unknown_fields)]
+    struct UncertaintyFile {
+        uncertainty: UncertaintySection,
+    }
+    let document = TomlDocument::read(file, OverrideTarget::Scenario)?;
+    let section: UncertaintyFile = document.deserialize()?;
+    let mut checks = Checks::new(&document);
+    let spec = convert_uncertainty(&mut checks, Some(&section.uncertainty));
+    checks.finish(()).map_err(first_problem)?;
+    Ok(spec)
+}
+
 /// Everything but trying the sampled paths: the scenario file (the uncertainty section's own
 /// rules included), the cell and the duty cycle. Returns the scenario's document for reporting
 /// against it later.

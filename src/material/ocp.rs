@@ -16,26 +16,27 @@ use serde::Serialize;
 /// Stoichiometries are kept this far inside (0, 1) so every form stays finite.
 const STOICH_GUARD: f64 = 1e-6;
 
-/// A published open-circuit potential fit, chosen by name in the cell file.
+/// A published open-circuit potential fit, chosen by name in the cell file. Names say the
+/// material and the curve's shape; FORMATS.md lists each one's published source.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub enum BuiltinOcp {
-    /// MCMB graphite, Doyle et al. 1996.
-    GraphiteMcmb1996,
-    /// Graphite, Safari & Delacourt 2011.
-    Graphite2011,
-    /// Lithium cobalt oxide (a layered oxide), Doyle et al. 1996.
-    CobaltOxide1996,
-    /// Lithium iron phosphate, Safari & Delacourt 2011.
-    IronPhosphate2011,
+    /// Mesocarbon-microbead graphite as one smooth curve, no staging steps (Doyle et al. 1996).
+    GraphiteSmooth,
+    /// Graphite with its staging plateaus and steps (Safari & Delacourt 2011).
+    GraphiteStaged,
+    /// Lithium cobalt oxide, a layered oxide, sloping (Doyle et al. 1996).
+    CobaltOxide,
+    /// Lithium iron phosphate: a flat two-phase plateau with steep ends (Safari & Delacourt 2011).
+    IronPhosphateFlat,
 }
 
 impl BuiltinOcp {
     /// Every built-in form with the name the cell file uses for it.
     pub const ALL: [(&'static str, BuiltinOcp); 4] = [
-        ("graphite-mcmb-1996", BuiltinOcp::GraphiteMcmb1996),
-        ("graphite-2011", BuiltinOcp::Graphite2011),
-        ("cobalt-oxide-1996", BuiltinOcp::CobaltOxide1996),
-        ("iron-phosphate-2011", BuiltinOcp::IronPhosphate2011),
+        ("graphite-smooth", BuiltinOcp::GraphiteSmooth),
+        ("graphite-staged", BuiltinOcp::GraphiteStaged),
+        ("cobalt-oxide", BuiltinOcp::CobaltOxide),
+        ("iron-phosphate-flat", BuiltinOcp::IronPhosphateFlat),
     ];
 
     /// Looks a form up by its cell-file name.
@@ -52,19 +53,19 @@ impl BuiltinOcp {
     pub fn potential(self, x: f64) -> f64 {
         let x = x.clamp(STOICH_GUARD, 1.0 - STOICH_GUARD);
         match self {
-            BuiltinOcp::GraphiteMcmb1996 => {
+            BuiltinOcp::GraphiteSmooth => {
                 0.7222 + 0.1387 * x + 0.029 * x.sqrt() - 0.0172 / x
                     + 0.0019 / (x * x.sqrt())
                     + 0.2808 * (0.9 - 15.0 * x).exp()
                     - 0.7984 * (0.4465 * x - 0.4108).exp()
             }
-            BuiltinOcp::Graphite2011 => {
+            BuiltinOcp::GraphiteStaged => {
                 0.6379 + 0.5416 * (-305.5309 * x).exp() + 0.044 * (-(x - 0.1958) / 0.1088).tanh()
                     - 0.1978 * ((x - 1.0571) / 0.0854).tanh()
                     - 0.6875 * ((x + 0.0117) / 0.0529).tanh()
                     - 0.0175 * ((x - 0.5692) / 0.0875).tanh()
             }
-            BuiltinOcp::CobaltOxide1996 => {
+            BuiltinOcp::CobaltOxide => {
                 // The rational fit has a pole near y ≈ 0.43, below the range it was fitted on;
                 // continue it linearly from y = 0.48 so it stays finite and falling.
                 if x < COBALT_OXIDE_FIT_MIN {
@@ -75,7 +76,7 @@ impl BuiltinOcp {
                 }
                 cobalt_oxide_fit(x)
             }
-            BuiltinOcp::IronPhosphate2011 => {
+            BuiltinOcp::IronPhosphateFlat => {
                 let v = 1.0 - x;
                 3.4323 - 0.8428 * (-80.2493 * v.powf(1.3198)).exp() - 3.2474e-6 * (20.2645 * v.powf(3.8003)).exp()
                     + 3.2482e-6 * (20.2646 * v.powf(3.7995)).exp()
@@ -158,10 +159,10 @@ mod tests {
     #[test]
     fn builtin_forms_fall_with_stoichiometry_and_stay_in_range() {
         let cases = [
-            (BuiltinOcp::GraphiteMcmb1996, 0.05, 0.95, 0.0, 1.0),
-            (BuiltinOcp::Graphite2011, 0.02, 0.95, 0.0, 1.0),
-            (BuiltinOcp::CobaltOxide1996, 0.3, 0.98, 3.5, 5.5),
-            (BuiltinOcp::IronPhosphate2011, 0.02, 0.98, 2.8, 3.8),
+            (BuiltinOcp::GraphiteSmooth, 0.05, 0.95, 0.0, 1.0),
+            (BuiltinOcp::GraphiteStaged, 0.02, 0.95, 0.0, 1.0),
+            (BuiltinOcp::CobaltOxide, 0.3, 0.98, 3.5, 5.5),
+            (BuiltinOcp::IronPhosphateFlat, 0.02, 0.98, 2.8, 3.8),
         ];
         for (form, lo, hi, vmin, vmax) in cases {
             let mut previous = f64::INFINITY;

@@ -2,8 +2,9 @@
 //! table, compare.svg (median fade curves with bands, overlaid) and table.csv.
 
 use super::cycle_svg::{padded_range, plot_error};
+use super::schema::{flag, number};
 use super::ReportError;
-use crate::compare::{AlternativeSummary, Comparison, ConditionResult, Spread, TABLE_QUANTILES};
+use crate::compare::{AlternativeSummary, Comparison, ConditionResult, Spread};
 use crate::forecast::{ForecastWarning, WarningKind};
 use plotters::prelude::*;
 use std::fmt::Write as _;
@@ -18,82 +19,63 @@ const PALETTE: [RGBColor; 6] = [
     RGBColor(23, 190, 207),
 ];
 
-/// A number for a CSV cell: blank when absent or undefined, `inf` for a life beyond the
-/// horizon (censored samples reach that quantile).
-fn cell(v: Option<f64>) -> String {
-    match v {
-        Some(v) if v.is_nan() => String::new(),
-        Some(v) if v == f64::INFINITY => "inf".into(),
-        Some(v) => v.to_string(),
-        None => String::new(),
+/// The quantile labels of a comparison's columns, low to high (`5`, `50`, `95`).
+fn quantile_labels((low, high): (f64, f64)) -> [String; 3] {
+    [low, 0.5, high].map(super::ensemble::percent_label)
+}
+
+/// The header of compare.csv for outer quantiles `(low, high)`: each quantity's low quantile,
+/// median and high quantile, `life_censored_p*` saying which life quantiles lie beyond the
+/// horizon (their life and energy cells are empty).
+pub fn compare_csv_header(quantiles: (f64, f64)) -> Vec<String> {
+    let labels = quantile_labels(quantiles);
+    let mut header: Vec<String> =
+        ["alternative", "samples_usable", "samples_censored", "samples_left_out"].map(String::from).to_vec();
+    for quantity in
+        ["life_cycles", "life_efc", "life_years", "life_censored", "energy_to_end_of_life_wh", "soh_at_horizon_pct"]
+    {
+        header.extend(labels.iter().map(|p| format!("{quantity}_p{p}")));
     }
+    header.extend(["charge_time_h", "peak_temperature_c", "plating_predicted", "plating_fraction"].map(String::from));
+    for quantity in ["life_difference_cycles", "life_difference_efc"] {
+        header.extend(labels.iter().map(|p| format!("{quantity}_p{p}")));
+    }
+    header.extend(["probability_outlasts_first", "warnings"].map(String::from));
+    header
 }
 
-fn spread_cells(s: &Spread) -> [String; 3] {
-    [cell(s.p10), cell(Some(s.p50)), cell(s.p90)]
+/// A spread's three values; a deterministic comparison's one run is every quantile of itself.
+fn spread_values(s: &Spread) -> [f64; 3] {
+    [s.low.unwrap_or(s.median), s.median, s.high.unwrap_or(s.median)]
 }
 
-/// The header of compare.csv.
-pub const COMPARE_CSV_HEADER: [&str; 31] = [
-    "alternative",
-    "samples_usable",
-    "samples_censored",
-    "samples_left_out",
-    "life_cycles_p10",
-    "life_cycles_p50",
-    "life_cycles_p90",
-    "life_efc_p10",
-    "life_efc_p50",
-    "life_efc_p90",
-    "life_years_p10",
-    "life_years_p50",
-    "life_years_p90",
-    "energy_to_end_of_life_wh_p10",
-    "energy_to_end_of_life_wh_p50",
-    "energy_to_end_of_life_wh_p90",
-    "soh_at_horizon_pct_p10",
-    "soh_at_horizon_pct_p50",
-    "soh_at_horizon_pct_p90",
-    "charge_time_h",
-    "peak_temperature_c",
-    "plating_predicted",
-    "plating_fraction",
-    "life_difference_cycles_p50",
-    "life_difference_cycles_p5",
-    "life_difference_cycles_p95",
-    "life_difference_efc_p50",
-    "life_difference_efc_p5",
-    "life_difference_efc_p95",
-    "probability_outlasts_first",
-    "warnings",
-];
-
-/// compare.csv: one row per alternative; the difference columns are blank for the first
-/// (the reference), and the outer quantiles blank when the comparison ran deterministically.
-pub fn compare_csv(summaries: &[AlternativeSummary]) -> Result<Vec<u8>, ReportError> {
+/// compare.csv: one row per alternative; the difference columns are empty for the first (the
+/// reference). A life quantile beyond the horizon is empty, with `life_censored_p*` true.
+pub fn compare_csv(summaries: &[AlternativeSummary], quantiles: (f64, f64)) -> Result<Vec<u8>, ReportError> {
     let mut writer = csv::Writer::from_writer(Vec::new());
-    writer.write_record(COMPARE_CSV_HEADER)?;
+    writer.write_record(compare_csv_header(quantiles))?;
     for s in summaries {
         let mut row =
             vec![s.name.clone(), s.usable.to_string(), s.censored.to_string(), (s.invalid + s.failed).to_string()];
-        for spread in [&s.life_cycles, &s.life_efc, &s.life_years, &s.energy_to_end_wh, &s.soh_at_horizon_pct] {
-            row.extend(spread_cells(spread));
+        for spread in [&s.life_cycles, &s.life_efc, &s.life_years] {
+            row.extend(spread_values(spread).map(number));
         }
-        row.push(cell(Some(s.charge_time_s / 3600.0)));
-        row.push(cell(Some(s.peak_temperature_c)));
-        row.push(if s.plating_fraction > 0.0 { "yes" } else { "no" }.into());
-        row.push(cell(Some(s.plating_fraction)));
+        row.extend(spread_values(&s.life_cycles).map(|v| flag(v == f64::INFINITY).to_string()));
+        row.extend(spread_values(&s.energy_to_end_wh).map(number));
+        row.extend(spread_values(&s.soh_at_horizon_pct).map(number));
+        row.push(number(s.charge_time_s / 3600.0));
+        row.push(number(s.peak_temperature_c));
+        row.push(flag(s.plating_fraction > 0.0).into());
+        row.push(number(s.plating_fraction));
         match &s.paired {
-            Some(d) => {
-                row.push(cell(Some(d.median_cycles)));
-                row.push(cell(d.interval_cycles.map(|i| i.0)));
-                row.push(cell(d.interval_cycles.map(|i| i.1)));
-                row.push(cell(Some(d.median_efc)));
-                row.push(cell(d.interval_efc.map(|i| i.0)));
-                row.push(cell(d.interval_efc.map(|i| i.1)));
-                row.push(cell(Some(d.probability_outlasts)));
+            Some(d) if d.pairs > 0 => {
+                for (median, interval) in [(d.median_cycles, d.interval_cycles), (d.median_efc, d.interval_efc)] {
+                    let (lo, hi) = interval.unwrap_or((median, median));
+                    row.extend([lo, median, hi].map(number));
+                }
+                row.push(number(d.probability_outlasts));
             }
-            None => row.extend(std::iter::repeat_n(String::new(), 7)),
+            _ => row.extend(std::iter::repeat_n(String::new(), 7)),
         }
         let runs = s.usable + s.invalid + s.failed;
         row.push(counted_kinds(&s.warning_counts, runs));
@@ -113,89 +95,119 @@ fn shown(v: f64, decimals: usize) -> String {
     }
 }
 
-fn shown_spread(s: &Spread, decimals: usize) -> String {
-    match (s.p10, s.p90) {
-        (Some(lo), Some(hi)) => {
-            format!("{} ({} – {})", shown(s.p50, decimals), shown(lo, decimals), shown(hi, decimals))
-        }
-        _ => shown(s.p50, decimals),
+fn shown_spread(s: &Spread, decimals: usize, scale: f64) -> String {
+    match (s.low, s.high) {
+        (Some(lo), Some(hi)) => format!(
+            "{} ({}–{})",
+            shown(s.median * scale, decimals),
+            shown(lo * scale, decimals),
+            shown(hi * scale, decimals)
+        ),
+        _ => shown(s.median * scale, decimals),
     }
 }
 
-/// The comparison as printed: one block per alternative, life with its P10–P90 range when
-/// sampled, and the paired difference against the first alternative.
-pub fn compare_text(summaries: &[AlternativeSummary], sampled: bool) -> String {
+/// The comparison as printed: a side-by-side table, one column per alternative and one row per
+/// quantity (median with the low–high quantile range when sampled), then the paired difference
+/// against the first alternative. Pair statistics are printed only when samples were drawn.
+pub fn compare_text(summaries: &[AlternativeSummary], sampled: bool, quantiles: (f64, f64)) -> String {
     let mut out = String::new();
     let Some(first) = summaries.first() else { return out };
-    let how = if sampled { "median (P10 – P90) over the samples" } else { "one deterministic forecast each" };
+    let [low, _, high] = quantile_labels(quantiles);
+    let how = if sampled {
+        format!("median (P{low}–P{high}) over the samples")
+    } else {
+        "one deterministic forecast each".into()
+    };
     let _ = writeln!(out, "\nComparison against \"{}\" ({how})", first.name);
-    for s in summaries {
-        let _ = writeln!(out, "  {}", s.name);
-        let _ = writeln!(out, "    {:<38}{}", "end of life, cycles", shown_spread(&s.life_cycles, 0));
-        let _ = writeln!(out, "    {:<38}{}", "end of life, equivalent full cycles", shown_spread(&s.life_efc, 0));
-        let _ = writeln!(out, "    {:<38}{}", "end of life, years", shown_spread(&s.life_years, 2));
-        let _ = writeln!(
-            out,
-            "    {:<38}{}",
-            "energy to end of life, kWh",
-            shown_spread(
-                &Spread {
-                    p10: s.energy_to_end_wh.p10.map(|v| v / 1000.0),
-                    p50: s.energy_to_end_wh.p50 / 1000.0,
-                    p90: s.energy_to_end_wh.p90.map(|v| v / 1000.0),
-                },
-                1
-            )
-        );
-        let _ = writeln!(out, "    {:<38}{}", "state of health at horizon, %", shown_spread(&s.soh_at_horizon_pct, 1));
-        let _ = writeln!(out, "    {:<38}{:.2} h", "charge time per cycle", s.charge_time_s / 3600.0);
-        let _ = writeln!(out, "    {:<38}{:.1} °C", "peak temperature", s.peak_temperature_c);
-        let plating = if s.plating_fraction > 0.0 {
-            format!("YES ({:.0} % of samples)", 100.0 * s.plating_fraction)
-        } else {
-            "no".into()
-        };
-        let _ = writeln!(out, "    {:<38}{plating}", "lithium plating predicted");
-        if s.censored > 0 {
-            let _ = writeln!(
-                out,
-                "    {:<38}{} of {} samples still alive at the horizon (censored: life is longer)",
-                "censored", s.censored, s.usable
-            );
+    let mut rows: Vec<(String, Vec<String>)> = vec![
+        ("end of life, cycles".into(), summaries.iter().map(|s| shown_spread(&s.life_cycles, 0, 1.0)).collect()),
+        ("end of life, EFC".into(), summaries.iter().map(|s| shown_spread(&s.life_efc, 0, 1.0)).collect()),
+        ("end of life, years".into(), summaries.iter().map(|s| shown_spread(&s.life_years, 2, 1.0)).collect()),
+        (
+            "energy to end of life, kWh".into(),
+            summaries.iter().map(|s| shown_spread(&s.energy_to_end_wh, 1, 1e-3)).collect(),
+        ),
+        ("SOH at horizon, %".into(), summaries.iter().map(|s| shown_spread(&s.soh_at_horizon_pct, 1, 1.0)).collect()),
+        (
+            "charge time per cycle, h".into(),
+            summaries.iter().map(|s| format!("{:.2}", s.charge_time_s / 3600.0)).collect(),
+        ),
+        ("peak temperature, °C".into(), summaries.iter().map(|s| format!("{:.1}", s.peak_temperature_c)).collect()),
+        (
+            "lithium plating".into(),
+            summaries
+                .iter()
+                .map(|s| match (s.plating_fraction > 0.0, sampled) {
+                    (false, _) => "no".into(),
+                    (true, false) => "YES".into(),
+                    (true, true) => format!("YES ({:.0} %)", 100.0 * s.plating_fraction),
+                })
+                .collect(),
+        ),
+    ];
+    if summaries.iter().any(|s| s.censored > 0) && sampled {
+        rows.push((
+            "alive at horizon".into(),
+            summaries.iter().map(|s| format!("{} of {}", s.censored, s.usable)).collect(),
+        ));
+    }
+    if summaries.iter().any(|s| s.invalid + s.failed > 0) {
+        rows.push(("left out".into(), summaries.iter().map(|s| (s.invalid + s.failed).to_string()).collect()));
+    }
+    let difference = |s: &AlternativeSummary| match &s.paired {
+        None => "(reference)".to_string(),
+        Some(d) if d.pairs == 0 => "no usable pair".into(),
+        Some(d) => match d.interval_cycles {
+            Some((lo, hi)) if sampled => format!("{:+.0} ({lo:+.0} to {hi:+.0})", d.median_cycles),
+            _ => format!("{:+.0}", d.median_cycles),
+        },
+    };
+    rows.push((
+        if sampled { "life vs first, cycles (paired)".into() } else { "life vs first, cycles".into() },
+        summaries.iter().map(difference).collect(),
+    ));
+    if sampled {
+        rows.push((
+            "outlasts the first".into(),
+            summaries
+                .iter()
+                .map(|s| match &s.paired {
+                    Some(d) if d.pairs > 0 => format!("{:.0} % of {} pairs", 100.0 * d.probability_outlasts, d.pairs),
+                    Some(_) => "–".into(),
+                    None => String::new(),
+                })
+                .collect(),
+        ));
+    }
+    let label_width = rows.iter().map(|(l, _)| l.chars().count()).max().unwrap_or(0) + 2;
+    let widths: Vec<usize> = (0..summaries.len())
+        .map(|a| {
+            rows.iter()
+                .map(|(_, cells)| cells[a].chars().count())
+                .chain([summaries[a].name.chars().count()])
+                .max()
+                .unwrap_or(0)
+                + 2
+        })
+        .collect();
+    let pad = |text: &str, width: usize| format!("{text}{}", " ".repeat(width.saturating_sub(text.chars().count())));
+    let mut line = format!("  {}", pad("", label_width));
+    for (s, w) in summaries.iter().zip(&widths) {
+        line.push_str(&pad(&s.name, *w));
+    }
+    let _ = writeln!(out, "{}", line.trim_end());
+    for (label, cells) in &rows {
+        let mut line = format!("  {}", pad(label, label_width));
+        for (cell, w) in cells.iter().zip(&widths) {
+            line.push_str(&pad(cell, *w));
         }
-        if s.invalid + s.failed > 0 {
-            let _ = writeln!(
-                out,
-                "    {:<38}{} samples (invalid draws {}, forecasts failed {})",
-                "left out",
-                s.invalid + s.failed,
-                s.invalid,
-                s.failed
-            );
-        }
-        if let Some(d) = s.paired.filter(|d| d.pairs == 0) {
-            let _ =
-                writeln!(out, "    {:<38}no sample usable in both (of {} pairs)", "life vs first (paired)", d.pairs);
-        }
-        if let Some(d) = s.paired.filter(|d| d.pairs > 0) {
-            let interval =
-                d.interval_cycles.map_or(String::new(), |(lo, hi)| format!(" (90 % interval {lo:+.0} to {hi:+.0})"));
-            let _ = writeln!(out, "    {:<38}{:+.0} cycles{interval}", "life vs first (paired)", d.median_cycles);
-            let _ = writeln!(
-                out,
-                "    {:<38}{:.0} % of {} pairs",
-                "outlasts the first",
-                100.0 * d.probability_outlasts,
-                d.pairs
-            );
-            if d.censored_pairs > 0 {
-                let _ = writeln!(
-                    out,
-                    "    {:<38}{} pairs involve a life beyond the horizon: their differences are bounds",
-                    "", d.censored_pairs
-                );
-            }
-        }
+        let _ = writeln!(out, "{}", line.trim_end());
+    }
+    let censored_pairs: usize = summaries.iter().filter_map(|s| s.paired.map(|d| d.censored_pairs)).sum();
+    if sampled && censored_pairs > 0 {
+        let _ =
+            writeln!(out, "  {censored_pairs} pairs involve a life beyond the horizon: their differences are bounds");
     }
     out
 }
@@ -211,7 +223,7 @@ pub fn compare_svg(summaries: &[AlternativeSummary], title: &str, cycling: bool)
         .map(|b| (x_of(b), b.day))
         .fold((1e-9, 1e-9), |acc, v| if v.0 > acc.0 { v } else { acc });
     let years = x_range.start * last_day / DAYS_PER_YEAR / last_x..x_range.end * last_day / DAYS_PER_YEAR / last_x;
-    let y_range = padded_range(summaries.iter().flat_map(|s| s.curve.iter().flat_map(|b| [b.p10, b.p90])), 0.05);
+    let y_range = padded_range(summaries.iter().flat_map(|s| s.curve.iter().flat_map(|b| [b.low, b.high])), 0.05);
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (1000, 560)).into_drawing_area();
@@ -234,18 +246,18 @@ pub fn compare_svg(summaries: &[AlternativeSummary], title: &str, cycling: bool)
         chart.configure_secondary_axes().x_desc("years").y_labels(0).draw().map_err(plot_error)?;
         for (i, s) in summaries.iter().enumerate() {
             let colour = PALETTE[i % PALETTE.len()];
-            let banded = s.curve.iter().any(|b| b.p90 > b.p10);
+            let banded = s.curve.iter().any(|b| b.high > b.low);
             if banded {
-                let mut outline: Vec<(f64, f64)> = s.curve.iter().map(|b| (x_of(b), b.p90)).collect();
-                outline.extend(s.curve.iter().rev().map(|b| (x_of(b), b.p10)));
+                let mut outline: Vec<(f64, f64)> = s.curve.iter().map(|b| (x_of(b), b.high)).collect();
+                outline.extend(s.curve.iter().rev().map(|b| (x_of(b), b.low)));
                 chart
                     .draw_series(std::iter::once(Polygon::new(outline, colour.mix(0.2).filled())))
                     .map_err(plot_error)?;
             }
             chart
-                .draw_series(LineSeries::new(s.curve.iter().map(|b| (x_of(b), b.p50)), colour.stroke_width(2)))
+                .draw_series(LineSeries::new(s.curve.iter().map(|b| (x_of(b), b.median)), colour.stroke_width(2)))
                 .map_err(plot_error)?
-                .label(if banded { format!("{} (median, P10 – P90)", s.name) } else { s.name.clone() })
+                .label(if banded { format!("{} (median and band)", s.name) } else { s.name.clone() })
                 .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2)));
         }
         chart
@@ -286,13 +298,13 @@ fn counted_kinds(counts: &[(WarningKind, usize)], runs: usize) -> String {
 
 /// table.csv, long format: one row per condition and reported point of the nominal forecast;
 /// with samples, `soh_pct_p5`, `soh_pct_p50`, `soh_pct_p95` and the same for resistance growth.
-pub fn table_csv(results: &[ConditionResult]) -> Result<Vec<u8>, ReportError> {
+pub fn table_csv(results: &[ConditionResult], quantiles: [f64; 3]) -> Result<Vec<u8>, ReportError> {
     let sampled = results.iter().any(|r| r.quantiles.is_some());
     let mut writer = csv::Writer::from_writer(Vec::new());
     let mut header: Vec<String> = TABLE_CSV_HEADER.iter().map(|s| s.to_string()).collect();
     if sampled {
         for quantity in ["soh_pct", "resistance_growth_pct"] {
-            for p in TABLE_QUANTILES {
+            for p in quantiles {
                 header.push(format!("{quantity}_p{}", super::ensemble::percent_label(p)));
             }
         }
@@ -302,29 +314,29 @@ pub fn table_csv(results: &[ConditionResult]) -> Result<Vec<u8>, ReportError> {
         let c = &r.condition;
         for (k, p) in r.nominal.points.iter().enumerate() {
             let mut row = vec![
-                cell(Some(c.ambient_c)),
-                cell(Some(c.c_rate)),
-                cell(Some(c.soc_low * 100.0)),
-                cell(Some(c.soc_high * 100.0)),
-                cell(Some(p.cycle)),
-                cell(Some(p.day)),
-                cell(Some(p.day / DAYS_PER_YEAR)),
-                cell(Some(p.efc)),
-                cell(Some(p.throughput_ah)),
-                cell(Some(p.energy_wh)),
-                cell(Some(p.capacity_ah)),
-                cell(Some(p.soh_pct)),
-                cell(Some(p.resistance_mohm)),
-                cell(Some(p.resistance_growth_pct)),
+                number(c.ambient_c),
+                number(c.c_rate),
+                number(c.soc_low * 100.0),
+                number(c.soc_high * 100.0),
+                number(p.cycle),
+                number(p.day),
+                number(p.day / DAYS_PER_YEAR),
+                number(p.efc),
+                number(p.throughput_ah),
+                number(p.energy_wh),
+                number(p.capacity_ah),
+                number(p.soh_pct),
+                number(p.resistance_mohm),
+                number(p.resistance_growth_pct),
                 // The condition's forecast as a whole, from its typed warnings.
-                if r.nominal.warning_set().contains(WarningKind::Plating) { "yes" } else { "no" }.into(),
+                flag(r.nominal.warning_set().contains(WarningKind::Plating)).into(),
                 r.nominal.warning_set().kinds().map(WarningKind::key).collect::<Vec<_>>().join(";"),
             ];
             if sampled {
                 let q = r.quantiles.as_ref().and_then(|q| q.get(k));
                 for quantity in 0..2 {
-                    for j in 0..TABLE_QUANTILES.len() {
-                        row.push(cell(q.map(|q| q[quantity][j])));
+                    for j in 0..quantiles.len() {
+                        row.push(q.map_or(String::new(), |q| number(q[quantity][j])));
                     }
                 }
             }
@@ -403,6 +415,7 @@ pub fn table_text(results: &[ConditionResult], notes: Vec<String>) -> (String, V
     let _ = writeln!(text, "\n  {:<28}{:>14}{:>14}{:>18}", "condition", "horizon EFC", "SOH, %", "resistance, %");
     let mut cautions = notes;
     let mut other_warnings: Vec<&ForecastWarning> = Vec::new();
+    let mut plating: Vec<(String, &ForecastWarning)> = Vec::new();
     for r in results {
         let label = r.condition.label();
         if let Some(last) = r.nominal.points.last() {
@@ -414,7 +427,7 @@ pub fn table_text(results: &[ConditionResult], notes: Vec<String>) -> (String, V
         }
         for w in &r.nominal.warnings {
             if w.kind() == WarningKind::Plating {
-                cautions.push(format!("{label}: {}", super::warning_text(w)));
+                plating.push((label.clone(), w));
             } else if !other_warnings.iter().any(|o| o.kind() == w.kind()) {
                 other_warnings.push(w);
             }
@@ -426,6 +439,18 @@ pub fn table_text(results: &[ConditionResult], notes: Vec<String>) -> (String, V
             ));
         }
     }
+    // Plating: the conditions named once, then the warning's words once (they do not depend on
+    // the condition beyond the numbers, which table.csv holds per condition).
+    if let Some((_, first)) = plating.first() {
+        let conditions: Vec<&str> = plating.iter().map(|(label, _)| label.as_str()).collect();
+        cautions.push(format!(
+            "lithium plating predicted at {} of {} conditions: {}",
+            plating.len(),
+            results.len(),
+            conditions.join("; ")
+        ));
+        cautions.push(super::warning_text(first));
+    }
     cautions.extend(other_warnings.into_iter().map(super::warning_text));
     (text, cautions)
 }
@@ -433,7 +458,7 @@ pub fn table_text(results: &[ConditionResult], notes: Vec<String>) -> (String, V
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::compare::Condition;
+    use crate::compare::{Condition, TABLE_QUANTILES};
     use crate::forecast::{FadePoint, Forecast, ForecastWarning, StopReason};
 
     fn condition_with(warnings: Vec<ForecastWarning>) -> ConditionResult {
@@ -464,11 +489,13 @@ mod tests {
     fn the_plating_column_reads_the_typed_warning_not_its_words() {
         // Whatever src/report says about plating, the flag follows `WarningKind::Plating`.
         let plating = ForecastWarning::Plating { lowest_potential_v: -0.01, plated_ah: 0.002 };
-        let csv =
-            String::from_utf8(table_csv(&[condition_with(vec![plating]), condition_with(vec![])]).unwrap()).unwrap();
+        let csv = String::from_utf8(
+            table_csv(&[condition_with(vec![plating]), condition_with(vec![])], TABLE_QUANTILES).unwrap(),
+        )
+        .unwrap();
         let header: Vec<&str> = csv.lines().next().unwrap().split(',').collect();
         let column = header.iter().position(|h| *h == "plating_predicted").unwrap();
         let flags: Vec<&str> = csv.lines().skip(1).map(|l| l.split(',').nth(column).unwrap()).collect();
-        assert_eq!(flags, ["yes", "no"]);
+        assert_eq!(flags, ["true", "false"]);
     }
 }

@@ -1,34 +1,13 @@
 //! The cycle trace as tidy CSV: one header row, one row per time step, units in column names.
 
+use super::schema::number;
 use super::ReportError;
 use crate::cycle::CycleRecord;
 use crate::material::constants::ZERO_CELSIUS_K;
-use serde::Serialize;
 
-/// One exported row. The field names are the CSV header, so this struct is the file format.
-#[derive(Serialize)]
-struct TraceRow<'a> {
-    time_s: f64,
-    /// Positive on discharge, as everywhere in fadecast.
-    current_a: f64,
-    voltage_v: f64,
-    temperature_c: f64,
-    /// State of charge, fraction 0–1.
-    soc: f64,
-    neg_surface_stoich: f64,
-    pos_surface_stoich: f64,
-    /// Negative-electrode surface potential against Li/Li⁺; below 0 V means plating.
-    neg_potential_v: f64,
-    /// Tangential surface stress, positive in tension.
-    neg_surface_stress_mpa: f64,
-    pos_surface_stress_mpa: f64,
-    /// 1-based, as people count steps.
-    step: usize,
-    step_label: &'a str,
-}
-
-/// The header `cycle_csv` writes, for readers and tests.
-pub const CYCLE_CSV_HEADER: &str = "time_s,current_a,voltage_v,temperature_c,soc,\
+/// The header `cycle_csv` writes: units in the names (state of charge in %, stress in MPa,
+/// the negative's potential against Li/Li⁺), steps counted from 1 as people count them.
+pub const CYCLE_CSV_HEADER: &str = "time_s,current_a,voltage_v,temperature_c,soc_pct,\
 neg_surface_stoich,pos_surface_stoich,neg_potential_v,neg_surface_stress_mpa,\
 pos_surface_stress_mpa,step,step_label";
 
@@ -36,25 +15,24 @@ pos_surface_stress_mpa,step,step_label";
 /// the trace); a missing label is left empty.
 pub fn cycle_csv(record: &CycleRecord, step_labels: &[String]) -> Result<Vec<u8>, ReportError> {
     let mut writer = csv::Writer::from_writer(Vec::new());
+    writer.write_record(CYCLE_CSV_HEADER.split(','))?;
     for point in &record.trace {
-        writer.serialize(TraceRow {
-            time_s: point.time_s,
-            current_a: point.current_a,
-            voltage_v: point.voltage_v,
-            temperature_c: point.temperature_k - ZERO_CELSIUS_K,
-            soc: point.soc,
-            neg_surface_stoich: point.neg_surface_stoich,
-            pos_surface_stoich: point.pos_surface_stoich,
-            neg_potential_v: point.neg_potential_v,
-            neg_surface_stress_mpa: point.neg_surface_stress_pa * 1e-6,
-            pos_surface_stress_mpa: point.pos_surface_stress_pa * 1e-6,
-            step: point.step + 1,
-            step_label: step_labels.get(point.step).map_or("", String::as_str),
-        })?;
-    }
-    if record.trace.is_empty() {
-        // serde writes the header only with the first row; an empty trace still gets one.
-        writer.write_record(CYCLE_CSV_HEADER.split(','))?;
+        let numbers = [
+            point.time_s,
+            point.current_a,
+            point.voltage_v,
+            point.temperature_k - ZERO_CELSIUS_K,
+            100.0 * point.soc,
+            point.neg_surface_stoich,
+            point.pos_surface_stoich,
+            point.neg_potential_v,
+            point.neg_surface_stress_pa * 1e-6,
+            point.pos_surface_stress_pa * 1e-6,
+        ];
+        let mut row: Vec<String> = numbers.iter().map(|&v| number(v)).collect();
+        row.push((point.step + 1).to_string());
+        row.push(step_labels.get(point.step).cloned().unwrap_or_default());
+        writer.write_record(&row)?;
     }
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
 }
@@ -83,8 +61,8 @@ mod tests {
         let mut lines = text.lines();
         assert_eq!(lines.next(), Some(CYCLE_CSV_HEADER));
         let row = lines.next().unwrap();
-        assert!(row.starts_with("60.0,-5.0,3.9,"), "{row}");
-        assert!(row.ends_with(",-2.5,0.0,2,\"charge, CC\""), "{row}");
+        assert!(row.starts_with("60,-5,3.9,"), "{row}");
+        assert!(row.ends_with(",-2.5,0,2,\"charge, CC\""), "{row}");
     }
 
     #[test]

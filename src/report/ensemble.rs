@@ -1,10 +1,14 @@
 //! Ensemble outputs as bytes: the bands and samples tables and the JSON summary.
 
+use super::schema::{flag, number};
 use super::ReportError;
 use crate::ensemble::summary::QuantileEstimate;
 use crate::ensemble::{EnsembleSummary, SampleRecord, SampleStatus, CURVE_QUANTITIES};
 use crate::forecast::WarningKind;
+use serde::Serialize;
 use serde_json::{json, Value};
+
+const DAYS_PER_YEAR: f64 = 365.25;
 use std::fmt::Write as _;
 
 /// `5` for 0.05, `2.5` for 0.025: the quantile as a percent in column names.
@@ -14,33 +18,25 @@ pub fn percent_label(p: f64) -> String {
     format!("{rounded}")
 }
 
-/// bands.csv: per reported point, the chosen quantiles of capacity, state of health and
-/// resistance (`soh_pct_p5`, `soh_pct_p50`, …).
+/// bands.csv: per reported point (cycle, day, years), the chosen quantiles of capacity, state
+/// of health and resistance (`soh_pct_p5`, `soh_pct_p50`, …).
 pub fn bands_csv(summary: &EnsembleSummary) -> Result<Vec<u8>, ReportError> {
     let mut writer = csv::Writer::from_writer(Vec::new());
-    let mut header = vec!["point".to_string(), "cycle".into(), "day".into()];
+    let mut header = vec!["cycle".to_string(), "day".into(), "years".into()];
     for q in CURVE_QUANTITIES {
         for &p in &summary.quantiles {
             header.push(format!("{q}_p{}", percent_label(p)));
         }
     }
     writer.write_record(&header)?;
-    for (k, point) in summary.bands.iter().enumerate() {
-        let mut row = vec![k.to_string(), point.cycle.to_string(), point.day.to_string()];
+    for point in &summary.bands {
+        let mut row = vec![number(point.cycle), number(point.day), number(point.day / DAYS_PER_YEAR)];
         for values in &point.values {
-            row.extend(values.iter().map(|v| v.to_string()));
+            row.extend(values.iter().map(|&v| number(v)));
         }
         writer.write_record(&row)?;
     }
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
-}
-
-fn blank_if_nan(v: f64) -> String {
-    if v.is_finite() {
-        v.to_string()
-    } else {
-        String::new()
-    }
 }
 
 /// samples.csv: one row per sample with its drawn inputs, end of life and state at the horizon.
@@ -49,8 +45,8 @@ pub fn samples_csv(records: &[SampleRecord], parameters: &[String], warranty: bo
     let mut header = vec!["sample".to_string(), "status".into()];
     header.extend(parameters.iter().cloned());
     for t in ["capacity", "resistance"] {
-        for unit in ["cycles", "efc", "years"] {
-            header.push(format!("eol_{t}_{unit}"));
+        for unit in ["cycles", "efc", "years", "censored"] {
+            header.push(format!("life_{t}_{unit}"));
         }
     }
     header.extend(["soh_at_horizon_pct".into(), "resistance_growth_at_horizon_pct".into()]);
@@ -66,19 +62,21 @@ pub fn samples_csv(records: &[SampleRecord], parameters: &[String], warranty: bo
             SampleStatus::Failed { stop, cycling } => ("failed", super::stop_text(stop, *cycling).unwrap_or_default()),
         };
         let mut row = vec![r.index.to_string(), status.to_string()];
-        row.extend(r.values.iter().map(|v| v.to_string()));
+        row.extend(r.values.iter().map(|&v| number(v)));
+        // A sample left out has no life at all; a usable one without an end is censored.
+        let usable = matches!(r.status, SampleStatus::Ok);
         for end in [r.capacity_end, r.resistance_end] {
             match end {
-                Some(at) => row.extend([at.cycles.to_string(), at.efc.to_string(), at.years.to_string()]),
-                None => row.extend(["not reached".to_string(), String::new(), String::new()]),
+                Some(at) => row.extend([number(at.cycles), number(at.efc), number(at.years), flag(false).into()]),
+                None => row.extend([String::new(), String::new(), String::new(), flag(usable).into()]),
             }
         }
-        row.push(blank_if_nan(r.soh_at_horizon_pct));
-        row.push(blank_if_nan(r.resistance_growth_at_horizon_pct));
+        row.push(number(r.soh_at_horizon_pct));
+        row.push(number(r.resistance_growth_at_horizon_pct));
         if warranty {
-            row.push(blank_if_nan(r.soh_at_warranty_pct));
+            row.push(number(r.soh_at_warranty_pct));
         }
-        row.push(if r.warnings.contains(WarningKind::Plating) { "yes" } else { "no" }.to_string());
+        row.push(flag(r.warnings.contains(WarningKind::Plating)).to_string());
         row.push(r.warnings.kinds().map(WarningKind::key).collect::<Vec<_>>().join(";"));
         row.push(note.to_string());
         writer.write_record(&row)?;
@@ -86,42 +84,47 @@ pub fn samples_csv(records: &[SampleRecord], parameters: &[String], warranty: bo
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
 }
 
-fn estimates_json(estimates: &[QuantileEstimate]) -> Value {
-    Value::Array(
-        estimates
-            .iter()
-            .map(|e| {
-                json!({
-                    "p": e.p,
-                    "value": e.value.map_or(json!("not reached"), |v| json!(v)),
-                    "standard_error": e.standard_error,
-                })
-            })
-            .collect(),
-    )
+/// One quantile estimate in JSON: its label as in CSV column names (`p5`), the value (`null`
+/// when the quantile lies beyond the horizon, with `censored` saying so) and its Monte Carlo
+/// standard error.
+#[derive(Serialize)]
+struct EstimateJson {
+    quantile: String,
+    value: Option<f64>,
+    censored: bool,
+    standard_error: Option<f64>,
 }
 
-/// summary.json of an ensemble run.
-pub fn ensemble_json(summary: &EnsembleSummary, run: &Value, warnings: &[String]) -> Result<Vec<u8>, ReportError> {
-    let life: Vec<Value> = summary
-        .life
+fn estimates_json(estimates: &[QuantileEstimate]) -> Vec<EstimateJson> {
+    estimates
         .iter()
-        .map(|l| {
-            json!({
-                "threshold": l.threshold,
-                "reached_fraction": l.reached_fraction,
-                "cycles": estimates_json(&l.cycles),
-                "years": estimates_json(&l.years),
-            })
+        .map(|e| EstimateJson {
+            quantile: format!("p{}", percent_label(e.p)),
+            value: e.value,
+            censored: e.value.is_none(),
+            standard_error: e.standard_error,
         })
-        .collect();
+        .collect()
+}
+
+/// summary.json of an ensemble run: per threshold, the life quantiles under the same names as
+/// samples.csv's columns (`life_capacity_cycles`, `life_capacity_years`).
+pub fn ensemble_json(summary: &EnsembleSummary, run: &Value, warnings: &[String]) -> Result<Vec<u8>, ReportError> {
+    let mut life = serde_json::Map::new();
+    for l in &summary.life {
+        let t = l.threshold;
+        life.insert(format!("life_{t}_reached_fraction"), json!(l.reached_fraction));
+        life.insert(format!("life_{t}_cycles"), json!(estimates_json(&l.cycles)));
+        life.insert(format!("life_{t}_years"), json!(estimates_json(&l.years)));
+    }
+    let quantiles: Vec<String> = summary.quantiles.iter().map(|&p| format!("p{}", percent_label(p))).collect();
     let value = json!({
         "run": run,
         "samples": summary.samples,
         "counted": summary.counted,
         "invalid": summary.invalid,
         "failed": summary.failed,
-        "quantiles": summary.quantiles,
+        "quantiles": quantiles,
         "end_of_life": life,
         "warranty": summary.warranty,
         "sensitivity_measure": summary.sensitivity_measure,
@@ -131,9 +134,7 @@ pub fn ensemble_json(summary: &EnsembleSummary, run: &Value, warnings: &[String]
         "forecast_warnings": super::counted_warnings_json(&summary.warning_counts, summary.counted as usize, "samples"),
         "caution": crate::CAUTION,
     });
-    let mut bytes = serde_json::to_vec_pretty(&value)?;
-    bytes.push(b'\n');
-    Ok(bytes)
+    Ok(super::schema::json_bytes(value)?)
 }
 
 /// The notes of an ensemble run, for the terminal and `summary.json`: the scenario's input
@@ -196,11 +197,13 @@ pub fn ensemble_text(scenario: &str, seed: u64, summary: &EnsembleSummary, notes
             let p = percent_label(c.p);
             match (c.value, y.value) {
                 (Some(cv), Some(yv)) => {
-                    let _ =
-                        write!(text, "  P{p} {cv:.0} cycles ({yv:.2} y ± {:.2})", y.standard_error.unwrap_or(f64::NAN));
+                    // Without a Monte Carlo error (too few samples beside the quantile) none is shown.
+                    let error =
+                        y.standard_error.filter(|e| e.is_finite()).map_or(String::new(), |e| format!(" ± {e:.2}"));
+                    let _ = write!(text, "  P{p} {cv:.0} cycles ({yv:.2} y{error})");
                 }
                 _ => {
-                    let _ = write!(text, "  P{p} not reached");
+                    let _ = write!(text, "  P{p} beyond the horizon");
                 }
             }
         }

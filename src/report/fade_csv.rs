@@ -39,7 +39,7 @@ pub fn fade_csv(points: &[FadePoint], scale: &ReportScale) -> Result<Vec<u8>, Re
     let header: Vec<String> = fade_columns(&FadePoint::default(), scale).into_iter().map(|(name, _)| name).collect();
     writer.write_record(&header)?;
     for point in points {
-        writer.write_record(fade_columns(point, scale).iter().map(|(_, v)| v.to_string()))?;
+        writer.write_record(fade_columns(point, scale).iter().map(|(_, v)| super::schema::number(*v)))?;
     }
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
 }

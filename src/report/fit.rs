@@ -4,7 +4,7 @@
 use super::cycle_svg::{padded_range, plot_error};
 use super::text::sig;
 use super::ReportError;
-use crate::calibrate::{Axis, FitResult, FitWarning, FittedParameter, HoldoutError, ResidualStats};
+use crate::calibrate::{Axis, FitResult, FitWarning, FittedParameter, HoldoutError, ResidualStats, Termination};
 use plotters::prelude::*;
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -26,19 +26,33 @@ struct FitRecord<'a> {
     residual_count: usize,
     model_evaluations: usize,
     starts: usize,
-    termination: &'a str,
+    termination: Termination,
     converged: bool,
     warnings: Vec<serde_json::Value>,
     /// Per dataset, the warnings of its forecast at the fitted values.
     forecast_warnings: Vec<serde_json::Value>,
 }
 
+/// Why the optimiser stopped, in words.
+pub fn termination_text(termination: Termination) -> &'static str {
+    match termination {
+        Termination::Converged => "converged",
+        Termination::Orthogonal => "converged (gradient test)",
+        Termination::ResidualsZero => "converged (residuals zero)",
+        Termination::LostPatience => "evaluation limit reached",
+        Termination::NoImprovementPossible => "no further improvement possible at floating-point precision",
+        Termination::NumericalTrouble => "numerical trouble (not-a-number or a failed trial)",
+        Termination::BadProblem => "no parameters or residuals to fit",
+    }
+}
+
 /// One fit warning in words.
 pub fn fit_warning_text(warning: &FitWarning) -> String {
     match warning {
         FitWarning::NotConverged { termination } => format!(
-            "WARNING: the fit did not converge (the optimiser stopped with {termination}): the values may not be \
-             a minimum and their standard errors may mislead; refit with other starts, bounds or data"
+            "WARNING: the fit did not converge (the optimiser stopped: {}): the values may not be \
+             a minimum and their standard errors may mislead; refit with other starts, bounds or data",
+            termination_text(*termination)
         ),
         FitWarning::Singular => "the data do not determine the parameters (JᵀJ is singular): no standard errors".into(),
         FitWarning::StandardErrorExceedsValue { path, standard_error, value } => {
@@ -64,7 +78,7 @@ pub fn fit_text(name: &str, datasets: usize, result: &FitResult, holdout_after: 
         result.starts,
         result.residual_count,
         sig(result.residual_variance, 3),
-        result.termination
+        termination_text(result.termination)
     );
     text.push_str("Parameters (± one standard error)\n");
     for p in &result.parameters {
@@ -153,7 +167,7 @@ pub fn fit_json(result: &FitResult, name: &str, holdout_after: Option<f64>) -> R
         residual_count: result.residual_count,
         model_evaluations: result.model_evaluations,
         starts: result.starts,
-        termination: &result.termination,
+        termination: result.termination,
         converged: result.converged,
         warnings: result.warnings.iter().map(|w| super::outcome::with_message(w, Some(fit_warning_text(w)))).collect(),
         forecast_warnings: result
@@ -167,22 +181,57 @@ pub fn fit_json(result: &FitResult, name: &str, holdout_after: Option<f64>) -> R
             })
             .collect(),
     };
-    let mut bytes = serde_json::to_vec_pretty(&record)?;
-    bytes.push(b'\n');
-    Ok(bytes)
+    Ok(super::schema::json_bytes(record)?)
 }
 
-/// The fitted cell file: the cell's table (fitted values and `[calibration]` already in it),
-/// under a comment saying where it came from. Comments of the original file do not survive.
-pub fn fitted_cell_toml(table: &toml::Table, origin: &str) -> Result<String, ReportError> {
-    let body = toml::to_string(table).map_err(|e| ReportError::Plot(format!("could not format the cell: {e}")))?;
+/// The fitted cell file: the original cell file's text edited in place — each fitted value and
+/// the `[calibration]` table set at its key path (within the cell file), everything else
+/// (comments, key order, notation) as it was — under a comment saying where it came from.
+/// A changed number keeps its line's comment and its notation (exponent form stays exponent
+/// form) and is written with the 6 significant digits of every output.
+pub fn fitted_cell_toml(original: &str, values: &[(Vec<String>, f64)], origin: &str) -> Result<String, ReportError> {
+    let bad = |what: String| ReportError::Plot(format!("could not edit the cell file: {what}"));
+    let mut document: toml_edit::DocumentMut = original.parse().map_err(|e| bad(format!("{e}")))?;
+    for (path, value) in values {
+        set_number(&mut document, path, *value).map_err(bad)?;
+    }
     let mut text = String::new();
     for line in origin.lines() {
         let _ = writeln!(text, "# {line}");
     }
     text.push('\n');
-    text.push_str(&body);
+    text.push_str(&document.to_string());
     Ok(text)
+}
+
+/// Sets the number at `path`, creating missing tables (at the end of the file).
+fn set_number(document: &mut toml_edit::DocumentMut, path: &[String], value: f64) -> Result<(), String> {
+    let (last, parents) = path.split_last().ok_or("an empty key path")?;
+    let mut item = document.as_item_mut();
+    for segment in parents {
+        if item.get(segment).is_none() {
+            item[segment.as_str()] = toml_edit::table();
+        }
+        item = &mut item[segment.as_str()];
+    }
+    let table = item.as_table_like_mut().ok_or_else(|| format!("`{}` is not a table", parents.join(".")))?;
+    let old = table.get(last).and_then(toml_edit::Item::as_value);
+    let exponent = match old {
+        Some(toml_edit::Value::Float(f)) => f.display_repr().contains(['e', 'E']),
+        Some(_) => false,
+        None => value != 0.0 && !(1e-3..1e6).contains(&value.abs()),
+    };
+    let rounded = super::schema::round(value);
+    let mut repr = if exponent { format!("{rounded:e}") } else { format!("{rounded}") };
+    if !repr.contains(['.', 'e', 'E']) {
+        repr.push_str(".0");
+    }
+    let mut new: toml_edit::Value = repr.parse().map_err(|e| format!("{repr}: {e}"))?;
+    if let Some(old) = old {
+        *new.decor_mut() = old.decor().clone();
+    }
+    table.insert(last, toml_edit::Item::Value(new));
+    Ok(())
 }
 
 /// An `[uncertainty]` section with the fitted parameters as one correlated group: log-normal
@@ -308,5 +357,29 @@ fn axis_label(axis: Axis) -> &'static str {
         Axis::Cycle => "cycles",
         Axis::Day => "days",
         Axis::Efc => "equivalent full cycles",
+    }
+}
+
+#[cfg(test)]
+mod fitted_cell_tests {
+    use super::*;
+
+    #[test]
+    fn the_fitted_cell_keeps_comments_order_and_notation() {
+        let original = "# a demo cell\nname = \"x\"\n\n[negative]\nthickness_um = 70.0   # coating\n\
+                        diffusivity_m2_s = 5.0e-14 # graphite\nzeta = 1.0\n";
+        let values = vec![
+            (vec!["negative".to_string(), "diffusivity_m2_s".to_string()], 2.2328812515624298e-14),
+            (vec!["negative".to_string(), "thickness_um".to_string()], 71.234567),
+            (vec!["calibration".to_string(), "days".to_string()], 365.0),
+        ];
+        let text = fitted_cell_toml(original, &values, "fitted here").unwrap();
+        assert!(text.starts_with("# fitted here\n\n# a demo cell\n"), "{text}");
+        assert!(text.contains("diffusivity_m2_s = 2.23288e-14 # graphite\n"), "exponent form and comment kept: {text}");
+        assert!(text.contains("thickness_um = 71.2346   # coating\n"), "{text}");
+        // Key order as in the original: thickness, diffusivity, zeta; the new table at the end.
+        let at = |key: &str| text.find(key).unwrap();
+        assert!(at("thickness_um") < at("diffusivity_m2_s") && at("diffusivity_m2_s") < at("zeta"));
+        assert!(text.trim_end().ends_with("[calibration]\ndays = 365.0"), "{text}");
     }
 }

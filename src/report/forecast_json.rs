@@ -7,11 +7,16 @@ use super::ReportError;
 use crate::forecast::{FadePoint, Forecast, LifeAt, ReportScale};
 use serde_json::{json, Map, Value};
 
-fn life(reached: &Option<LifeAt>) -> Value {
-    match reached {
-        Some(at) => json!({ "cycles": at.cycles, "efc": at.efc, "years": at.years }),
-        None => json!("not reached"),
-    }
+/// One threshold's end of life under the names samples.csv uses (`life_capacity_cycles`, …):
+/// `null` with `life_<threshold>_censored: true` when it is not reached by the horizon.
+fn life(threshold: &str, level_pct: f64, reached: &Option<LifeAt>) -> Map<String, Value> {
+    let mut map = Map::new();
+    map.insert(format!("{threshold}_threshold_pct"), json!(level_pct));
+    map.insert(format!("life_{threshold}_cycles"), json!(reached.map(|a| a.cycles)));
+    map.insert(format!("life_{threshold}_efc"), json!(reached.map(|a| a.efc)));
+    map.insert(format!("life_{threshold}_years"), json!(reached.map(|a| a.years)));
+    map.insert(format!("life_{threshold}_censored"), json!(reached.is_none()));
+    map
 }
 
 /// A point's every column (the same names as `fade.csv`).
@@ -24,11 +29,14 @@ fn point_json(point: &FadePoint, scale: &ReportScale) -> Value {
 /// Renders the summary of a forecast of `scenario` on `cell`.
 pub fn forecast_json(forecast: &Forecast, scenario: &str, cell: &str, cycling: bool) -> Result<Vec<u8>, ReportError> {
     let last = forecast.points.last();
-    let end_of_life: Vec<Value> = forecast
-        .end_of_life
-        .iter()
-        .map(|e| json!({ "threshold": e.threshold, "level_pct": e.level_pct, "end_of_life": life(&e.reached) }))
-        .collect();
+    let mut end_of_life = Map::new();
+    for e in &forecast.end_of_life {
+        let threshold = match e.threshold {
+            crate::forecast::Threshold::Capacity => "capacity",
+            crate::forecast::Threshold::Resistance => "resistance",
+        };
+        end_of_life.extend(life(threshold, e.level_pct, &e.reached));
+    }
     let lost: Map<String, Value> = last.map_or_else(Map::new, |p| {
         forecast
             .scale
@@ -83,7 +91,5 @@ pub fn forecast_json(forecast: &Forecast, scenario: &str, cell: &str, cycling: b
         "warnings": forecast.warnings.iter().map(warning_json).collect::<Vec<_>>(),
         "caution": crate::CAUTION,
     });
-    let mut bytes = serde_json::to_vec_pretty(&summary)?;
-    bytes.push(b'\n');
-    Ok(bytes)
+    Ok(super::schema::json_bytes(summary)?)
 }

@@ -124,8 +124,10 @@ pub fn forecast_text(f: &Forecast, cycling: bool) -> String {
         }
         StopReason::Horizon => {}
     }
-    for warning in &f.warnings {
-        let _ = write!(s, "\n{}\n", warning_text(warning));
-    }
     s
+}
+
+/// The forecast's warnings in words, one paragraph each (for standard error).
+pub fn forecast_warning_lines(f: &Forecast) -> Vec<String> {
+    f.warnings.iter().map(warning_text).collect()
 }

@@ -102,9 +102,7 @@ pub fn duty_report(duty: &DutyCycle, start_soc: f64, capacity_ah: Option<f64>) -
                 );
             }
             let capacity_ah = capacity_ah.unwrap_or(1.0);
-            for (index, step) in profile.steps.iter().enumerate() {
-                let _ = writeln!(out, "  {:>4}. {}", index + 1, describe_step(step, capacity_ah));
-            }
+            out.push_str(&step_table(&profile.steps, capacity_ah));
         }
         DutyCycle::Series(series) => out.push_str(&series_report(series)),
     }
@@ -167,6 +165,61 @@ fn series_report(series: &TimeSeries) -> String {
     out
 }
 
+/// The steps as a table: step (number and label), mode, set point, and what ends it (the
+/// first end reached; the cell's voltage window ends every step too).
+pub fn step_table(steps: &[Step], capacity_ah: f64) -> String {
+    let header = ["step", "mode", "set point", "ends when"].map(String::from);
+    let rows: Vec<[String; 4]> = steps
+        .iter()
+        .enumerate()
+        .map(|(index, step)| {
+            let (mode, set_point) = step_mode(step.drive, capacity_ah);
+            let ends: Vec<String> = step.ends.iter().map(|end| step_end(*end, step.drive, capacity_ah)).collect();
+            [
+                format!("{} {}", index + 1, step.label),
+                mode,
+                set_point,
+                if ends.is_empty() { "–".into() } else { ends.join(" or ") },
+            ]
+        })
+        .collect();
+    let widths: Vec<usize> =
+        (0..4).map(|c| rows.iter().chain([&header]).map(|r| r[c].chars().count()).max().unwrap_or(0)).collect();
+    let mut out = String::new();
+    for row in std::iter::once(&header).chain(&rows) {
+        let mut line = String::from("   ");
+        for (cell, width) in row.iter().zip(&widths) {
+            line.push_str(cell);
+            line.push_str(&" ".repeat(width - cell.chars().count() + 2));
+        }
+        let _ = writeln!(out, "{}", line.trim_end());
+    }
+    out
+}
+
+/// A drive as a mode and its set point.
+fn step_mode(drive: Drive, capacity_ah: f64) -> (String, String) {
+    let verb = if direction(drive) > 0.0 { "discharge" } else { "charge" };
+    match drive {
+        Drive::Current(amps) => (format!("constant current, {verb}"), with_c_rate(amps, capacity_ah)),
+        Drive::Power(watts) => (format!("constant power, {verb}"), format!("{} W", sig(watts.abs(), 4))),
+        Drive::Voltage(volts) => ("constant voltage".into(), format!("{} V", sig(volts, 4))),
+        Drive::Rest => ("rest".into(), "–".into()),
+    }
+}
+
+/// An end condition in the table's short form (`V ≤ 2.8 V`, `I ≤ 0.25 A (0.05 C)`, `1 h`).
+fn step_end(end: StepEnd, drive: Drive, capacity_ah: f64) -> String {
+    let towards = if direction(drive) > 0.0 { "≤" } else { "≥" };
+    match end {
+        StepEnd::Voltage(volts) => format!("V {towards} {} V", sig(volts, 4)),
+        StepEnd::CurrentBelow(amps) => format!("|I| ≤ {}", with_c_rate(amps, capacity_ah)),
+        StepEnd::Time(seconds) => format!("{} elapsed", duration(seconds)),
+        StepEnd::Soc(fraction) => format!("SOC {towards} {} %", sig(fraction * 100.0, 3)),
+        StepEnd::Charge(coulomb) => format!("{} Ah passed", sig(coulomb / SECONDS_PER_HOUR, 4)),
+    }
+}
+
 /// One step in words, e.g. "charge: charge at 5 A (1 C) until the voltage rises to 4.2 V".
 pub fn describe_step(step: &Step, capacity_ah: f64) -> String {
     let drive = describe_drive(step.drive, capacity_ah);
@@ -216,6 +269,93 @@ fn describe_end(end: StepEnd, drive: Drive, capacity_ah: f64) -> String {
             format!("{} Ah have passed", sig(coulomb / SECONDS_PER_HOUR, 4))
         }
     }
+}
+
+/// A fit description as `check` shows it: the datasets (points, axis, range, scenario) and the
+/// free parameters with their bounds.
+pub fn fit_report(name: &str, problem: &crate::calibrate::FitProblem, scenarios: &[String]) -> String {
+    let mut text = format!("  {:<28}{}\n", "name", name);
+    text.push_str("  datasets\n");
+    for (d, scenario) in problem.datasets.iter().zip(scenarios) {
+        let first = d.points.first().map_or(0.0, |p| p.x);
+        let last = d.points.last().map_or(0.0, |p| p.x);
+        let resistance = d.points.iter().filter(|p| p.resistance_mohm.is_some()).count();
+        let _ = writeln!(
+            text,
+            "    {:<24}{} points, {} {}–{}, {} with resistance; scenario {}",
+            d.name,
+            d.points.len(),
+            d.axis.column(),
+            sig(first, 6),
+            sig(last, 6),
+            resistance,
+            scenario
+        );
+    }
+    text.push_str("  free parameters\n");
+    for p in &problem.parameters {
+        let _ = writeln!(
+            text,
+            "    {:<52}{} to {}{}, from {}",
+            p.path,
+            p.low,
+            p.high,
+            if p.log { " (log)" } else { "" },
+            sig(p.initial, 4)
+        );
+    }
+    text
+}
+
+/// Measured aging data as `check` shows them: the axis, the points' range and what was measured.
+pub fn aging_data_report(axis: crate::calibrate::Axis, points: &[crate::calibrate::MeasuredPoint]) -> String {
+    let capacities: Vec<f64> = points.iter().map(|p| p.capacity_ah).collect();
+    let low = capacities.iter().copied().fold(f64::INFINITY, f64::min);
+    let high = capacities.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let resistance = points.iter().filter(|p| p.resistance_mohm.is_some()).count();
+    let mut text = String::new();
+    let _ = writeln!(text, "  {:<28}{}", "axis", axis.column());
+    let _ = writeln!(
+        text,
+        "  {:<28}{} from {} to {}",
+        "points",
+        points.len(),
+        sig(points.first().map_or(0.0, |p| p.x), 6),
+        sig(points.last().map_or(0.0, |p| p.x), 6)
+    );
+    let _ = writeln!(text, "  {:<28}{} to {} Ah", "capacity", sig(low, 4), sig(high, 4));
+    let _ = writeln!(text, "  {:<28}{} of {} points", "resistance measured", resistance, points.len());
+    text
+}
+
+/// An `[uncertainty]` section as `check` shows it: each parameter's distribution.
+pub fn uncertainty_report(spec: &crate::ensemble::UncertaintySpec) -> String {
+    use crate::ensemble::Distribution as D;
+    let sampling = match spec.sampling {
+        crate::ensemble::Sampling::MonteCarlo => "monte-carlo",
+        crate::ensemble::Sampling::LatinHypercube => "latin-hypercube",
+    };
+    let mut text = format!("  {:<28}{sampling}\n", "sampling");
+    for p in &spec.parameters {
+        let shape = match p.distribution {
+            D::Normal { mean, sd } => format!("normal, mean {} sd {}", sig(mean, 4), sig(sd, 4)),
+            D::LogNormal { median, sigma_ln } => {
+                format!("log-normal, median {} sigma_ln {}", sig(median, 4), sig(sigma_ln, 4))
+            }
+            D::Uniform { low, high } => format!("uniform, {} to {}", sig(low, 4), sig(high, 4)),
+            D::TruncatedNormal { mean, sd, low, high } => format!(
+                "truncated normal, mean {} sd {} within {} to {}",
+                sig(mean, 4),
+                sig(sd, 4),
+                sig(low, 4),
+                sig(high, 4)
+            ),
+        };
+        let _ = writeln!(text, "    {:<52}{shape}{}", p.path, if p.per_cell { " (per cell)" } else { "" });
+    }
+    let _ = writeln!(text, "  {:<28}{}", "correlated groups", spec.groups.len());
+    text.push_str("  (its paths are checked against a scenario when bands, compare or table sample it)\n");
+    text
 }
 
 #[cfg(test)]

@@ -17,13 +17,14 @@ mod inputs;
 mod journal;
 mod outcome;
 mod pack;
+pub mod schema;
 mod summary;
 pub mod text;
 
 pub use atomic::{write_all_atomic, write_atomic, write_atomic_streamed};
 pub use bands_svg::{bands_svg, sensitivity_svg};
 pub use compare::{
-    compare_cautions, compare_csv, compare_svg, compare_text, table_csv, table_text, COMPARE_CSV_HEADER,
+    compare_cautions, compare_csv, compare_csv_header, compare_svg, compare_text, table_csv, table_text,
     TABLE_CSV_HEADER,
 };
 pub use cycle_csv::{cycle_csv, CYCLE_CSV_HEADER};
@@ -35,8 +36,11 @@ pub use fade_csv::{fade_columns, fade_csv};
 pub use fade_svg::fade_svg;
 pub use fit::{fit_json, fit_svg, fit_text, fit_warning_text, fitted_cell_toml, uncertainty_toml};
 pub use forecast_json::forecast_json;
-pub use forecast_text::forecast_text;
-pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
+pub use forecast_text::{forecast_text, forecast_warning_lines};
+pub use inputs::{
+    aging_data_report, cell_report, describe_step, duty_report, fit_report, series_totals, uncertainty_report,
+    SeriesTotals,
+};
 pub use journal::{decode_journal, encode_record, JournalEnding, JournalRead};
 pub use outcome::{
     counted_warning_lines, counted_warnings_json, failure_text, stop_json, stop_text, warning_json, warning_kind_text,

@@ -3,6 +3,7 @@
 //! weakest cell and what sets it apart.
 
 use super::cycle_svg::{padded_range, plot_error};
+use super::schema::number;
 use super::ReportError;
 use crate::forecast::{FadePoint, LifeAt, PackOutcome};
 use crate::material::constants::ZERO_CELSIUS_K;
@@ -14,10 +15,12 @@ const PANEL_HEIGHT_PX: u32 = 320;
 const TITLE_HEIGHT_PX: u32 = 40;
 
 /// Columns of `pack.csv`.
-pub const PACK_CSV_HEADER: [&str; 14] = [
+pub const PACK_CSV_HEADER: [&str; 16] = [
     "cycle",
     "day",
     "years",
+    "efc",
+    "throughput_ah",
     "cell",
     "group",
     "place",
@@ -37,21 +40,24 @@ pub fn pack_csv(points: &[FadePoint], pack: &PackOutcome) -> Result<Vec<u8>, Rep
     writer.write_record(PACK_CSV_HEADER)?;
     for (point, cells) in points.iter().zip(&pack.points) {
         for (i, (cell, position)) in cells.iter().zip(&pack.positions).enumerate() {
+            // The time axes are the pack's (its throughput and equivalent full cycles).
             writer.write_record([
-                point.cycle.to_string(),
-                point.day.to_string(),
-                (point.day / 365.25).to_string(),
+                number(point.cycle),
+                number(point.day),
+                number(point.day / 365.25),
+                number(point.efc),
+                number(point.throughput_ah),
                 (i + 1).to_string(),
                 (position.group + 1).to_string(),
                 (position.place + 1).to_string(),
-                (position.interconnect_ohm * 1e3).to_string(),
-                (position.cycle_ambient_k - ZERO_CELSIUS_K).to_string(),
-                cell.capacity_ah.to_string(),
-                cell.soh_pct.to_string(),
-                cell.resistance_mohm.to_string(),
-                cell.current_share_pct.to_string(),
-                cell.peak_temperature_c.to_string(),
-                cell.lithium_total.to_string(),
+                number(position.interconnect_ohm * 1e3),
+                number(position.cycle_ambient_k - ZERO_CELSIUS_K),
+                number(cell.capacity_ah),
+                number(cell.soh_pct),
+                number(cell.resistance_mohm),
+                number(cell.current_share_pct),
+                number(cell.peak_temperature_c),
+                number(cell.lithium_total),
             ])?;
         }
     }
