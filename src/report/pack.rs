@@ -265,9 +265,11 @@ pub struct PackCellSummary {
     pub resistance_mohm: f64,
     pub current_share_pct: f64,
     pub peak_temperature_c: f64,
-    /// The cell's own end of life by the pack's capacity threshold; `null` when not reached.
-    pub end_of_life_cycles: Option<f64>,
-    pub end_of_life_years: Option<f64>,
+    /// The cell's own end of life by the pack's capacity threshold: `null` plus the flag when
+    /// not reached within the horizon.
+    pub life_capacity_cycles: Option<f64>,
+    pub life_capacity_years: Option<f64>,
+    pub life_capacity_censored: bool,
     /// Values drawn for this cell (parameter path → value), when cells are drawn apart.
     pub drawn: std::collections::BTreeMap<String, f64>,
 }
@@ -295,8 +297,9 @@ pub fn pack_summary(pack: &PackOutcome) -> Option<PackSummary> {
             resistance_mohm: point.resistance_mohm,
             current_share_pct: point.current_share_pct,
             peak_temperature_c: point.peak_temperature_c,
-            end_of_life_cycles: pack.cell_end_of_life[i].map(|l| l.cycles),
-            end_of_life_years: pack.cell_end_of_life[i].map(|l| l.years),
+            life_capacity_cycles: pack.cell_end_of_life[i].map(|l| l.cycles),
+            life_capacity_years: pack.cell_end_of_life[i].map(|l| l.years),
+            life_capacity_censored: pack.cell_end_of_life[i].is_none(),
             drawn: pack.drawn.get(i).map(|d| d.iter().cloned().collect()).unwrap_or_default(),
         })
         .collect();
