@@ -29,8 +29,8 @@ use super::record::TracePoint;
 use super::stress::surface_hoop_stress;
 use super::thermal::{advance_temperature, bernardi_heat};
 use super::{Cell, Electrode};
-use crate::material::arrhenius_factor;
 use crate::material::constants::FARADAY;
+use crate::material::constants::GAS_CONSTANT;
 
 /// The slow (aging) state as the cycle model sees it. `Health::fresh` is beginning of life.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -124,6 +124,12 @@ pub(super) struct StepConditions {
     /// Lithium-metal exchange current density at this temperature (A/m²) and cathodic transfer
     /// coefficient, when plating is on.
     plating: Option<(f64, f64)>,
+}
+
+/// [`crate::material::arrhenius_factor`] with the cycle model's exponential: the same
+/// expression, computed for every trial step (five factors each).
+fn arrhenius(activation_j_mol: f64, temperature_k: f64, reference_k: f64) -> f64 {
+    super::fast_exp::exp(-activation_j_mol / GAS_CONSTANT * (1.0 / temperature_k - 1.0 / reference_k))
 }
 
 /// The state at the end of a trial step of length `dt`.
@@ -297,15 +303,13 @@ impl CellModel {
         StepConditions {
             temperature_k,
             ambient_k,
-            neg_diffusivity: n.diffusivity_m2_s
-                * arrhenius_factor(n.diffusivity_activation_j_mol, temperature_k, t_ref),
-            pos_diffusivity: p.diffusivity_m2_s
-                * arrhenius_factor(p.diffusivity_activation_j_mol, temperature_k, t_ref),
-            neg_rate: n.rate_constant_m_s * arrhenius_factor(n.rate_constant_activation_j_mol, temperature_k, t_ref),
-            pos_rate: p.rate_constant_m_s * arrhenius_factor(p.rate_constant_activation_j_mol, temperature_k, t_ref),
+            neg_diffusivity: n.diffusivity_m2_s * arrhenius(n.diffusivity_activation_j_mol, temperature_k, t_ref),
+            pos_diffusivity: p.diffusivity_m2_s * arrhenius(p.diffusivity_activation_j_mol, temperature_k, t_ref),
+            neg_rate: n.rate_constant_m_s * arrhenius(n.rate_constant_activation_j_mol, temperature_k, t_ref),
+            pos_rate: p.rate_constant_m_s * arrhenius(p.rate_constant_activation_j_mol, temperature_k, t_ref),
             // Conductances rise with temperature, so resistance falls by the inverse factor.
             series_resistance_ohm: cell.ohmic_resistance_ohm
-                / arrhenius_factor(cell.ohmic_activation_j_mol, temperature_k, t_ref)
+                / arrhenius(cell.ohmic_activation_j_mol, temperature_k, t_ref)
                 + cell.film_resistance_ohm
                 + health.added_resistance_ohm,
             neg_area_m2: self.neg.surface_area_m2 * health.neg_active_scale,
