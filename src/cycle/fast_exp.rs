@@ -11,8 +11,8 @@ pub fn exp_in_range(x: f64) -> f64 {
     // Adding 1.5·2⁵² rounds x·log₂e to the nearest integer, held in the low mantissa bits.
     const SHIFT: f64 = 6_755_399_441_055_744.0;
     // ln 2 split so n·LN2_HI is exact (Cody–Waite reduction).
-    const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
-    const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
+    const LN2_HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000); // 6.93147180369123816490e-1
+    const LN2_LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76); // 1.90821492927058770002e-10
     let t = x * std::f64::consts::LOG2_E + SHIFT;
     let n = t - SHIFT;
     let r = (x - n * LN2_HI) - n * LN2_LO;
