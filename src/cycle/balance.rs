@@ -13,8 +13,6 @@ use super::{Cell, Health};
 pub struct Balance {
     /// Charge between the window ends at equilibrium, C.
     pub capacity_coulomb: f64,
-    /// Energy between the window ends at equilibrium, J.
-    pub energy_j: f64,
     pub neg_stoich_full: f64,
     pub neg_stoich_empty: f64,
     pub pos_stoich_full: f64,
@@ -71,16 +69,8 @@ pub fn balance_cell(cell: &Cell, health: &Health) -> Option<Balance> {
         Some(i) => bisect(grid(i), grid(i + 1), cell.voltage_min_v).min(x_full),
         None => x_lo,
     };
-    // Energy = Q_neg ∫ OCV dx over the window (Simpson's rule).
-    let intervals = 400;
-    let h = (x_full - x_empty) / intervals as f64;
-    let mut sum = ocv(x_empty) + ocv(x_full);
-    for i in 1..intervals {
-        sum += ocv(x_empty + i as f64 * h) * if i % 2 == 1 { 4.0 } else { 2.0 };
-    }
     Some(Balance {
         capacity_coulomb: (x_full - x_empty) * q_neg,
-        energy_j: q_neg * sum * h / 3.0,
         neg_stoich_full: x_full,
         neg_stoich_empty: x_empty,
         pos_stoich_full: pos_stoich(x_full),
@@ -92,6 +82,23 @@ pub fn balance_cell(cell: &Cell, health: &Health) -> Option<Balance> {
 }
 
 impl Balance {
+    /// Energy between the window ends at equilibrium, J: Q_neg ∫ OCV dx over the window
+    /// (Simpson's rule). Apart from the balance itself because only reports read it, and it
+    /// costs more than finding the window.
+    pub fn energy_j(&self, cell: &Cell) -> f64 {
+        let lithium =
+            self.neg_stoich_full * self.neg_capacity_coulomb + self.pos_stoich_full * self.pos_capacity_coulomb;
+        let pos_stoich = |x: f64| (lithium - x * self.neg_capacity_coulomb) / self.pos_capacity_coulomb;
+        let ocv = |x: f64| cell.positive.ocp.potential(pos_stoich(x)) - cell.negative.ocp.potential(x);
+        let intervals = 400;
+        let h = (self.neg_stoich_full - self.neg_stoich_empty) / intervals as f64;
+        let mut sum = ocv(self.neg_stoich_empty) + ocv(self.neg_stoich_full);
+        for i in 1..intervals {
+            sum += ocv(self.neg_stoich_empty + i as f64 * h) * if i % 2 == 1 { 4.0 } else { 2.0 };
+        }
+        self.neg_capacity_coulomb * sum * h / 3.0
+    }
+
     /// State of charge (0–1) of a given mean negative stoichiometry.
     pub fn soc_of_neg_stoich(&self, x: f64) -> f64 {
         (x - self.neg_stoich_empty) / (self.neg_stoich_full - self.neg_stoich_empty)

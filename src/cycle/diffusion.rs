@@ -31,11 +31,15 @@ pub enum Boundary {
 pub struct SphereModes {
     pub boundary: Boundary,
     pub shells: usize,
-    /// Dimensionless decay rates λ_k ≤ 0 (rate = D λ_k / R²).
+    /// Dimensionless decay rates λ_k ≤ 0 (rate = D λ_k / R²), slowest first, so the modes
+    /// that a step relaxes completely are the tail of the list.
     decay: Vec<f64>,
     /// Modal input weights per unit input, with the boundary's own scaling removed
     /// (see [`SphereModes::input_scale`]).
     input: Vec<f64>,
+    /// input_k / λ_k (0 for the conserved mode, λ = 0): the gain of a step is this times
+    /// (e^x − 1) and scales that temperature does not change, so no division per step.
+    input_over_decay: Vec<f64>,
     /// Rows that map modal coordinates to the last two shells, the first two shells and the
     /// volume mean.
     outer: Vec<f64>,
@@ -86,14 +90,20 @@ impl SphereModes {
         let root: Vec<f64> = volume.iter().map(|v| v.sqrt()).collect();
         let symmetric = DMatrix::from_fn(n, n, |i, j| laplacian[(i, j)] / (root[i] * root[j]));
         let eigen = SymmetricEigen::new(symmetric);
-        let q = eigen.eigenvectors;
+        // Slowest modes first (λ ≤ 0 descending): a step that relaxes one mode fully relaxes
+        // every later one, so `step_factors` stops computing exponentials there.
+        let mut order: Vec<usize> = (0..n).collect();
+        order.sort_by(|&a, &b| eigen.eigenvalues[b].total_cmp(&eigen.eigenvalues[a]));
+        let q = DMatrix::from_fn(n, n, |i, k| eigen.eigenvectors[(i, order[k])]);
+        let eigenvalues: Vec<f64> = order.iter().map(|&k| eigen.eigenvalues[k]).collect();
         // c = M^{-1/2} Q q; input in modal space g = Qᵀ M^{1/2} b.
         let to_shell = DMatrix::from_fn(n, n, |i, k| q[(i, k)] / root[i]);
-        let input = (0..n).map(|k| (0..n).map(|i| q[(i, k)] * root[i] * input_shell[i]).sum()).collect();
+        let input: Vec<f64> = (0..n).map(|k| (0..n).map(|i| q[(i, k)] * root[i] * input_shell[i]).sum()).collect();
         let total_volume: f64 = volume.iter().sum();
         let mean = (0..n).map(|k| (0..n).map(|i| volume[i] * to_shell[(i, k)]).sum::<f64>() / total_volume).collect();
         let row = |i: usize| (0..n).map(|k| to_shell[(i, k)]).collect::<Vec<f64>>();
-        let decay = eigen.eigenvalues.iter().map(|&l| l.min(0.0)).collect();
+        let decay: Vec<f64> = eigenvalues.iter().map(|&l| l.min(0.0)).collect();
+        let input_over_decay = decay.iter().zip(&input).map(|(&l, &g)| if l < 0.0 { g / l } else { 0.0 }).collect();
         let moments = |i: usize| shell_moments(i as f64 * h, (i + 1) as f64 * h);
         let hoop = hoop_rows(&to_shell, &volume);
         SphereModes {
@@ -104,6 +114,7 @@ impl SphereModes {
             shells: n,
             decay,
             input,
+            input_over_decay,
             outer: row(n - 1),
             second_outer: row(n.saturating_sub(2)),
             inner: row(0),
@@ -150,21 +161,38 @@ impl SphereModes {
     /// Fills `step` with the response of every mode over `dt` for the given particle:
     /// q_k(dt) = decay_k · q_k(0) + gain_k · u.
     pub fn step_factors(&self, radius_m: f64, diffusivity_m2_s: f64, dt_s: f64, step: &mut ModeStep) {
+        let n = self.shells;
         let rate_scale = diffusivity_m2_s / (radius_m * radius_m);
         let input_scale = self.input_scale(radius_m, diffusivity_m2_s);
-        step.decay.clear();
-        step.gain.clear();
-        for (&lambda, &g) in self.decay.iter().zip(&self.input) {
-            let mu = lambda * rate_scale;
-            let x = mu * dt_s;
-            let (decay, integral) = if x.abs() < 1e-8 {
-                (1.0 + x, dt_s * (1.0 + 0.5 * x))
+        // gain = g·input_scale·(e^x − 1)/(λ·rate_scale) = (g/λ)·(input_scale/rate_scale)·(e^x − 1).
+        let gain_scale = input_scale / rate_scale;
+        let exponent_scale = rate_scale * dt_s;
+        step.decay.resize(n, 0.0);
+        step.gain.resize(n, 0.0);
+        // Modes are slowest first: from the first one the step relaxes, all are relaxed.
+        let live = self.decay.iter().position(|&l| l * exponent_scale < RELAXED_EXPONENT).unwrap_or(n);
+        step.live = live;
+        for (d, &lambda) in step.decay[..live].iter_mut().zip(&self.decay) {
+            *d = super::fast_exp::exp_in_range(lambda * exponent_scale);
+        }
+        for k in 0..live {
+            let x = self.decay[k] * exponent_scale;
+            step.gain[k] = if self.decay[k] == 0.0 {
+                self.input[k] * input_scale * dt_s
             } else {
-                let e = x.exp();
-                (e, (e - 1.0) / mu)
+                // e^x − 1 by its series where the subtraction would cancel (truncation x⁶/720).
+                let e_minus_one = if x > -1e-3 {
+                    x * (1.0 + x * (1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x / 120.0))))
+                } else {
+                    step.decay[k] - 1.0
+                };
+                self.input_over_decay[k] * gain_scale * e_minus_one
             };
-            step.decay.push(decay);
-            step.gain.push(g * input_scale * integral);
+        }
+        for k in live..n {
+            // A relaxed mode sits at its steady value for the input: −g·input_scale/μ.
+            step.decay[k] = 0.0;
+            step.gain[k] = -self.input_over_decay[k] * gain_scale;
         }
     }
 
@@ -265,11 +293,18 @@ fn shell_moments(lo: f64, hi: f64) -> [f64; 2] {
     [(first(hi) - first(lo)) / w, (second(hi) - second(lo)) / w]
 }
 
+/// Below this exponent λ·D/R²·dt a mode counts as relaxed within the step: e^−37 ≈ 9e-17, under
+/// round-off of the modal amplitudes (stoichiometry, of order one).
+const RELAXED_EXPONENT: f64 = -37.0;
+
 /// Per-step modal factors, reused between steps to avoid allocation.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct ModeStep {
     pub decay: Vec<f64>,
     pub gain: Vec<f64>,
+    /// Modes before this index keep part of their start value; the rest relax completely
+    /// (decay 0), so free responses need only the first `live`.
+    pub live: usize,
 }
 
 impl ModeStep {
@@ -283,13 +318,27 @@ impl ModeStep {
     /// Value of a linear functional `row` after the step: free response plus `u` times the
     /// response to unit input. Returns (free, per unit input).
     pub fn project(&self, row: &[f64], modes: &[f64]) -> (f64, f64) {
-        let mut free = 0.0;
-        let mut unit = 0.0;
-        for (((&r, &q), &d), &g) in row.iter().zip(modes).zip(&self.decay).zip(&self.gain) {
-            free += r * d * q;
-            unit += r * g;
-        }
+        let [free] = self.free_responses([row], modes);
+        let unit = row.iter().zip(&self.gain).map(|(r, g)| r * g).sum();
         (free, unit)
+    }
+
+    /// Free responses (no input) of several linear functionals after the step, in one pass
+    /// over the modes that do not relax completely.
+    pub fn free_responses<const N: usize>(&self, rows: [&[f64]; N], modes: &[f64]) -> [f64; N] {
+        let mut free = [0.0; N];
+        for k in 0..self.live {
+            let dq = self.decay[k] * modes[k];
+            for (f, row) in free.iter_mut().zip(rows) {
+                *f += row[k] * dq;
+            }
+        }
+        free
+    }
+
+    /// Responses of several linear functionals to a unit input over the step.
+    pub fn input_responses<const N: usize>(&self, rows: [&[f64]; N]) -> [f64; N] {
+        rows.map(|row| row.iter().zip(&self.gain).map(|(r, g)| r * g).sum())
     }
 }
 
@@ -309,6 +358,24 @@ mod tests {
         }
         assert!((modes.surface(&q, 0.0, 5e-6, 1e-14) - 1234.5).abs() < 1e-8);
         assert!((modes.centre(&q) - 1234.5).abs() < 1e-8);
+    }
+
+    #[test]
+    fn step_factors_match_the_direct_formulas() {
+        // decay e^{μ dt} and gain g·s·(e^{μ dt} − 1)/μ per mode, relaxed modes included.
+        let modes = SphereModes::new(16, Boundary::Flux);
+        let (r, d) = (5e-6, 5e-14);
+        let mut step = ModeStep::default();
+        for dt in [1e-6, 0.3, 30.0, 900.0, 1e5] {
+            modes.step_factors(r, d, dt, &mut step);
+            for k in 0..16 {
+                let mu = modes.decay[k] * d / (r * r);
+                let decay = (mu * dt).exp();
+                let gain = modes.input[k] / r * if mu == 0.0 { dt } else { (mu * dt).exp_m1() / mu };
+                assert!((step.decay[k] - decay).abs() <= 1e-15, "dt {dt} mode {k}");
+                assert!((step.gain[k] - gain).abs() <= 1e-12 * gain.abs().max(1e-300), "dt {dt} mode {k}");
+            }
+        }
     }
 
     #[test]

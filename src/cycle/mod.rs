@@ -11,6 +11,7 @@
 pub mod balance;
 pub mod cell;
 pub mod diffusion;
+pub mod fast_exp;
 pub mod kinetics;
 pub mod pack;
 pub mod protocol;

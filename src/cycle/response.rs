@@ -29,8 +29,8 @@ use super::record::TracePoint;
 use super::stress::surface_hoop_stress;
 use super::thermal::{advance_temperature, bernardi_heat};
 use super::{Cell, Electrode};
-use crate::material::arrhenius_factor;
 use crate::material::constants::FARADAY;
+use crate::material::constants::GAS_CONSTANT;
 
 /// The slow (aging) state as the cycle model sees it. `Health::fresh` is beginning of life.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -93,6 +93,12 @@ impl ParticleModel {
             stress_coefficient: electrode.stress_coefficient_pa_m3_mol(),
         }
     }
+
+    /// The rows a trial projects the state on: outer shell, second-outer shell, mean.
+    fn response_rows(&self) -> [&[f64]; 3] {
+        let (outer, second) = self.modes.outer_rows();
+        [outer, second, self.modes.mean_row()]
+    }
 }
 
 /// A cell prepared for simulation (diffusion modes computed once); reuse it across cycles.
@@ -118,6 +124,12 @@ pub(super) struct StepConditions {
     /// Lithium-metal exchange current density at this temperature (A/m²) and cathodic transfer
     /// coefficient, when plating is on.
     plating: Option<(f64, f64)>,
+}
+
+/// [`crate::material::arrhenius_factor`] with the cycle model's exponential: the same
+/// expression, computed for every trial step (five factors each).
+fn arrhenius(activation_j_mol: f64, temperature_k: f64, reference_k: f64) -> f64 {
+    super::fast_exp::exp(-activation_j_mol / GAS_CONSTANT * (1.0 / temperature_k - 1.0 / reference_k))
 }
 
 /// The state at the end of a trial step of length `dt`.
@@ -165,6 +177,10 @@ pub(super) struct StepMaps {
 pub(super) struct Scratch {
     neg: ModeStep,
     pos: ModeStep,
+    /// Each particle's outer-shell, second-outer-shell and mean responses to a unit flux over
+    /// the step: they depend on the step's factors only, not on the state.
+    neg_unit: [f64; 3],
+    pos_unit: [f64; 3],
     /// (dt, negative D, positive D) the factors above were computed for: a step that is
     /// committed right after its trial reuses them instead of recomputing every exponential.
     factors_for: Option<(f64, f64, f64)>,
@@ -178,6 +194,8 @@ impl Scratch {
         }
         neg.modes.step_factors(neg.radius_m, cond.neg_diffusivity, dt, &mut self.neg);
         pos.modes.step_factors(pos.radius_m, cond.pos_diffusivity, dt, &mut self.pos);
+        self.neg_unit = self.neg.input_responses(neg.response_rows());
+        self.pos_unit = self.pos.input_responses(pos.response_rows());
         self.factors_for = Some(key);
     }
 }
@@ -285,15 +303,13 @@ impl CellModel {
         StepConditions {
             temperature_k,
             ambient_k,
-            neg_diffusivity: n.diffusivity_m2_s
-                * arrhenius_factor(n.diffusivity_activation_j_mol, temperature_k, t_ref),
-            pos_diffusivity: p.diffusivity_m2_s
-                * arrhenius_factor(p.diffusivity_activation_j_mol, temperature_k, t_ref),
-            neg_rate: n.rate_constant_m_s * arrhenius_factor(n.rate_constant_activation_j_mol, temperature_k, t_ref),
-            pos_rate: p.rate_constant_m_s * arrhenius_factor(p.rate_constant_activation_j_mol, temperature_k, t_ref),
+            neg_diffusivity: n.diffusivity_m2_s * arrhenius(n.diffusivity_activation_j_mol, temperature_k, t_ref),
+            pos_diffusivity: p.diffusivity_m2_s * arrhenius(p.diffusivity_activation_j_mol, temperature_k, t_ref),
+            neg_rate: n.rate_constant_m_s * arrhenius(n.rate_constant_activation_j_mol, temperature_k, t_ref),
+            pos_rate: p.rate_constant_m_s * arrhenius(p.rate_constant_activation_j_mol, temperature_k, t_ref),
             // Conductances rise with temperature, so resistance falls by the inverse factor.
             series_resistance_ohm: cell.ohmic_resistance_ohm
-                / arrhenius_factor(cell.ohmic_activation_j_mol, temperature_k, t_ref)
+                / arrhenius(cell.ohmic_activation_j_mol, temperature_k, t_ref)
                 + cell.film_resistance_ohm
                 + health.added_resistance_ohm,
             neg_area_m2: self.neg.surface_area_m2 * health.neg_active_scale,
@@ -311,24 +327,19 @@ impl CellModel {
         // negative and fills the positive.
         let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * neg.max_concentration);
         let pos_flux_per_amp = 1.0 / (FARADAY * cond.pos_area_m2 * pos.max_concentration);
-        let surface = |p: &ParticleModel, step: &ModeStep, modes: &[f64], d: f64, per_amp: f64| {
-            let (outer, second) = p.modes.outer_rows();
-            let (o_free, o_unit) = step.project(outer, modes);
-            let (s_free, s_unit) = step.project(second, modes);
+        let respond = |p: &ParticleModel, step: &ModeStep, unit: &[f64; 3], modes: &[f64], d: f64, per_amp: f64| {
+            let [o_free, s_free, m_free] = step.free_responses(p.response_rows(), modes);
+            let [o_unit, s_unit, m_unit] = *unit;
             let value = |u: f64| p.modes.surface_from_outer(o_free + u * o_unit, s_free + u * s_unit, u, p.radius_m, d);
             let at_zero = value(0.0);
-            Affine { at_zero, per_amp: (value(1.0) - at_zero) * per_amp }
+            let surface = Affine { at_zero, per_amp: (value(1.0) - at_zero) * per_amp };
+            (surface, Affine { at_zero: m_free, per_amp: m_unit * per_amp })
         };
-        let mean = |p: &ParticleModel, step: &ModeStep, modes: &[f64], per_amp: f64| {
-            let (free, unit) = step.project(p.modes.mean_row(), modes);
-            Affine { at_zero: free, per_amp: unit * per_amp }
-        };
-        [
-            surface(neg, &scratch.neg, &state.neg_modes, cond.neg_diffusivity, neg_flux_per_amp),
-            surface(pos, &scratch.pos, &state.pos_modes, cond.pos_diffusivity, pos_flux_per_amp),
-            mean(neg, &scratch.neg, &state.neg_modes, neg_flux_per_amp),
-            mean(pos, &scratch.pos, &state.pos_modes, pos_flux_per_amp),
-        ]
+        let (neg_surface, neg_mean) =
+            respond(neg, &scratch.neg, &scratch.neg_unit, &state.neg_modes, cond.neg_diffusivity, neg_flux_per_amp);
+        let (pos_surface, pos_mean) =
+            respond(pos, &scratch.pos, &scratch.pos_unit, &state.pos_modes, cond.pos_diffusivity, pos_flux_per_amp);
+        [neg_surface, pos_surface, neg_mean, pos_mean]
     }
 
     /// An electrode's potential against Li/Li⁺ at surface stoichiometry θ while

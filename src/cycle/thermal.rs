@@ -19,5 +19,5 @@ pub fn advance_temperature(
     dt_s: f64,
 ) -> f64 {
     let steady = ambient_k + heat_w / conductance_w_k;
-    steady + (temperature_k - steady) * (-dt_s * conductance_w_k / heat_capacity_j_k).exp()
+    steady + (temperature_k - steady) * super::fast_exp::exp(-dt_s * conductance_w_k / heat_capacity_j_k)
 }

@@ -6,7 +6,7 @@ pub mod pack;
 pub mod plan;
 pub mod result;
 
-pub use engine::{report_grid, run_forecast};
+pub use engine::{report_grid, run_cell_forecast, run_forecast};
 pub use plan::{Ambient, EndOfLife, Horizon, Plan, Usage};
 pub use result::{
     equivalent_full_cycles, EndOfLifePoint, FadePoint, Forecast, ForecastFailure, ForecastWarning, LifeAt,

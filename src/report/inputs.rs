@@ -45,7 +45,7 @@ pub fn cell_report(cell: &Cell, balance: Option<&Balance>) -> String {
                     sig(cell.reference_temperature_k - ZERO_CELSIUS_K, 3)
                 ),
             );
-            line("balanced energy", format!("{:.2} Wh", b.energy_j / SECONDS_PER_HOUR));
+            line("balanced energy", format!("{:.2} Wh", b.energy_j(cell) / SECONDS_PER_HOUR));
             line(
                 "stoichiometry when full",
                 format!("negative {:.4}, positive {:.4}", b.neg_stoich_full, b.pos_stoich_full),
