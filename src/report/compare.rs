@@ -97,6 +97,8 @@ fn shown(v: f64, decimals: usize) -> String {
 
 fn shown_spread(s: &Spread, decimals: usize, scale: f64) -> String {
     match (s.low, s.high) {
+        // Every sample outlives the horizon: one "> horizon" says it.
+        (Some(lo), _) if lo == f64::INFINITY => shown(lo, decimals),
         (Some(lo), Some(hi)) => format!(
             "{} ({}–{})",
             shown(s.median * scale, decimals),

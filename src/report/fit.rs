@@ -369,7 +369,7 @@ mod fitted_cell_tests {
         let original = "# a demo cell\nname = \"x\"\n\n[negative]\nthickness_um = 70.0   # coating\n\
                         diffusivity_m2_s = 5.0e-14 # graphite\nzeta = 1.0\n";
         let values = vec![
-            (vec!["negative".to_string(), "diffusivity_m2_s".to_string()], 2.2328812515624298e-14),
+            (vec!["negative".to_string(), "diffusivity_m2_s".to_string()], 2.232881251562e-14),
             (vec!["negative".to_string(), "thickness_um".to_string()], 71.234567),
             (vec!["calibration".to_string(), "days".to_string()], 365.0),
         ];
