@@ -77,6 +77,10 @@ pub struct RunDescription {
     pub scenario_name: String,
     /// Warnings raised while loading the scenario, repeated in every summary of the run.
     pub input_warnings: Vec<String>,
+    /// The scenario's end-of-life thresholds, % of fresh, for the plots (absent in runs
+    /// written before they were recorded).
+    #[serde(default)]
+    pub end_of_life_pct: Option<report::ThresholdsPct>,
 }
 
 impl RunDescription {
@@ -243,6 +247,10 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
         grid: grid.clone(),
         scenario_name: loaded.scenario.name.clone(),
         input_warnings: loaded.warnings.clone(),
+        end_of_life_pct: Some(report::ThresholdsPct {
+            capacity: 100.0 * loaded.plan.end_of_life.capacity_fraction,
+            resistance: 100.0 * loaded.plan.end_of_life.resistance_fraction,
+        }),
     };
 
     let journal_path = config.out_dir.join(JOURNAL_NAME);
@@ -415,8 +423,8 @@ fn finish(
     let bands = report::bands_csv(&summary)?;
     let json = report::ensemble_json(&summary, &run_value, &warnings)?;
     let bands_plot =
-        report::bands_svg(&summary, &format!("{}: fade bands", description.scenario_name), description.cycling)?;
-    let sensitivity = report::sensitivity_svg(&summary, &format!("{}: what drives life", description.scenario_name))?;
+        report::bands_svg(&summary, description.end_of_life_pct, &description.scenario_name, description.cycling)?;
+    let sensitivity = report::sensitivity_svg(&summary, &description.scenario_name)?;
     write_journal(out_dir, records)?;
     let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
     let written = report::write_all_atomic(

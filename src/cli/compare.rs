@@ -214,7 +214,12 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     let summaries = summarize_comparison(&comparison);
 
     let csv = report::compare_csv(&summaries)?;
-    let svg = report::compare_svg(&summaries, &format!("{}: compared", first.scenario.name), cycling)?;
+    let svg = report::compare_svg(
+        &summaries,
+        Some(100.0 * first.plan.end_of_life.capacity_fraction),
+        &format!("{}: compared", first.scenario.name),
+        cycling,
+    )?;
     let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice()), (SVG_NAME, svg.as_bytes())])?;
 
     let mut text = format!("{}: scenario \"{}\"\n", config.scenario.display(), first.scenario.name);

@@ -75,7 +75,7 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
     let cell = fitted_cell(&loaded, &result, &origin)?;
     let json = report::fit_json(&result, &loaded.name, config.holdout_after)?;
     let uncertainty = report::uncertainty_toml(&result, &origin);
-    let svg = report::fit_svg(&result, &format!("{}: fit", loaded.name))?;
+    let svg = report::fit_svg(&result, config.holdout_after, &format!("{}: fit", loaded.name))?;
     let mut files: Vec<(&str, &[u8])> =
         vec![(CELL_NAME, cell.as_bytes()), (JSON_NAME, json.as_slice()), (SVG_NAME, svg.as_bytes())];
     if let Some(text) = &uncertainty {

@@ -50,12 +50,21 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
     // Render everything before touching the disk; a failed run still keeps the rows it computed.
     let csv = report::fade_csv(&forecast.points, &forecast.scale)?;
     let json = report::forecast_json(&forecast, &scenario.name, &scenario.cell.name, cycling)?;
-    let svg = report::fade_svg(&forecast.points, &forecast.scale, &format!("{}: forecast", scenario.name), cycling)?;
+    let svg = report::fade_svg(
+        &forecast.points,
+        &forecast.scale,
+        &forecast.end_of_life,
+        &format!("{}: forecast", scenario.name),
+        cycling,
+    )?;
     let mut files = vec![(CSV_NAME, csv), (JSON_NAME, json), (SVG_NAME, svg.into_bytes())];
     if let Some(pack) = &forecast.pack {
         files.push((PACK_CSV_NAME, report::pack_csv(&forecast.points, pack)?));
         let title = format!("{}: cells of the pack", scenario.name);
-        files.push((PACK_SVG_NAME, report::pack_svg(&forecast.points, pack, &title, cycling)?.into_bytes()));
+        files.push((
+            PACK_SVG_NAME,
+            report::pack_svg(&forecast.points, pack, &forecast.end_of_life, &title, cycling)?.into_bytes(),
+        ));
     }
     let borrowed: Vec<(&str, &[u8])> = files.iter().map(|(name, bytes)| (*name, bytes.as_slice())).collect();
     let written = report::write_all_atomic(&config.out_dir, &borrowed)?;
