@@ -42,7 +42,7 @@ pub fn cycle_svg(record: &CycleRecord, title: &str) -> Result<String, ReportErro
         level: None,
         legend: Vec::new(),
     };
-    let mut panels = vec![
+    let mut panels = [
         single("voltage, V", plot::BLACK_OI, |p| p.voltage_v),
         single("current, A (+ discharge)", plot::BLUE, |p| p.current_a),
         Panel {

@@ -91,7 +91,9 @@ fn draw_dataset<DB: DrawingBackend>(
         }
         Ok(())
     };
-    let measured = |values: &[Option<f64>]| -> (Vec<(f64, f64)>, Vec<(f64, f64)>) {
+    type Points = Vec<(f64, f64)>;
+    // Measured points split into (fitted, held out).
+    let measured = |values: &[Option<f64>]| -> (Points, Points) {
         let points = curve.x_data.iter().zip(values).zip(&curve.fitted);
         let (mut fitted, mut held) = (Vec::new(), Vec::new());
         for ((&x, v), &f) in points {

@@ -15,6 +15,7 @@ mod fit;
 mod fit_svg;
 mod forecast_json;
 mod forecast_text;
+mod html;
 mod inputs;
 mod journal;
 mod outcome;
@@ -41,6 +42,9 @@ pub use fit::{fit_json, fit_text, fit_warning_text, fitted_cell_toml, uncertaint
 pub use fit_svg::fit_svg;
 pub use forecast_json::forecast_json;
 pub use forecast_text::forecast_text;
+pub use html::{
+    bands_tables, calibration_status, compare_tables, fit_tables, forecast_tables, report_html, HtmlTable, ReportPage,
+};
 pub use inputs::{cell_report, describe_step, duty_report, series_totals, SeriesTotals};
 pub use journal::{decode_journal, encode_record, JournalEnding, JournalRead};
 pub use outcome::{
