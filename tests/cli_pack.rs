@@ -32,7 +32,8 @@ fn a_pack_forecast_writes_its_cells_and_names_the_weakest() {
     assert_eq!(rows, 101 * 16);
     assert!(out.path().join("fade.csv").is_file());
     let svg = std::fs::read_to_string(out.path().join("pack.svg")).unwrap();
-    assert!(svg.contains("cell 16 (group 4, place 4)"));
+    // Four groups in series: one colour per group, named with its cells.
+    assert!(svg.contains("group 4: cells 13–16"), "pack.svg names the last group's cells");
 }
 
 #[test]
