@@ -157,8 +157,18 @@ fn forecast_writes_fade_curve_summary_and_plot() {
     let mut names: Vec<_> =
         std::fs::read_dir(&out).unwrap().map(|e| e.unwrap().file_name().into_string().unwrap()).collect();
     names.sort();
-    assert_eq!(names, ["fade.csv", "fade.svg", "summary.json"], "exactly the three outputs, no temporaries");
-    assert!(std::fs::read_to_string(out.join("fade.svg")).unwrap().starts_with("<svg"));
+    assert_eq!(
+        names,
+        ["fade.csv", "fade.svg", "report.html", "summary.json"],
+        "exactly the four outputs, no temporaries"
+    );
+    let svg = std::fs::read_to_string(out.join("fade.svg")).unwrap();
+    assert!(svg.starts_with("<svg"));
+    // The page holds the plot itself and the standards caution, and fetches nothing.
+    let page = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(page.contains(&svg) && page.contains("applicable standards"));
+    // (The inline SVG's xmlns names a namespace; nothing is loaded from it.)
+    assert!(!page.contains("href=") && !page.contains("src=") && !page.contains("<script"));
 
     let fade = FadeTable::read(&out);
     for column in FADE_COLUMNS {

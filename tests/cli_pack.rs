@@ -45,6 +45,8 @@ fn a_pack_forecast_writes_its_cells_and_names_the_weakest() {
     assert_eq!(cells[weakest - 1]["soh_pct"].as_f64().unwrap(), lowest);
     assert_eq!(pack["at_horizon"]["soh_pct"]["min"].as_f64().unwrap(), lowest);
     assert!(text.contains(&format!("cell {weakest} (group")), "{text}");
+    // Four groups in series: one colour per group, named with its cells.
+    assert!(svg.contains("group 4: cells 13–16"), "pack.svg names the last group's cells");
 }
 
 #[test]

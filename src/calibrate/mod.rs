@@ -216,6 +216,8 @@ pub struct FittedCurve {
     /// The measured points (all of them, held out too).
     pub x_data: Vec<f64>,
     pub capacity_data_ah: Vec<f64>,
+    /// Measured resistance at each point, where the data give one.
+    pub resistance_data_mohm: Vec<Option<f64>>,
     /// Model − data at each measured point, Ah.
     pub capacity_residual_ah: Vec<f64>,
     /// Whether each measured point was fitted (false: held out).

@@ -450,6 +450,7 @@ impl<'a> Model<'a> {
                 resistance_mohm: points.iter().map(|p| p.resistance_mohm).collect(),
                 x_data: xs.clone(),
                 capacity_data_ah: dataset.points.iter().map(|p| p.capacity_ah).collect(),
+                resistance_data_mohm: dataset.points.iter().map(|p| p.resistance_mohm).collect(),
                 capacity_residual_ah,
                 fitted,
                 fitted_end,

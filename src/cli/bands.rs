@@ -4,6 +4,7 @@
 //! merged exactly (`fadecast merge`). `fadecast merge DIR... --out DIR` lives here too: both
 //! end in the same [`finish`], so a merged set of shards writes the same bytes as one run.
 
+use super::forecast::REPORT_NAME;
 use super::{print_caution, print_cautions, CliError};
 use crate::ensemble::Sampler;
 use crate::ensemble::{run_ensemble, summarize, EnsembleConfig, SampleRecord, Shard, Warranty};
@@ -77,6 +78,10 @@ pub struct RunDescription {
     pub scenario_name: String,
     /// Warnings raised while loading the scenario, repeated in every summary of the run.
     pub input_warnings: Vec<String>,
+    /// The scenario's end-of-life thresholds, % of fresh, for the plots (absent in runs
+    /// written before they were recorded).
+    #[serde(default)]
+    pub end_of_life_pct: Option<report::ThresholdsPct>,
 }
 
 impl RunDescription {
@@ -122,6 +127,7 @@ fn role_name(role: input::InputRole) -> &'static str {
         input::InputRole::Cell => "cell",
         input::InputRole::Profile => "step profile",
         input::InputRole::Series => "time series",
+        input::InputRole::AgingData => "aging data",
         input::InputRole::Uncertainty => "uncertainty",
     }
 }
@@ -243,6 +249,10 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
         grid: grid.clone(),
         scenario_name: loaded.scenario.name.clone(),
         input_warnings: loaded.warnings.clone(),
+        end_of_life_pct: Some(report::ThresholdsPct {
+            capacity: 100.0 * loaded.plan.end_of_life.capacity_fraction,
+            resistance: 100.0 * loaded.plan.end_of_life.resistance_fraction,
+        }),
     };
 
     let journal_path = config.out_dir.join(JOURNAL_NAME);
@@ -415,8 +425,22 @@ fn finish(
     let bands = report::bands_csv(&summary)?;
     let json = report::ensemble_json(&summary, &run_value, &warnings)?;
     let bands_plot =
-        report::bands_svg(&summary, &format!("{}: fade bands", description.scenario_name), description.cycling)?;
-    let sensitivity = report::sensitivity_svg(&summary, &format!("{}: what drives life", description.scenario_name))?;
+        report::bands_svg(&summary, description.end_of_life_pct, &description.scenario_name, description.cycling)?;
+    let sensitivity = report::sensitivity_svg(&summary, &description.scenario_name)?;
+    let mut text = report::ensemble_text(&description.scenario, description.seed, &summary, &[]);
+    let (tables, calibration) = report::bands_tables(&summary);
+    let page = report::ReportPage {
+        command: "bands",
+        title: &description.scenario_name,
+        inputs: &description.inputs,
+        overrides: &description.overrides,
+        calibration,
+        warnings: warnings.clone(),
+        tables,
+        printed: &text,
+        plots: vec![("bands.svg", bands_plot.as_str()), ("sensitivity.svg", sensitivity.as_str())],
+    };
+    let page = report::report_html(&page);
     write_journal(out_dir, records)?;
     let description_bytes = serde_json::to_vec_pretty(description).map_err(report::ReportError::from)?;
     let written = report::write_all_atomic(
@@ -428,11 +452,11 @@ fn finish(
             ("bands.svg", bands_plot.as_bytes()),
             ("sensitivity.svg", sensitivity.as_bytes()),
             (RUN_NAME, description_bytes.as_slice()),
+            (REPORT_NAME, page.as_bytes()),
         ],
     )?;
 
-    let mut text = report::ensemble_text(&description.scenario, description.seed, &summary, &[]);
-    let names: Vec<String> = written.iter().take(5).map(|p| p.display().to_string()).collect();
+    let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
     print_cautions(&warnings)?;
@@ -452,7 +476,7 @@ fn write_journal(out_dir: &Path, records: &[SampleRecord]) -> Result<(), CliErro
 }
 
 /// The names of the files that carry a run's statistics.
-const STATISTICS_FILES: [&str; 4] = ["bands.csv", "summary.json", "bands.svg", "sensitivity.svg"];
+const STATISTICS_FILES: [&str; 5] = ["bands.csv", "summary.json", "bands.svg", "sensitivity.svg", REPORT_NAME];
 
 /// Ends a run whose left-out samples are too many for statistics: the journal, the run's
 /// description and samples.csv (every sample with its drawn values and why it was left out) are

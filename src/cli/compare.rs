@@ -247,8 +247,13 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     let summaries = summarize_comparison_at(&comparison, quantiles);
 
     let csv = report::compare_csv(&summaries, quantiles)?;
-    let svg = report::compare_svg(&summaries, &format!("{}: compared", first.scenario.name), cycling)?;
-    let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice()), (SVG_NAME, svg.as_bytes())])?;
+    let svg = report::compare_svg(
+        &summaries,
+        Some(100.0 * first.plan.end_of_life.capacity_fraction),
+        quantiles,
+        &format!("{}: compared", first.scenario.name),
+        cycling,
+    )?;
 
     let mut text = format!("{}: scenario \"{}\"\n", config.scenario.display(), first.scenario.name);
     if let Some(sampler) = &sampler {
@@ -262,6 +267,32 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     }
     text.push_str(&report::compare_text(&summaries, comparison.sampled, quantiles));
     let cautions = report::compare_cautions(notes, &summaries, &comparison);
+    // Every alternative's files, each listed once (alternatives often share the cell).
+    let mut inputs: Vec<input::InputDigest> = Vec::new();
+    for template in &templates {
+        for digest in template.input_digests()? {
+            if !inputs.contains(&digest) {
+                inputs.push(digest);
+            }
+        }
+    }
+    let (tables, calibration) = report::compare_tables(&summaries, quantiles);
+    let page = report::ReportPage {
+        command: "compare",
+        title: &first.scenario.name,
+        inputs: &inputs,
+        overrides: &[],
+        calibration,
+        warnings: cautions.clone(),
+        tables,
+        printed: &text,
+        plots: vec![(SVG_NAME, svg.as_str())],
+    };
+    let page = report::report_html(&page);
+    let written = report::write_all_atomic(
+        &config.out_dir,
+        &[(CSV_NAME, csv.as_slice()), (SVG_NAME, svg.as_bytes()), (super::forecast::REPORT_NAME, page.as_bytes())],
+    )?;
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;

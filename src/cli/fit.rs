@@ -98,18 +98,48 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
     let cell = fitted_cell(&loaded, &result, &origin)?;
     let json = report::fit_json(&result, &loaded.name, config.holdout_after)?;
     let uncertainty = report::uncertainty_toml(&result, &origin);
-    let svg = report::fit_svg(&result, &format!("{}: fit", loaded.name))?;
+    let svg = report::fit_svg(&result, config.holdout_after, &format!("{}: fit", loaded.name))?;
+    let mut text = report::fit_text(&loaded.name, loaded.problem.datasets.len(), &result, config.holdout_after);
+    if uncertainty.is_none() {
+        text.push_str("\nNo uncertainty.toml: the fit has no finite standard errors to carry into bands.\n");
+    }
+    // The fit's own files, then each dataset's scenario (with its cell and profile) and data.
+    let mut inputs = vec![input::file_digest(input::InputRole::Scenario, &config.fit_file)?];
+    inputs.push(input::file_digest(input::InputRole::Cell, &loaded.cell_path)?);
+    for source in &loaded.sources {
+        for digest in input::ScenarioTemplate::load(&source.scenario_path, &source.overrides)?.input_digests()? {
+            if !inputs.contains(&digest) {
+                inputs.push(digest);
+            }
+        }
+        inputs.push(input::file_digest(input::InputRole::AgingData, &source.data_path)?);
+    }
+    let mut warnings: Vec<String> = result.warnings.iter().map(report::fit_warning_text).collect();
+    for curve in &result.curves {
+        warnings
+            .extend(curve.forecast_warnings.iter().map(|w| format!("{}: {}", curve.dataset, report::warning_text(w))));
+    }
+    let (tables, calibration) = report::fit_tables(&result);
+    let page = report::ReportPage {
+        command: "fit",
+        title: &loaded.name,
+        inputs: &inputs,
+        overrides: &[],
+        calibration,
+        warnings,
+        tables,
+        printed: &text,
+        plots: vec![(SVG_NAME, svg.as_str())],
+    };
+    let page = report::report_html(&page);
     let mut files: Vec<(&str, &[u8])> =
         vec![(CELL_NAME, cell.as_bytes()), (JSON_NAME, json.as_slice()), (SVG_NAME, svg.as_bytes())];
     if let Some(text) = &uncertainty {
         files.push((UNCERTAINTY_NAME, text.as_bytes()));
     }
+    files.push((super::forecast::REPORT_NAME, page.as_bytes()));
     let written = report::write_all_atomic(&config.out_dir, &files)?;
 
-    let mut text = report::fit_text(&loaded.name, loaded.problem.datasets.len(), &result, config.holdout_after);
-    if uncertainty.is_none() {
-        text.push_str("\nNo uncertainty.toml: the fit has no finite standard errors to carry into bands.\n");
-    }
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;

@@ -14,6 +14,8 @@ pub const JSON_NAME: &str = "summary.json";
 pub const SVG_NAME: &str = "fade.svg";
 pub const PACK_CSV_NAME: &str = "pack.csv";
 pub const PACK_SVG_NAME: &str = "pack.svg";
+/// The run as one self-contained page (every command that forecasts writes one).
+pub const REPORT_NAME: &str = "report.html";
 
 pub struct ForecastConfig {
     pub scenario: PathBuf,
@@ -50,23 +52,47 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
     // Render everything before touching the disk; a failed run still keeps the rows it computed.
     let csv = report::fade_csv(&forecast.points, &forecast.scale)?;
     let json = report::forecast_json(&forecast, &scenario.name, &scenario.cell.name, cycling)?;
-    let svg = report::fade_svg(&forecast.points, &forecast.scale, &format!("{}: forecast", scenario.name), cycling)?;
+    let svg = report::fade_svg(
+        &forecast.points,
+        &forecast.scale,
+        &forecast.end_of_life,
+        &format!("{}: forecast", scenario.name),
+        cycling,
+    )?;
+    let mut text = scenario_header(&config.scenario, &loaded);
+    text.push_str(&report::forecast_text(&forecast, cycling));
+    let mut plots = vec![(SVG_NAME, svg.clone())];
     let mut files = vec![(CSV_NAME, csv), (JSON_NAME, json), (SVG_NAME, svg.into_bytes())];
     if let Some(pack) = &forecast.pack {
         files.push((PACK_CSV_NAME, report::pack_csv(&forecast.points, pack)?));
         let title = format!("{}: cells of the pack", scenario.name);
-        files.push((PACK_SVG_NAME, report::pack_svg(&forecast.points, pack, &title, cycling)?.into_bytes()));
+        let svg = report::pack_svg(&forecast.points, pack, &forecast.end_of_life, &title, cycling)?;
+        files.push((PACK_SVG_NAME, svg.clone().into_bytes()));
+        plots.push((PACK_SVG_NAME, svg));
+        text.push_str(&report::pack_text(pack, cycling));
     }
+    let inputs = input::ScenarioTemplate::load(&config.scenario, &config.overrides)?.input_digests()?;
+    let kinds: Vec<_> = forecast.warnings.iter().map(|w| w.kind()).collect();
+    let mut warnings: Vec<String> = loaded.warnings.clone();
+    warnings.extend(forecast.warnings.iter().map(report::warning_text));
+    warnings.extend(report::stop_text(&forecast.stop, cycling));
+    let page = report::ReportPage {
+        command: "forecast",
+        title: &scenario.name,
+        inputs: &inputs,
+        overrides: &[],
+        calibration: report::calibration_status(drawn_plan.calibration.as_ref(), &kinds),
+        warnings,
+        tables: report::forecast_tables(&forecast, cycling),
+        printed: &text,
+        plots: plots.iter().map(|(name, svg)| (*name, svg.as_str())).collect(),
+    };
+    files.push((REPORT_NAME, report::report_html(&page).into_bytes()));
     let borrowed: Vec<(&str, &[u8])> = files.iter().map(|(name, bytes)| (*name, bytes.as_slice())).collect();
     let written = report::write_all_atomic(&config.out_dir, &borrowed)?;
 
-    let mut text = scenario_header(&config.scenario, &loaded);
-    text.push_str(&report::forecast_text(&forecast, cycling));
     let mut cautions = input_warning_lines(&loaded);
     cautions.extend(report::forecast_warning_lines(&forecast));
-    if let Some(pack) = &forecast.pack {
-        text.push_str(&report::pack_text(pack, cycling));
-    }
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;

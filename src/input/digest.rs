@@ -24,6 +24,8 @@ pub enum InputRole {
     Profile,
     Series,
     Uncertainty,
+    /// Measured aging data a fit reads.
+    AgingData,
 }
 
 /// One input file of a run: its role, where it was read (for the reader; not compared) and the

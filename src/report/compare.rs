@@ -1,26 +1,16 @@
 //! Comparison and fade-table outputs as bytes and text: compare.csv, the printed comparison
-//! table, compare.svg (median fade curves with bands, overlaid) and table.csv.
+//! table and table.csv (compare.svg is drawn in `compare_svg.rs`).
 
-use super::cycle_svg::{padded_range, plot_error};
 use super::schema::{flag, number};
 use super::ReportError;
 use crate::compare::{AlternativeSummary, Comparison, ConditionResult, Spread};
 use crate::forecast::{ForecastWarning, WarningKind};
-use plotters::prelude::*;
 use std::fmt::Write as _;
 
 const DAYS_PER_YEAR: f64 = 365.25;
-const PALETTE: [RGBColor; 6] = [
-    RGBColor(31, 119, 180),
-    RGBColor(214, 39, 40),
-    RGBColor(44, 160, 44),
-    RGBColor(148, 103, 189),
-    RGBColor(255, 127, 14),
-    RGBColor(23, 190, 207),
-];
 
 /// The quantile labels of a comparison's columns, low to high (`5`, `50`, `95`).
-fn quantile_labels((low, high): (f64, f64)) -> [String; 3] {
+pub(super) fn quantile_labels((low, high): (f64, f64)) -> [String; 3] {
     [low, 0.5, high].map(super::ensemble::percent_label)
 }
 
@@ -212,65 +202,6 @@ pub fn compare_text(summaries: &[AlternativeSummary], sampled: bool, quantiles: 
             writeln!(out, "  {censored_pairs} pairs involve a life beyond the horizon: their differences are bounds");
     }
     out
-}
-
-/// compare.svg: each alternative's median state of health against cycles (days when storing),
-/// with its P10–P90 band shaded in the same colour; years on the top axis.
-pub fn compare_svg(summaries: &[AlternativeSummary], title: &str, cycling: bool) -> Result<String, ReportError> {
-    let x_of = |b: &crate::compare::CurveBand| if cycling { b.cycle } else { b.day };
-    let x_range = padded_range(summaries.iter().flat_map(|s| s.curve.iter().map(x_of)), 0.0);
-    let (last_x, last_day) = summaries
-        .iter()
-        .filter_map(|s| s.curve.last())
-        .map(|b| (x_of(b), b.day))
-        .fold((1e-9, 1e-9), |acc, v| if v.0 > acc.0 { v } else { acc });
-    let years = x_range.start * last_day / DAYS_PER_YEAR / last_x..x_range.end * last_day / DAYS_PER_YEAR / last_x;
-    let y_range = padded_range(summaries.iter().flat_map(|s| s.curve.iter().flat_map(|b| [b.low, b.high])), 0.05);
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (1000, 560)).into_drawing_area();
-        root.fill(&WHITE).map_err(plot_error)?;
-        let body = root.titled(title, ("sans-serif", 20)).map_err(plot_error)?;
-        let mut chart = ChartBuilder::on(&body)
-            .margin(10)
-            .x_label_area_size(35)
-            .top_x_label_area_size(30)
-            .y_label_area_size(70)
-            .build_cartesian_2d(x_range, y_range)
-            .map_err(plot_error)?
-            .set_secondary_coord(years, 0.0..1.0);
-        chart
-            .configure_mesh()
-            .x_desc(if cycling { "cycles" } else { "days (storage)" })
-            .y_desc("state of health, %")
-            .draw()
-            .map_err(plot_error)?;
-        chart.configure_secondary_axes().x_desc("years").y_labels(0).draw().map_err(plot_error)?;
-        for (i, s) in summaries.iter().enumerate() {
-            let colour = PALETTE[i % PALETTE.len()];
-            let banded = s.curve.iter().any(|b| b.high > b.low);
-            if banded {
-                let mut outline: Vec<(f64, f64)> = s.curve.iter().map(|b| (x_of(b), b.high)).collect();
-                outline.extend(s.curve.iter().rev().map(|b| (x_of(b), b.low)));
-                chart
-                    .draw_series(std::iter::once(Polygon::new(outline, colour.mix(0.2).filled())))
-                    .map_err(plot_error)?;
-            }
-            chart
-                .draw_series(LineSeries::new(s.curve.iter().map(|b| (x_of(b), b.median)), colour.stroke_width(2)))
-                .map_err(plot_error)?
-                .label(if banded { format!("{} (median and band)", s.name) } else { s.name.clone() })
-                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2)));
-        }
-        chart
-            .configure_series_labels()
-            .background_style(WHITE.mix(0.8))
-            .border_style(BLACK)
-            .draw()
-            .map_err(plot_error)?;
-        root.present().map_err(plot_error)?;
-    }
-    Ok(svg)
 }
 
 /// The columns of table.csv before the quantile columns.

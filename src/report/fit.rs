@@ -1,11 +1,9 @@
 //! Outputs of `fadecast fit`: the fit's JSON record, the fitted cell file, the uncertainty
-//! section `bands` reads, and the plot of data, fitted curves and residuals.
+//! section `bands` reads (the plot is drawn in `fit_svg.rs`).
 
-use super::cycle_svg::{padded_range, plot_error};
 use super::text::sig;
 use super::ReportError;
 use crate::calibrate::{Axis, FitResult, FitWarning, FittedParameter, HoldoutError, ResidualStats, Termination};
-use plotters::prelude::*;
 use serde::Serialize;
 use std::fmt::Write as _;
 
@@ -281,78 +279,7 @@ pub fn uncertainty_toml(result: &FitResult, origin: &str) -> Option<String> {
     Some(text)
 }
 
-const WIDTH_PX: u32 = 1000;
-const CURVE_HEIGHT_PX: u32 = 300;
-const RESIDUAL_HEIGHT_PX: u32 = 150;
-const FITTED_COLOUR: RGBColor = RGBColor(31, 119, 180);
-const HELD_OUT_COLOUR: RGBColor = RGBColor(214, 39, 40);
-
-/// Per dataset: measured capacity (fitted points filled, held-out points hollow) and the fitted
-/// curve, with the residuals (model − data) beneath.
-pub fn fit_svg(result: &FitResult, title: &str) -> Result<String, ReportError> {
-    let panels = result.curves.len().max(1) as u32;
-    let height = 40 + panels * (CURVE_HEIGHT_PX + RESIDUAL_HEIGHT_PX);
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, height)).into_drawing_area();
-        root.fill(&WHITE).map_err(plot_error)?;
-        let body = root.titled(title, ("sans-serif", 20)).map_err(plot_error)?;
-        let rows = body.split_evenly((result.curves.len().max(1), 1));
-        for (area, curve) in rows.iter().zip(&result.curves) {
-            let (top, bottom) = area.split_vertically(CURVE_HEIGHT_PX);
-            let measured: Vec<(f64, f64)> =
-                curve.x_data.iter().zip(&curve.capacity_data_ah).map(|(&x, &c)| (x, c)).collect();
-            let x_range = padded_range(curve.x.iter().chain(&curve.x_data).copied(), 0.02);
-            let y_range = padded_range(curve.capacity_ah.iter().chain(&curve.capacity_data_ah).copied(), 0.05);
-            let mut chart = ChartBuilder::on(&top)
-                .caption(&curve.dataset, ("sans-serif", 16))
-                .margin(10)
-                .x_label_area_size(30)
-                .y_label_area_size(70)
-                .build_cartesian_2d(x_range.clone(), y_range)
-                .map_err(plot_error)?;
-            chart.configure_mesh().y_desc("capacity, Ah").draw().map_err(plot_error)?;
-            chart
-                .draw_series(LineSeries::new(
-                    curve.x.iter().copied().zip(curve.capacity_ah.iter().copied()),
-                    &FITTED_COLOUR,
-                ))
-                .map_err(plot_error)?;
-            let fitted = measured.iter().zip(&curve.fitted).filter(|(_, &f)| f).map(|(&p, _)| p);
-            chart.draw_series(fitted.map(|p| Circle::new(p, 3, BLACK.filled()))).map_err(plot_error)?;
-            let held_out = measured.iter().zip(&curve.fitted).filter(|(_, &f)| !f).map(|(&p, _)| p);
-            chart.draw_series(held_out.map(|p| Circle::new(p, 3, HELD_OUT_COLOUR))).map_err(plot_error)?;
-
-            let residual_range = padded_range(curve.capacity_residual_ah.iter().copied().chain([0.0]), 0.1);
-            let mut residuals = ChartBuilder::on(&bottom)
-                .margin(10)
-                .x_label_area_size(35)
-                .y_label_area_size(70)
-                .build_cartesian_2d(x_range.clone(), residual_range)
-                .map_err(plot_error)?;
-            residuals
-                .configure_mesh()
-                .x_desc(axis_label(curve.axis))
-                .y_desc("model − data, Ah")
-                .draw()
-                .map_err(plot_error)?;
-            residuals
-                .draw_series(LineSeries::new([(x_range.start, 0.0), (x_range.end, 0.0)], &BLACK.mix(0.4)))
-                .map_err(plot_error)?;
-            let points = curve.x_data.iter().zip(&curve.capacity_residual_ah).zip(&curve.fitted);
-            residuals
-                .draw_series(points.map(|((&x, &r), &f)| {
-                    let style = if f { BLACK.filled() } else { HELD_OUT_COLOUR.filled() };
-                    Circle::new((x, r), 3, style)
-                }))
-                .map_err(plot_error)?;
-        }
-        root.present().map_err(plot_error)?;
-    }
-    Ok(svg)
-}
-
-fn axis_label(axis: Axis) -> &'static str {
+pub(super) fn axis_label(axis: Axis) -> &'static str {
     match axis {
         Axis::Cycle => "cycles",
         Axis::Day => "days",

@@ -1,18 +1,12 @@
 //! A pack's cells over life: `pack.csv` (long format, one row per cell per reported point),
-//! `pack.svg` (each cell's state of health and current share), and the summary lines naming the
-//! weakest cell and what sets it apart.
+//! the summary lines naming the
+//! weakest cell and what sets it apart (`pack.svg` is drawn in `pack_svg.rs`).
 
-use super::cycle_svg::{padded_range, plot_error};
 use super::schema::number;
 use super::ReportError;
 use crate::forecast::{FadePoint, LifeAt, PackOutcome};
 use crate::material::constants::ZERO_CELSIUS_K;
-use plotters::prelude::*;
 use std::fmt::Write as _;
-
-const WIDTH_PX: u32 = 1000;
-const PANEL_HEIGHT_PX: u32 = 320;
-const TITLE_HEIGHT_PX: u32 = 40;
 
 /// Columns of `pack.csv`.
 pub const PACK_CSV_HEADER: [&str; 16] = [
@@ -62,77 +56,6 @@ pub fn pack_csv(points: &[FadePoint], pack: &PackOutcome) -> Result<Vec<u8>, Rep
         }
     }
     writer.into_inner().map_err(|err| ReportError::Csv(err.into_error().into()))
-}
-
-/// A colour per cell, cycling through a fixed palette.
-fn colour(i: usize) -> RGBColor {
-    const PALETTE: [RGBColor; 8] = [
-        RGBColor(31, 119, 180),
-        RGBColor(255, 127, 14),
-        RGBColor(44, 160, 44),
-        RGBColor(214, 39, 40),
-        RGBColor(148, 103, 189),
-        RGBColor(140, 86, 75),
-        RGBColor(227, 119, 194),
-        RGBColor(127, 127, 127),
-    ];
-    PALETTE[i % PALETTE.len()]
-}
-
-/// Renders `pack.svg`: each cell's state of health and current share against cycles (days
-/// when storing). Legends are kept to packs of at most 16 cells.
-pub fn pack_svg(points: &[FadePoint], pack: &PackOutcome, title: &str, cycling: bool) -> Result<String, ReportError> {
-    let x_of = move |p: &FadePoint| if cycling { p.cycle } else { p.day };
-    let x_label = if cycling { "cycles" } else { "days (storage)" };
-    let x_range = padded_range(points.iter().map(x_of), 0.0);
-    let n = pack.positions.len();
-    let mut svg = String::new();
-    {
-        let root =
-            SVGBackend::with_string(&mut svg, (WIDTH_PX, TITLE_HEIGHT_PX + 2 * PANEL_HEIGHT_PX)).into_drawing_area();
-        root.fill(&WHITE).map_err(plot_error)?;
-        let body = root.titled(title, ("sans-serif", 20)).map_err(plot_error)?;
-        let areas = body.split_evenly((2, 1));
-        type Value = fn(&crate::forecast::PackCellPoint) -> f64;
-        let panels: [(&str, Value); 2] = [
-            ("cell state of health, %", |c| c.soh_pct),
-            ("share of the group's discharge, %", |c| c.current_share_pct),
-        ];
-        for ((y_label, value), area) in panels.iter().zip(&areas) {
-            let values = pack.points.iter().flat_map(|cells| cells.iter().map(value));
-            let mut chart = ChartBuilder::on(area)
-                .margin(10)
-                .x_label_area_size(35)
-                .y_label_area_size(70)
-                .build_cartesian_2d(x_range.clone(), padded_range(values, 0.05))
-                .map_err(plot_error)?;
-            chart.configure_mesh().x_desc(x_label).y_desc(*y_label).draw().map_err(plot_error)?;
-            for i in 0..n {
-                let c = colour(i);
-                let position = &pack.positions[i];
-                let series = chart
-                    .draw_series(LineSeries::new(
-                        points.iter().zip(&pack.points).map(|(p, cells)| (x_of(p), value(&cells[i]))),
-                        c.stroke_width(2),
-                    ))
-                    .map_err(plot_error)?;
-                if n <= 16 {
-                    series
-                        .label(format!("cell {} (group {}, place {})", i + 1, position.group + 1, position.place + 1))
-                        .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c.stroke_width(2)));
-                }
-            }
-            if n <= 16 {
-                chart
-                    .configure_series_labels()
-                    .background_style(WHITE.mix(0.8))
-                    .border_style(BLACK)
-                    .draw()
-                    .map_err(plot_error)?;
-            }
-        }
-    }
-    Ok(svg)
 }
 
 /// (min, max, standard deviation) of a set of values.
