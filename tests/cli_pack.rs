@@ -32,7 +32,6 @@ fn a_pack_forecast_writes_its_cells_and_names_the_weakest() {
     assert_eq!(rows, 101 * 16);
     assert!(out.path().join("fade.csv").is_file());
     let svg = std::fs::read_to_string(out.path().join("pack.svg")).unwrap();
-    assert!(svg.contains("cell 16 (group 4, place 4)"));
     // The summary carries the pack: every cell at the horizon and the weakest one by number.
     let summary: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.path().join("summary.json")).unwrap()).unwrap();

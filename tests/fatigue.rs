@@ -218,15 +218,19 @@ fn the_tug_summary_splits_its_resistance_rise_and_its_lithium_sinks() {
         serde_json::from_slice(&std::fs::read(out.path().join("summary.json")).unwrap()).unwrap();
     let rise = &summary["resistance_rise_at_horizon"];
     let part = |key: &str| rise[key].as_f64().unwrap_or_else(|| panic!("{key} missing: {rise}"));
-    let parts = part("negative_film_original_mohm")
-        + part("negative_crack_faces_mohm")
-        + part("negative_lost_active_area_mohm")
-        + part("other_mohm");
-    assert!((parts - part("total_mohm")).abs() < 1e-9, "{rise}");
+    let keys =
+        ["negative_film_original_mohm", "negative_crack_faces_mohm", "negative_lost_active_area_mohm", "other_mohm"];
+    let parts: f64 = keys.iter().map(|k| part(k)).sum();
+    // Every number is written to 6 significant digits (the output schema's rule): each value
+    // may be off by half a unit in its sixth digit.
+    let rounding = |v: f64| 5e-6 * v.abs();
+    let allowed = keys.iter().map(|k| rounding(part(k))).sum::<f64>() + rounding(part("total_mohm"));
+    assert!((parts - part("total_mohm")).abs() <= allowed, "{rise}");
     assert!(part("total_mohm") > 0.0);
     let shares = summary["lithium_sink_share_pct"].as_object().unwrap();
     let total: f64 = shares.values().map(|v| v.as_f64().unwrap()).sum();
-    assert!((total - 100.0).abs() < 1e-9, "{shares:?}");
+    let allowed: f64 = shares.values().map(|v| 5e-6 * v.as_f64().unwrap().abs()).sum();
+    assert!((total - 100.0).abs() <= allowed, "{shares:?}");
     assert!(shares.contains_key("lithium_lost_film_crack"));
 }
 

@@ -305,17 +305,7 @@ pub fn run(config: &BandsConfig, out: &mut impl Write) -> Result<(), CliError> {
 
     let done: BTreeSet<u64> = previous.iter().map(|r| r.index).collect();
     let todo = (0..config.samples).filter(|&i| config.shard.contains(i) && !done.contains(&i)).count() as u64;
-    let progress = if config.quiet || !std::io::stderr().is_terminal() {
-        indicatif::ProgressBar::hidden()
-    } else {
-        let bar = indicatif::ProgressBar::new(todo);
-        if let Ok(style) =
-            indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} samples  {elapsed} elapsed, {eta} to go")
-        {
-            bar.set_style(style);
-        }
-        bar
-    };
+    let progress = super::progress_bar(todo, !config.quiet && std::io::stderr().is_terminal(), "samples");
     // One sample's inputs: the scenario with the drawn values set, every input rule applied.
     let paths = input::number_paths(&description.parameters)?;
     let build = |values: &[f64]| template.build_drawn(&spec, &paths, values).map_err(|e| e.to_string());

@@ -229,8 +229,13 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
     };
     let compare_config =
         CompareConfig { samples: sampling.samples, horizon, options: ForecastOptions::default(), jobs: sampling.jobs };
-    let comparison =
-        compare::run_comparison(&alternatives, sampler.as_ref(), &compare_config, &build).map_err(|e| -> CliError {
+    let tasks = compare::comparison_tasks(&alternatives, sampler.as_ref(), &compare_config);
+    // One task per sample when sampling, else one per alternative.
+    let unit = if sampler.is_some() && sampling.samples > 0 { "samples" } else { "alternatives" };
+    let progress = super::progress_bar(tasks, sampling.progress, unit);
+    let done = || progress.inc(1);
+    let comparison = compare::run_comparison_observed(&alternatives, sampler.as_ref(), &compare_config, &build, &done)
+        .map_err(|e| -> CliError {
             match e {
                 CompareError::Unrunnable { index, detail, .. } => {
                     let s = &sources[index];
@@ -243,6 +248,7 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
                 CompareError::Threads { .. } => CliError::Forecast(e.to_string()),
             }
         })?;
+    progress.finish_and_clear();
     let quantiles = sampling.outer_quantiles();
     let summaries = summarize_comparison_at(&comparison, quantiles);
 
@@ -276,7 +282,7 @@ pub fn run(config: &CompareCommandConfig, out: &mut impl Write) -> Result<(), Cl
             }
         }
     }
-    let (tables, calibration) = report::compare_tables(&summaries, quantiles);
+    let (tables, calibration) = report::compare_tables(&summaries, comparison.sampled, quantiles);
     let page = report::ReportPage {
         command: "compare",
         title: &first.scenario.name,

@@ -1,7 +1,7 @@
 //! `fadecast fit FIT.toml`: fit model inputs to measured fade data and write the fitted cell,
 //! the fit's record, an uncertainty section for `bands` and a plot.
 
-use super::{print_caution, CliError};
+use super::{print_caution, print_cautions, CliError};
 use crate::calibrate::{self, Axis, CalibrationError, FitOptions, FitResult, FittedEnd};
 use crate::input::{self, InputError, LoadedFit, Override};
 use crate::material::constants::ZERO_CELSIUS_K;
@@ -114,11 +114,7 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
         }
         inputs.push(input::file_digest(input::InputRole::AgingData, &source.data_path)?);
     }
-    let mut warnings: Vec<String> = result.warnings.iter().map(report::fit_warning_text).collect();
-    for curve in &result.curves {
-        warnings
-            .extend(curve.forecast_warnings.iter().map(|w| format!("{}: {}", curve.dataset, report::warning_text(w))));
-    }
+    let warnings = report::fit_cautions(&result);
     let (tables, calibration) = report::fit_tables(&result);
     let page = report::ReportPage {
         command: "fit",
@@ -126,7 +122,7 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
         inputs: &inputs,
         overrides: &[],
         calibration,
-        warnings,
+        warnings: warnings.clone(),
         tables,
         printed: &text,
         plots: vec![(SVG_NAME, svg.as_str())],
@@ -143,6 +139,7 @@ pub fn run(config: &FitConfig, out: &mut impl Write) -> Result<(), CliError> {
     let names: Vec<String> = written.iter().map(|p| p.display().to_string()).collect();
     let _ = writeln!(text, "\nWrote {}", names.join(", "));
     out.write_all(text.as_bytes())?;
+    print_cautions(&warnings)?;
     print_caution()?;
     Ok(())
 }

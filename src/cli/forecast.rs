@@ -56,6 +56,8 @@ pub fn run(config: &ForecastConfig, out: &mut impl Write) -> Result<(), CliError
         &forecast.points,
         &forecast.scale,
         &forecast.end_of_life,
+        // The fitted range on this plot's axis (cycles when cycling, days when storing).
+        drawn_plan.calibration.and_then(|c| if cycling { c.cycles } else { c.days }),
         &format!("{}: forecast", scenario.name),
         cycling,
     )?;

@@ -578,6 +578,19 @@ fn print_caution() -> std::io::Result<()> {
 }
 
 /// Warnings and cautions, one paragraph each, on standard error.
+/// A progress bar on stderr counting `total` tasks of `unit`, hidden when `show` is false.
+fn progress_bar(total: u64, show: bool, unit: &str) -> indicatif::ProgressBar {
+    if !show {
+        return indicatif::ProgressBar::hidden();
+    }
+    let bar = indicatif::ProgressBar::new(total);
+    let template = format!("{{bar:40}} {{pos}}/{{len}} {unit}  {{elapsed}} elapsed, {{eta}} to go");
+    if let Ok(style) = indicatif::ProgressStyle::with_template(&template) {
+        bar.set_style(style);
+    }
+    bar
+}
+
 fn print_cautions(cautions: &[String]) -> std::io::Result<()> {
     if cautions.is_empty() {
         return Ok(());

@@ -3,7 +3,7 @@
 //! written as one long-format CSV for system models to interpolate.
 
 use super::{print_caution, print_cautions, CliError};
-use crate::compare::{run_table, CompareError, Condition, TableConfig};
+use crate::compare::{run_table_observed, table_tasks, CompareError, Condition, TableConfig};
 use crate::forecast::{ForecastOptions, Horizon, StopReason};
 use crate::input::{self, InputError, Override};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
@@ -170,8 +170,11 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
         quantiles: [quantiles.0, 0.5, quantiles.1],
     };
     let nominal = (loaded.scenario.clone(), loaded.plan.clone());
-    let results =
-        run_table(&conditions, &nominal, sampler.as_ref(), &table_config, &build).map_err(|e| -> CliError {
+    let progress =
+        super::progress_bar(table_tasks(&conditions, sampler.as_ref(), &table_config), sampling.progress, "forecasts");
+    let done = || progress.inc(1);
+    let results = run_table_observed(&conditions, &nominal, sampler.as_ref(), &table_config, &build, &done).map_err(
+        |e| -> CliError {
             match e {
                 CompareError::Unrunnable { name, detail, .. } => InputError::command_line_flag(
                     "--c-rate",
@@ -180,7 +183,9 @@ pub fn run(config: &TableCommandConfig, out: &mut impl Write) -> Result<(), CliE
                 .into(),
                 CompareError::Threads { .. } => CliError::Forecast(e.to_string()),
             }
-        })?;
+        },
+    )?;
+    progress.finish_and_clear();
 
     let csv = report::table_csv(&results, table_config.quantiles)?;
     let written = report::write_all_atomic(&config.out_dir, &[(CSV_NAME, csv.as_slice())])?;

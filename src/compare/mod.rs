@@ -19,13 +19,14 @@ mod table;
 /// The comparison's name for [`SampleStatus`], the one status of a forecast on drawn inputs.
 pub use crate::ensemble::SampleStatus as OutcomeStatus;
 pub use run::{
-    charge_time_s, check_runs_at_beginning_of_life, run_comparison, Alternative, CompareConfig, CompareError,
-    Comparison, Life, Outcome,
+    charge_time_s, check_runs_at_beginning_of_life, comparison_tasks, run_comparison, run_comparison_observed,
+    Alternative, CompareConfig, CompareError, Comparison, Life, Outcome,
 };
 pub use summary::{
     summarize_comparison, summarize_comparison_at, AlternativeSummary, CurveBand, PairedDifference, Spread,
     SPREAD_QUANTILES,
 };
 pub use table::{
-    condition_scenario, run_table, standard_cycle, Condition, ConditionResult, TableConfig, TABLE_QUANTILES,
+    condition_scenario, run_table, run_table_observed, standard_cycle, table_tasks, Condition, ConditionResult,
+    TableConfig, TABLE_QUANTILES,
 };

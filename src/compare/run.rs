@@ -128,6 +128,30 @@ pub fn run_comparison<B>(
 where
     B: Fn(usize, &[f64]) -> Result<(Scenario, Plan), String> + Sync,
 {
+    run_comparison_observed(alternatives, sampler, config, build, &|| {})
+}
+
+/// How many tasks [`run_comparison_observed`] reports: one per sample (every alternative on
+/// its draw), or one per alternative without samples.
+pub fn comparison_tasks(alternatives: &[Alternative], sampler: Option<&Sampler>, config: &CompareConfig) -> u64 {
+    match sampler.filter(|_| config.samples > 0) {
+        Some(_) => config.samples,
+        None => alternatives.len() as u64,
+    }
+}
+
+/// [`run_comparison`], calling `done` as each task ends ([`comparison_tasks`]), from any
+/// thread, so a caller can show progress.
+pub fn run_comparison_observed<B>(
+    alternatives: &[Alternative],
+    sampler: Option<&Sampler>,
+    config: &CompareConfig,
+    build: &B,
+    done: &(dyn Fn() + Sync),
+) -> Result<Comparison, CompareError>
+where
+    B: Fn(usize, &[f64]) -> Result<(Scenario, Plan), String> + Sync,
+{
     let charge_time_s = check_runs_at_beginning_of_life(alternatives)?;
     let names = alternatives.iter().map(|a| a.name.clone()).collect();
     let pool = rayon::ThreadPoolBuilder::new()
@@ -139,7 +163,11 @@ where
         None => pool.install(|| {
             alternatives
                 .par_iter()
-                .map(|a| vec![outcome_of(&run_forecast(&a.scenario, &a.plan, config.horizon, &config.options))])
+                .map(|a| {
+                    let outcome = outcome_of(&run_forecast(&a.scenario, &a.plan, config.horizon, &config.options));
+                    done();
+                    vec![outcome]
+                })
                 .collect()
         }),
         Some(sampler) => {
@@ -149,14 +177,16 @@ where
                     .into_par_iter()
                     .map(|i| {
                         let values = sampler.draw_for_build(i);
-                        (0..alternatives.len())
+                        let outcomes = (0..alternatives.len())
                             .map(|a| match build(a, &values) {
                                 Ok((scenario, plan)) => {
                                     outcome_of(&run_forecast(&scenario, &plan, config.horizon, &config.options))
                                 }
                                 Err(message) => invalid(message),
                             })
-                            .collect()
+                            .collect();
+                        done();
+                        outcomes
                     })
                     .collect()
             });

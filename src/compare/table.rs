@@ -119,6 +119,28 @@ pub fn run_table<B>(
 where
     B: Fn(&[f64]) -> Result<(Scenario, Plan), String> + Sync,
 {
+    run_table_observed(conditions, nominal, sampler, config, build, &|| {})
+}
+
+/// How many forecasts [`run_table_observed`] reports: every condition's nominal one and, with
+/// samples, one per condition and sample.
+pub fn table_tasks(conditions: &[Condition], sampler: Option<&Sampler>, config: &TableConfig) -> u64 {
+    let per_condition = 1 + sampler.filter(|_| config.samples > 0).map_or(0, |_| config.samples);
+    conditions.len() as u64 * per_condition
+}
+
+/// [`run_table`], calling `done` as each forecast ends ([`table_tasks`]), from any thread.
+pub fn run_table_observed<B>(
+    conditions: &[Condition],
+    nominal: &(Scenario, Plan),
+    sampler: Option<&Sampler>,
+    config: &TableConfig,
+    build: &B,
+    done: &(dyn Fn() + Sync),
+) -> Result<Vec<ConditionResult>, CompareError>
+where
+    B: Fn(&[f64]) -> Result<(Scenario, Plan), String> + Sync,
+{
     let settings = SolverSettings::default();
     let nominal_runs: Vec<(Scenario, Plan)> =
         conditions.iter().map(|c| condition_scenario(nominal.0.clone(), nominal.1.clone(), c)).collect();
@@ -134,7 +156,11 @@ where
     let results = pool.install(|| {
         let forecasts: Vec<Forecast> = nominal_runs
             .par_iter()
-            .map(|(scenario, plan)| run_forecast(scenario, plan, config.horizon, &config.options))
+            .map(|(scenario, plan)| {
+                let forecast = run_forecast(scenario, plan, config.horizon, &config.options);
+                done();
+                forecast
+            })
             .collect();
         // Samples: every (condition, sample) pair is one task; sample i uses draw i everywhere.
         let sampled: Vec<Vec<Option<Forecast>>> = match sampler {
@@ -145,9 +171,12 @@ where
                     (0..config.samples)
                         .into_par_iter()
                         .map(|i| {
-                            let (scenario, plan) = build(&sampler.draw_for_build(i)).ok()?;
-                            let (scenario, plan) = condition_scenario(scenario, plan, condition);
-                            Some(run_forecast(&scenario, &plan, config.horizon, &config.options))
+                            let built = build(&sampler.draw_for_build(i)).ok().map(|(scenario, plan)| {
+                                let (scenario, plan) = condition_scenario(scenario, plan, condition);
+                                run_forecast(&scenario, &plan, config.horizon, &config.options)
+                            });
+                            done();
+                            built
                         })
                         .collect()
                 })

@@ -12,6 +12,9 @@ use plotters::prelude::*;
 use std::ops::Range;
 
 const CHART_HEIGHT_PX: u32 = 250;
+/// The calibrated range's shade, as in fit.svg.
+const CALIBRATED: RGBColor = plot::BLUISH_GREEN;
+const CALIBRATED_ALPHA: f64 = 0.15;
 
 /// The part of the figure both the cell's and the pack's plots draw: one quantity against the
 /// x axis with its end-of-life threshold.
@@ -29,13 +32,15 @@ pub(super) struct XAxis {
     pub years: Range<f64>,
     pub desc: &'static str,
     pub cycling: bool,
+    /// The end of the range the aging parameters were fitted to, on this axis (shaded).
+    pub calibrated_to: Option<f64>,
 }
 
 impl XAxis {
     pub fn new(points: impl Iterator<Item = (f64, f64)> + Clone, cycling: bool) -> XAxis {
         let range = plot::padded_range(points.clone().map(|(x, _)| x), 0.0);
         let years = plot::years_range(&range, points.last());
-        XAxis { range, years, desc: if cycling { "cycles" } else { "days (storage)" }, cycling }
+        XAxis { range, years, desc: if cycling { "cycles" } else { "days (storage)" }, cycling, calibrated_to: None }
     }
 
     /// Where a threshold was reached on this axis.
@@ -72,11 +77,14 @@ pub(super) fn draw_threshold_panel<DB: DrawingBackend>(
 ) -> Result<(), ReportError> {
     let level = curve.threshold.map(|t| t.level_pct);
     let (y_range, on_axis) = plot::range_with_level(curve.points.iter().map(|p| p.1), level);
-    let entries = panel_entries(curve, what);
+    let entries = panel_entries(curve, what, x);
     let chart_area = plot::legend_above(area, &entries)?;
     let (strip, chart_area) = plot::years_strip(&chart_area);
     let mut chart = plot::chart(&chart_area, x.range.clone(), y_range, true)?;
     plot::draw_axes(&mut chart, x.desc, Scale::Count, curve.y_desc)?;
+    if let Some(end) = x.calibrated_to {
+        plot::shade_x(&mut chart, x.range.start..end.min(x.range.end), CALIBRATED, CALIBRATED_ALPHA)?;
+    }
     if let (Some(t), true) = (curve.threshold, on_axis) {
         plot::draw_dashed(&mut chart, vec![(x.range.start, t.level_pct), (x.range.end, t.level_pct)], plot::THRESHOLD)?;
     }
@@ -96,11 +104,12 @@ pub fn fade_svg(
     points: &[FadePoint],
     scale: &ReportScale,
     end_of_life: &[EndOfLifePoint],
+    calibrated_to: Option<f64>,
     title: &str,
     cycling: bool,
 ) -> Result<String, ReportError> {
     let x_of = move |p: &FadePoint| if cycling { p.cycle } else { p.day };
-    let x = XAxis::new(points.iter().map(|p| (x_of(p), p.day)), cycling);
+    let x = XAxis { calibrated_to, ..XAxis::new(points.iter().map(|p| (x_of(p), p.day)), cycling) };
     let threshold = |kind| end_of_life.iter().find(|e| e.threshold == kind);
     let curves = [
         ThresholdCurve {
@@ -135,8 +144,8 @@ pub fn fade_svg(
         .collect();
 
     let heights = [
-        plot::legend_height(&panel_entries(&curves[0], "capacity")) + CHART_HEIGHT_PX,
-        plot::legend_height(&panel_entries(&curves[1], "resistance")) + CHART_HEIGHT_PX,
+        plot::legend_height(&panel_entries(&curves[0], "capacity", &x)) + CHART_HEIGHT_PX,
+        plot::legend_height(&panel_entries(&curves[1], "resistance", &x)) + CHART_HEIGHT_PX,
         plot::legend_height(&layer_entries) + CHART_HEIGHT_PX,
         plot::legend_height(&line_entries) + CHART_HEIGHT_PX,
     ];
@@ -183,12 +192,15 @@ pub fn fade_svg(
 }
 
 /// The legend of a threshold panel (also sizes the figure before drawing).
-pub(super) fn panel_entries(curve: &ThresholdCurve, what: &str) -> Vec<LegendEntry> {
+pub(super) fn panel_entries(curve: &ThresholdCurve, what: &str, x: &XAxis) -> Vec<LegendEntry> {
     let level = curve.threshold.map(|t| t.level_pct);
     let (_, on_axis) = plot::range_with_level(curve.points.iter().map(|p| p.1), level);
     let mut entries = vec![LegendEntry::new(Mark::Line(plot::BLUE), curve.label)];
     if let Some(t) = curve.threshold {
         entries.extend(threshold_entries(t, on_axis, what));
+    }
+    if x.calibrated_to.is_some() {
+        entries.push(LegendEntry::new(Mark::Area(CALIBRATED, CALIBRATED_ALPHA), "calibrated range (fitted data)"));
     }
     entries
 }
@@ -223,7 +235,7 @@ mod tests {
             },
             EndOfLifePoint { threshold: Threshold::Resistance, level_pct: 200.0, reached: None },
         ];
-        let svg = fade_svg(&points, &scale, &end_of_life, "test fade", true).unwrap();
+        let svg = fade_svg(&points, &scale, &end_of_life, Some(500.0), "test fade", true).unwrap();
         for text in [
             "test fade",
             "state of health, %",
@@ -234,10 +246,11 @@ mod tests {
             "lost, % of electrode",
             "years",
             "\n2000\n",
+            "calibrated range (fitted data)",
         ] {
             assert!(svg.contains(text), "missing {text}");
         }
         assert!(!svg.contains("2000.0"), "count axis ticks carry no decimals");
-        assert!(fade_svg(&[], &scale, &[], "empty", false).is_ok());
+        assert!(fade_svg(&[], &scale, &[], None, "empty", false).is_ok());
     }
 }

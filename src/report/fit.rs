@@ -65,8 +65,8 @@ pub fn fit_warning_text(warning: &FitWarning) -> String {
     }
 }
 
-/// The fit as the terminal shows it: parameters, correlations, residuals, hold-out errors,
-/// warnings (the fit's and each dataset's forecast's) and the extrapolation caution.
+/// The fit as the terminal shows it: parameters, correlations, residuals and hold-out errors
+/// (warnings and the caution are [`fit_cautions`], for stderr).
 pub fn fit_text(name: &str, datasets: usize, result: &FitResult, holdout_after: Option<f64>) -> String {
     let mut text = format!("{}: fit of {} parameters to {} datasets\n", name, result.parameters.len(), datasets);
     let _ = writeln!(
@@ -119,25 +119,22 @@ pub fn fit_text(name: &str, datasets: usize, result: &FitResult, holdout_after: 
             );
         }
     }
-    let forecast_warnings: Vec<String> = result
-        .curves
-        .iter()
-        .flat_map(|c| c.forecast_warnings.iter().map(move |w| format!("{}: {}", c.dataset, super::warning_text(w))))
-        .collect();
-    if !result.warnings.is_empty() || !forecast_warnings.is_empty() {
-        text.push_str("Warnings\n");
-        for w in &result.warnings {
-            let _ = writeln!(text, "  {}", fit_warning_text(w));
-        }
-        for w in &forecast_warnings {
-            let _ = writeln!(text, "  {w}");
-        }
-    }
-    text.push_str(
-        "\nA fit is only as good as its data: forecasts beyond the fitted range are extrapolations, \
-         and the fitted cell's [calibration] table makes forecasts beyond it say so.\n",
-    );
     text
+}
+
+/// The fit's warnings, each dataset's forecast's warnings (named by dataset) and the
+/// extrapolation caution, one line each.
+pub fn fit_cautions(result: &FitResult) -> Vec<String> {
+    let mut lines: Vec<String> = result.warnings.iter().map(fit_warning_text).collect();
+    for curve in &result.curves {
+        lines.extend(curve.forecast_warnings.iter().map(|w| format!("{}: {}", curve.dataset, super::warning_text(w))));
+    }
+    lines.push(
+        "A fit is only as good as its data: forecasts beyond the fitted range are extrapolations, \
+         and the fitted cell's [calibration] table makes forecasts beyond it say so."
+            .into(),
+    );
+    lines
 }
 
 /// Four significant figures, in exponent form for the very small or large values rates and

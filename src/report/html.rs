@@ -273,12 +273,16 @@ pub fn bands_tables(summary: &EnsembleSummary) -> (Vec<HtmlTable>, String) {
 }
 
 /// The headline of a comparison: one row per alternative.
-pub fn compare_tables(summaries: &[AlternativeSummary], quantiles: (f64, f64)) -> (Vec<HtmlTable>, String) {
+pub fn compare_tables(
+    summaries: &[AlternativeSummary],
+    sampled: bool,
+    quantiles: (f64, f64),
+) -> (Vec<HtmlTable>, String) {
     let [low, _, high] = super::compare::quantile_labels(quantiles);
     let spread = |s: &crate::compare::Spread, unit: &str| {
         let finite = |v: f64| if v.is_finite() { sig(v, 4) } else { "beyond horizon".into() };
         match (s.low, s.high) {
-            (Some(lo), Some(hi)) => {
+            (Some(lo), Some(hi)) if sampled => {
                 format!("{} {unit} (P{low} {} – P{high} {})", finite(s.median), finite(lo), finite(hi))
             }
             _ => format!("{} {unit}", finite(s.median)),
@@ -293,7 +297,10 @@ pub fn compare_tables(summaries: &[AlternativeSummary], quantiles: (f64, f64)) -
                 spread(&s.life_years, "years"),
                 spread(&s.soh_at_horizon_pct, "%"),
                 s.paired.as_ref().map_or("reference".into(), |d| {
-                    if d.pairs > 0 {
+                    if !sampled {
+                        // One forecast each: there is no sample to pair.
+                        "— (no samples)".into()
+                    } else if d.pairs > 0 {
                         format!("{:.0} % of {} pairs", 100.0 * d.probability_outlasts, d.pairs)
                     } else {
                         "no usable pairs".into()
@@ -306,18 +313,20 @@ pub fn compare_tables(summaries: &[AlternativeSummary], quantiles: (f64, f64)) -
         .collect();
     let header = [
         "alternative",
-        "life (median)",
+        if sampled { "life (median)" } else { "life" },
         "life in years",
         "state of health at horizon",
         "outlasts the first",
         "plating predicted",
         "peak temperature",
     ];
-    let tables = vec![HtmlTable {
-        caption: "Comparison on the same samples (life censored at the horizon reads \"beyond horizon\")".into(),
-        header: header.iter().map(|h| h.to_string()).collect(),
-        rows,
-    }];
+    let caption = if sampled {
+        "Comparison on the same samples (life censored at the horizon reads \"beyond horizon\")"
+    } else {
+        "One deterministic forecast each (life censored at the horizon reads \"beyond horizon\")"
+    };
+    let tables =
+        vec![HtmlTable { caption: caption.into(), header: header.iter().map(|h| h.to_string()).collect(), rows }];
     let calibration = summaries
         .iter()
         .map(|s| format!("{}: {}", s.name, counted_calibration(&s.warning_counts, s.usable as u64)))

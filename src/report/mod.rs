@@ -39,7 +39,7 @@ pub use ensemble::{
 };
 pub use fade_csv::{fade_columns, fade_csv};
 pub use fade_svg::fade_svg;
-pub use fit::{fit_json, fit_text, fit_warning_text, fitted_cell_toml, uncertainty_toml};
+pub use fit::{fit_cautions, fit_json, fit_text, fit_warning_text, fitted_cell_toml, uncertainty_toml};
 pub use fit_svg::fit_svg;
 pub use forecast_json::forecast_json;
 pub use forecast_text::{forecast_text, forecast_warning_lines};
