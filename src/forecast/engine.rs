@@ -511,65 +511,97 @@ fn integrate_jumping(
     options: &ForecastOptions,
     forecast: &mut Forecast,
 ) -> (Vec<f64>, Vec<AgingState>) {
-    let y0 = DVector::from_row_slice(&to_integrator(&start));
-    let s_end = stretched(x_end);
-    // Absolute tolerance in the state's own units (1e-7 of the lithium inventory, 1e-7 nm);
-    // the first step is one cycle, the automatic choice being far smaller.
-    let mut stepper = Dopri5::from_param(
-        RateSystem(forecaster),
-        0.0,
-        s_end,
-        s_end,
-        y0,
-        options.relative_tolerance * STEERING_TOLERANCE_FACTOR,
-        ABSOLUTE_TOLERANCE * STEERING_TOLERANCE_FACTOR,
-        0.9,
-        0.04,
-        0.2,
-        STEP_GROWTH_MAX,
-        s_end,
-        stretched(FIRST_STEP.min(x_end)),
-        100_000,
-        1000,
-        OutputType::Continuous,
-    );
-    let mut continuous = ContinuousOutputModel::default();
-    match stepper.integrate_with_continuous_output_model(&mut continuous) {
-        Ok(stats) => {
-            forecast.accepted_steps = stats.accepted_steps as usize;
-            forecast.rejected_steps = stats.rejected_steps as usize;
+    let jump = Jump {
+        x_end,
+        spacing,
+        tolerance_factor: STEERING_TOLERANCE_FACTOR,
+        step_growth_max: STEP_GROWTH_MAX,
+        failure: &forecaster.failure,
+    };
+    jump.on_grid(RateSystem(forecaster), to_integrator(&start).to_vec(), start, options, forecast, from_integrator)
+}
+
+/// One cycle-jumping run, shared by the lone cell and the pack: the integration's end, the
+/// report grid's spacing, the factor on both tolerances (for the vector's padding or length),
+/// the step growth allowed, and where a rate evaluation records its failure.
+pub(super) struct Jump<'a> {
+    pub x_end: f64,
+    pub spacing: f64,
+    pub tolerance_factor: f64,
+    pub step_growth_max: f64,
+    pub failure: &'a RefCell<Option<(f64, RateFailure)>>,
+}
+
+impl Jump<'_> {
+    /// Integrates `system` from `y0` (the integrator's form of `start`) and returns the start and
+    /// the states on the report grid, decoded by `decode`, up to where the integration reached.
+    pub(super) fn on_grid<S: System<f64, DVector<f64>>, T>(
+        &self,
+        system: S,
+        y0: Vec<f64>,
+        start: T,
+        options: &ForecastOptions,
+        forecast: &mut Forecast,
+        decode: impl Fn(&[f64]) -> T,
+    ) -> (Vec<f64>, Vec<T>) {
+        let s_end = stretched(self.x_end);
+        // Absolute tolerance in the state's own units (1e-7 of the lithium inventory, 1e-7 nm);
+        // the first step is one cycle, the automatic choice being far smaller.
+        let mut stepper = Dopri5::from_param(
+            system,
+            0.0,
+            s_end,
+            s_end,
+            DVector::from_vec(y0),
+            options.relative_tolerance * self.tolerance_factor,
+            ABSOLUTE_TOLERANCE * self.tolerance_factor,
+            0.9,
+            0.04,
+            0.2,
+            self.step_growth_max,
+            s_end,
+            stretched(FIRST_STEP.min(self.x_end)),
+            100_000,
+            1000,
+            OutputType::Continuous,
+        );
+        let mut continuous = ContinuousOutputModel::default();
+        match stepper.integrate_with_continuous_output_model(&mut continuous) {
+            Ok(stats) => {
+                forecast.accepted_steps = stats.accepted_steps as usize;
+                forecast.rejected_steps = stats.rejected_steps as usize;
+            }
+            Err(e) => {
+                let x = stepper.x_out().last().copied().map_or(0.0, unstretched);
+                self.failure
+                    .borrow_mut()
+                    .get_or_insert((x, RateFailure::Failed(ForecastFailure::Integrator { detail: e.to_string() })));
+            }
         }
-        Err(e) => {
-            let x = stepper.x_out().last().copied().map_or(0.0, unstretched);
-            forecaster
-                .failure
-                .borrow_mut()
-                .get_or_insert((x, RateFailure::Failed(ForecastFailure::Integrator { detail: e.to_string() })));
+        let mut xs = vec![0.0];
+        let mut ys = vec![start];
+        let reached = if continuous_is_empty(&continuous) { 0.0 } else { continuous.bounds().1 };
+        // A failed rate evaluation zeroes that stage's rates and the step holding it may still be
+        // accepted, so its continuous output can run past the failure: report nothing beyond it.
+        let failed_at = self.failure.borrow().as_ref().map(|(x, _)| stretched(*x));
+        let reached = failed_at.map_or(reached, |s| reached.min(s));
+        let mut k = 1;
+        loop {
+            let x = (k as f64 * self.spacing).min(self.x_end);
+            let s = stretched(x);
+            if s > reached + 1e-12 {
+                break;
+            }
+            let Some(y) = continuous.evaluate(s.min(reached)) else { break };
+            xs.push(x);
+            ys.push(decode(y.as_slice()));
+            if x >= self.x_end {
+                break;
+            }
+            k += 1;
         }
+        (xs, ys)
     }
-    let mut xs = vec![0.0];
-    let mut ys = vec![start];
-    let reached = if continuous_is_empty(&continuous) { 0.0 } else { continuous.bounds().1 };
-    // A failed rate evaluation zeroes that stage's rates and the step holding it may still be
-    // accepted, so its continuous output can run past the failure: report nothing beyond it.
-    let failed_at = forecaster.failure.borrow().as_ref().map(|(x, _)| stretched(*x));
-    let reached = failed_at.map_or(reached, |s| reached.min(s));
-    let mut k = 1;
-    loop {
-        let x = (k as f64 * spacing).min(x_end);
-        let s = stretched(x);
-        if s > reached + 1e-12 {
-            break;
-        }
-        let Some(y) = continuous.evaluate(s.min(reached)) else { break };
-        xs.push(x);
-        ys.push(from_integrator(y.as_slice()));
-        if x >= x_end {
-            break;
-        }
-        k += 1;
-    }
-    (xs, ys)
 }
 
 pub(super) fn continuous_is_empty(model: &ContinuousOutputModel<f64, DVector<f64>>) -> bool {

@@ -25,8 +25,7 @@ use crate::aging::{health_of, mechanisms_for, AgingContext, AgingState, Componen
 use crate::cycle::pack::{simulate_pack_cycle, simulate_pack_periodic, PackLayout, PackModel, PackRecord, PackRun};
 use crate::cycle::{balance_cell, Balance, CellState, DutyCycle, Health, Scenario, SolverSettings, StepProfile};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
-use ode_solvers::continuous_output_model::ContinuousOutputModel;
-use ode_solvers::{DVector, Dopri5, OutputType, System};
+use ode_solvers::{DVector, System};
 use std::cell::RefCell;
 
 /// What one simulated pack cycle showed: the pack's snapshot (peaks over all cells) and each
@@ -510,65 +509,23 @@ fn pack_jumping(
     options: &ForecastOptions,
     forecast: &mut Forecast,
 ) -> (Vec<f64>, Vec<Vec<AgingState>>) {
-    let y0 = DVector::from_vec(pack_to_integrator(&start));
-    let s_end = stretched(x_end);
+    let y0 = pack_to_integrator(&start);
     // Root-mean-square over n·STATE_LEN entries of which n·STEERING steer: scaling the
     // tolerances by √(n·STEERING / (n·STATE_LEN)) makes the norm √(mean of cells' norms²).
-    let factor = (STEERING as f64 * forecaster.layout.len() as f64 / y0.len() as f64).sqrt();
-    let mut stepper = Dopri5::from_param(
-        PackRateSystem(forecaster),
-        0.0,
-        s_end,
-        s_end,
-        y0,
-        options.relative_tolerance * factor,
-        ABSOLUTE_TOLERANCE * factor,
-        0.9,
-        0.04,
-        0.2,
-        10.0,
-        s_end,
-        stretched(FIRST_STEP.min(x_end)),
-        100_000,
-        1000,
-        OutputType::Continuous,
-    );
-    let mut continuous = ContinuousOutputModel::default();
-    match stepper.integrate_with_continuous_output_model(&mut continuous) {
-        Ok(stats) => {
-            forecast.accepted_steps = stats.accepted_steps as usize;
-            forecast.rejected_steps = stats.rejected_steps as usize;
-        }
-        Err(e) => {
-            let x = stepper.x_out().last().copied().map_or(0.0, unstretched);
-            forecaster
-                .failure
-                .borrow_mut()
-                .get_or_insert((x, RateFailure::Failed(ForecastFailure::Integrator { detail: e.to_string() })));
-        }
-    }
-    let mut xs = vec![0.0];
-    let mut ys = vec![start];
-    let reached = if continuous_is_empty(&continuous) { 0.0 } else { continuous.bounds().1 };
-    let failed_at = forecaster.failure.borrow().as_ref().map(|(x, _)| stretched(*x));
-    let reached = failed_at.map_or(reached, |s| reached.min(s));
-    let mut k = 1;
-    loop {
-        let x = (k as f64 * spacing).min(x_end);
-        let s = stretched(x);
-        if s > reached + 1e-12 {
-            break;
-        }
-        let Some(y) = continuous.evaluate(s.min(reached)) else { break };
-        xs.push(x);
-        ys.push(pack_from_integrator(y.as_slice()));
-        if x >= x_end {
-            break;
-        }
-        k += 1;
-    }
-    (xs, ys)
+    let tolerance_factor = (STEERING as f64 * forecaster.layout.len() as f64 / y0.len() as f64).sqrt();
+    let jump = Jump {
+        x_end,
+        spacing,
+        tolerance_factor,
+        // The pack keeps the growth it was checked with (the lone cell's is capped lower).
+        step_growth_max: PACK_STEP_GROWTH_MAX,
+        failure: &forecaster.failure,
+    };
+    jump.on_grid(PackRateSystem(forecaster), y0, start, options, forecast, pack_from_integrator)
 }
+
+/// Largest growth of the pack integrator's step from one step to the next.
+const PACK_STEP_GROWTH_MAX: f64 = 10.0;
 
 fn pack_every_cycle(
     forecaster: &PackForecaster,
