@@ -171,7 +171,7 @@ impl PackModel {
             .collect();
         let mut solver = PackSolver::new(self, healths);
         let ambients = vec![temperature_k; self.layout.len()];
-        solver.prepare(&states, &ambients);
+        solver.prepare(&states, &ambients, 0.0);
         let rest = solver.trial(&states, Control::Current(0.0), 0.0, 0.0)?;
         let loaded = solver.trial(&states, Control::Current(current_a), duration_s, current_a)?;
         Some((rest.voltage - loaded.voltage) / current_a)
@@ -226,11 +226,11 @@ impl<'a> PackSolver<'a> {
         }
     }
 
-    /// Conditions of every cell for the next step from `states` at per-position `ambients_k`.
-    fn prepare(&mut self, states: &[CellState], ambients_k: &[f64]) {
+    /// Conditions of every cell for a step of `dt` from `states` at per-position `ambients_k`.
+    fn prepare(&mut self, states: &[CellState], ambients_k: &[f64], dt: f64) {
         self.conds.clear();
         for (i, state) in states.iter().enumerate() {
-            self.conds.push(self.model.models[i].conditions(&self.healths[i], state.temperature_k, ambients_k[i]));
+            self.conds.push(self.model.models[i].step_conditions(&self.healths[i], state, dt, ambients_k[i]));
             self.temperatures[i] = state.temperature_k;
         }
     }
@@ -517,7 +517,7 @@ pub fn simulate_pack_cycle(
         cell_record.steps.clear();
         model.models[i].start_stress_histories(cell_record);
     }
-    stepper.solver.prepare(states, &stepper.ambients);
+    stepper.solver.prepare(states, &stepper.ambients, 0.0);
     let start = stepper.solver.trial(states, Control::Current(0.0), 0.0, 0.0).ok_or_else(|| CycleError::Failed {
         step: 0,
         label: "start".into(),
@@ -576,6 +576,16 @@ enum PackJudged {
     Accept(PackTrial),
     Retry(f64),
     GiveUp,
+}
+
+/// Largest change of any cell over a trial: state of charge, voltage (V), temperature (K) and
+/// relative current.
+#[derive(Debug, Clone, Copy, Default)]
+struct PackChanges {
+    soc: f64,
+    voltage: f64,
+    temperature: f64,
+    current: f64,
 }
 
 struct PackStepper<'a> {
@@ -718,27 +728,29 @@ impl PackStepper<'_> {
 
     /// Largest change over the cells of (state of charge, cell voltage, temperature) from the
     /// last accepted points to a trial.
-    fn changes(&self, record: &PackRecord, trial: &PackTrial) -> (f64, f64, f64) {
-        let (mut soc, mut voltage, mut temperature) = (0.0f64, 0.0f64, 0.0f64);
+    fn changes(&self, record: &PackRecord, trial: &PackTrial) -> PackChanges {
+        let mut c = PackChanges::default();
         for (i, t) in trial.cells.iter().enumerate() {
             let previous = record.cells[i].trace.last().expect("trace starts with the initial point");
-            soc = soc.max((self.cell_soc(i, t) - previous.soc).abs());
-            voltage = voltage.max((t.voltage - previous.voltage_v).abs());
-            temperature = temperature.max((t.temperature_k - previous.temperature_k).abs());
+            c.soc = c.soc.max((self.cell_soc(i, t) - previous.soc).abs());
+            c.voltage = c.voltage.max((t.voltage - previous.voltage_v).abs());
+            c.temperature = c.temperature.max((t.temperature_k - previous.temperature_k).abs());
+            c.current = c.current.max(relative_current_change(t.current, previous.current_a));
         }
-        (soc, voltage, temperature)
+        c
     }
 
-    fn judge(&self, dt: f64, trial: Option<PackTrial>, record: &PackRecord, check_voltage: bool) -> PackJudged {
+    fn judge(&self, dt: f64, trial: Option<PackTrial>, record: &PackRecord, checks: StepChecks) -> PackJudged {
         let s = self.settings;
         match trial {
             None if dt < SHORTEST_RETRY_STEP_S => PackJudged::GiveUp,
             None => PackJudged::Retry(dt * FAILED_TRIAL_SHRINK),
             Some(trial) if dt > s.first_dt_s * SHORTEST_REFINED_STEP_FRACTION => {
-                let (soc, voltage, temperature) = self.changes(record, &trial);
-                let coarse = soc > COARSE_STEP_SLACK * s.max_soc_step
-                    || temperature > COARSE_STEP_SLACK * s.max_temperature_step_k
-                    || (check_voltage && voltage > COARSE_STEP_SLACK * s.max_voltage_step_v);
+                let c = self.changes(record, &trial);
+                let coarse = c.soc > COARSE_STEP_SLACK * s.max_soc_step
+                    || c.temperature > COARSE_STEP_SLACK * s.max_temperature_step_k
+                    || (checks.voltage && c.voltage > COARSE_STEP_SLACK * s.max_voltage_step_v)
+                    || (checks.held_current && c.current > COARSE_STEP_SLACK * s.max_held_current_step);
                 if coarse {
                     PackJudged::Retry(dt * COARSE_TRIAL_SHRINK)
                 } else {
@@ -749,13 +761,15 @@ impl PackStepper<'_> {
         }
     }
 
-    fn next_dt(&self, changes: (f64, f64, f64), dt: f64, check_voltage: bool, max_dt: f64) -> f64 {
+    fn next_dt(&self, c: PackChanges, dt: f64, checks: StepChecks, max_dt: f64) -> f64 {
         let s = self.settings;
         let ratio = |change: f64, limit: f64| if change > NEGLIGIBLE_CHANGE { limit / change } else { f64::INFINITY };
-        let (soc, voltage, temperature) = changes;
-        let mut r = ratio(soc, s.max_soc_step).min(ratio(temperature, s.max_temperature_step_k));
-        if check_voltage {
-            r = r.min(ratio(voltage, s.max_voltage_step_v));
+        let mut r = ratio(c.soc, s.max_soc_step).min(ratio(c.temperature, s.max_temperature_step_k));
+        if checks.voltage {
+            r = r.min(ratio(c.voltage, s.max_voltage_step_v));
+        }
+        if checks.held_current {
+            r = r.min(ratio(c.current, s.max_held_current_step));
         }
         (dt * r.clamp(MIN_STEP_RATIO, MAX_STEP_RATIO)).min(max_dt)
     }
@@ -808,10 +822,11 @@ impl PackStepper<'_> {
                 ));
             }
             dt = dt.min(time_end - elapsed).max(MIN_STEP_S);
-            self.solver.prepare(states, &self.ambients);
+            self.solver.prepare(states, &self.ambients, dt);
             self.predict_split(dt);
             let trial = self.solver.trial(states, control, dt, self.current_guess);
-            let trial = match self.judge(dt, trial, record, !first) {
+            let checks = StepChecks::of(Some(step.drive), first);
+            let trial = match self.judge(dt, trial, record, checks) {
                 PackJudged::Accept(trial) => trial,
                 PackJudged::Retry(shorter) => {
                     dt = shorter;
@@ -849,7 +864,7 @@ impl PackStepper<'_> {
             }
             charge = passed;
             elapsed += dt;
-            dt = self.next_dt(changes, trial.dt, !first, max_dt);
+            dt = self.next_dt(changes, trial.dt, checks, max_dt);
             first = false;
         }
     }

@@ -61,6 +61,10 @@ pub struct CellState {
     pub neg_modes: Vec<f64>,
     pub pos_modes: Vec<f64>,
     pub temperature_k: f64,
+    /// Rate of temperature change over the last accepted step, K/s. The next step takes its
+    /// temperature-dependent properties at the temperature this predicts for the step's middle
+    /// ([`CellModel::step_conditions`]).
+    pub temperature_rate_k_s: f64,
     /// Lithium plated on the negative this cycle that can still strip, C.
     pub plated_coulomb: f64,
     /// Lithium plated this cycle and isolated at once (dead), C. The slow state takes it out of
@@ -112,7 +116,10 @@ pub struct CellModel {
 /// Everything a trial step needs that stays fixed within it.
 #[derive(Debug, Clone, Copy)]
 pub(super) struct StepConditions {
+    /// Temperature the step's properties are taken at (its predicted middle), K.
     temperature_k: f64,
+    /// Temperature at the step's start, where the thermal balance starts, K.
+    start_temperature_k: f64,
     ambient_k: f64,
     neg_diffusivity: f64,
     pos_diffusivity: f64,
@@ -224,6 +231,7 @@ impl CellModel {
             neg_modes: self.neg.modes.uniform(x),
             pos_modes: self.pos.modes.uniform(y),
             temperature_k,
+            temperature_rate_k_s: 0.0,
             plated_coulomb: 0.0,
             dead_coulomb: 0.0,
         }
@@ -296,12 +304,29 @@ impl CellModel {
         (self.neg.modes.shells(&state.neg_modes), self.pos.modes.shells(&state.pos_modes))
     }
 
+    /// Conditions of a step of length `dt` from `state`: properties at the temperature the last
+    /// step's rate of change predicts for this step's middle. Taken at the start instead, the
+    /// diffusivity lags the heating by half a step and the stress peak early in a discharge comes
+    /// out 0.75 % high at the default steps (the error is first order in the step, this second).
+    pub(super) fn step_conditions(
+        &self,
+        health: &Health,
+        state: &CellState,
+        dt: f64,
+        ambient_k: f64,
+    ) -> StepConditions {
+        let middle_k = state.temperature_k + 0.5 * dt * state.temperature_rate_k_s;
+        StepConditions { start_temperature_k: state.temperature_k, ..self.conditions(health, middle_k, ambient_k) }
+    }
+
+    /// Conditions with every property at `temperature_k`, which is also where the step starts.
     pub(super) fn conditions(&self, health: &Health, temperature_k: f64, ambient_k: f64) -> StepConditions {
         let cell = &self.cell;
         let t_ref = cell.reference_temperature_k;
         let (n, p) = (&cell.negative, &cell.positive);
         StepConditions {
             temperature_k,
+            start_temperature_k: temperature_k,
             ambient_k,
             neg_diffusivity: n.diffusivity_m2_s * arrhenius(n.diffusivity_activation_j_mol, temperature_k, t_ref),
             pos_diffusivity: p.diffusivity_m2_s * arrhenius(p.diffusivity_activation_j_mol, temperature_k, t_ref),
@@ -534,7 +559,7 @@ impl CellModel {
             + (cond.temperature_k - cell.reference_temperature_k) * self.entropic_v_k();
         let heat = bernardi_heat(current, ocv, voltage, cond.temperature_k, self.entropic_v_k()) + exchanged_heat_w;
         let temperature_k = advance_temperature(
-            cond.temperature_k,
+            cond.start_temperature_k,
             cond.ambient_k,
             heat,
             cell.heat_capacity_j_k(),
@@ -570,6 +595,9 @@ impl CellModel {
         let pos_flux = trial.current / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
         scratch.neg.apply(&mut state.neg_modes, neg_flux);
         scratch.pos.apply(&mut state.pos_modes, pos_flux);
+        if trial.dt > 0.0 {
+            state.temperature_rate_k_s = (trial.temperature_k - state.temperature_k) / trial.dt;
+        }
         state.temperature_k = trial.temperature_k;
         if trial.plating_current < 0.0 {
             let deposited = -trial.plating_current * trial.dt;
