@@ -578,14 +578,15 @@ enum PackJudged {
     GiveUp,
 }
 
-/// Largest change of any cell over a trial: state of charge, voltage (V), temperature (K) and
-/// relative current.
+/// Largest change of any cell over a trial: state of charge, voltage (V), temperature (K),
+/// relative current and the negative's potential near lithium (V).
 #[derive(Debug, Clone, Copy, Default)]
 struct PackChanges {
     soc: f64,
     voltage: f64,
     temperature: f64,
     current: f64,
+    plating_potential: f64,
 }
 
 struct PackStepper<'a> {
@@ -736,6 +737,8 @@ impl PackStepper<'_> {
             c.voltage = c.voltage.max((t.voltage - previous.voltage_v).abs());
             c.temperature = c.temperature.max((t.temperature_k - previous.temperature_k).abs());
             c.current = c.current.max(relative_current_change(t.current, previous.current_a));
+            c.plating_potential =
+                c.plating_potential.max(plating_potential_change(t.neg_potential, previous.neg_potential_v));
         }
         c
     }
@@ -750,7 +753,8 @@ impl PackStepper<'_> {
                 let coarse = c.soc > COARSE_STEP_SLACK * s.max_soc_step
                     || c.temperature > COARSE_STEP_SLACK * s.max_temperature_step_k
                     || (checks.voltage && c.voltage > COARSE_STEP_SLACK * s.max_voltage_step_v)
-                    || (checks.held_current && c.current > COARSE_STEP_SLACK * s.max_held_current_step);
+                    || (checks.held_current && c.current > COARSE_STEP_SLACK * s.max_held_current_step)
+                    || (checks.plating && c.plating_potential > COARSE_STEP_SLACK * s.max_plating_potential_step_v);
                 if coarse {
                     PackJudged::Retry(dt * COARSE_TRIAL_SHRINK)
                 } else {
@@ -770,6 +774,9 @@ impl PackStepper<'_> {
         }
         if checks.held_current {
             r = r.min(ratio(c.current, s.max_held_current_step));
+        }
+        if checks.plating {
+            r = r.min(ratio(c.plating_potential, s.max_plating_potential_step_v));
         }
         (dt * r.clamp(MIN_STEP_RATIO, MAX_STEP_RATIO)).min(max_dt)
     }
@@ -825,7 +832,8 @@ impl PackStepper<'_> {
             self.solver.prepare(states, &self.ambients, dt);
             self.predict_split(dt);
             let trial = self.solver.trial(states, control, dt, self.current_guess);
-            let checks = StepChecks::of(Some(step.drive), first);
+            let plates = self.solver.model.models.iter().any(|m| m.cell.plating.is_some());
+            let checks = StepChecks::of(Some(step.drive), first, plates);
             let trial = match self.judge(dt, trial, record, checks) {
                 PackJudged::Accept(trial) => trial,
                 PackJudged::Retry(shorter) => {
