@@ -23,6 +23,53 @@ pub struct Balance {
     pub pos_capacity_coulomb: f64,
 }
 
+/// Points of the scan for the window ends across the feasible stoichiometries.
+const SCAN: usize = 200;
+/// The crossing of a window end is located to this, in negative stoichiometry (a billionth of
+/// the charge): far below anything reported, and reached in a handful of evaluations.
+const CROSSING_TOLERANCE: f64 = 1e-12;
+
+/// The stoichiometry in [a, b] where `ocv` meets `target`, given ocv(a) < target ≤ ocv(b)
+/// (or ≥ for the lower end): Illinois false position (regula falsi that halves the retained
+/// end's value when the same end is kept twice), stopping once the bracket is narrower than
+/// [`CROSSING_TOLERANCE`] or an iterate lands on the target.
+fn locate_crossing(ocv: &impl Fn(f64) -> f64, (mut a, fa): (f64, f64), (mut b, fb): (f64, f64), target: f64) -> f64 {
+    let (mut fa, mut fb) = (fa - target, fb - target);
+    let mut kept = 0;
+    for _ in 0..100 {
+        if b - a <= CROSSING_TOLERANCE || fa == fb {
+            break;
+        }
+        let m = (a * fb - b * fa) / (fb - fa);
+        // An iterate at (or past) an end by rounding falls back to the middle.
+        let m = if m <= a || m >= b { 0.5 * (a + b) } else { m };
+        let fm = ocv(m) - target;
+        if fm == 0.0 {
+            return m;
+        }
+        if (fm < 0.0) == (fa < 0.0) {
+            a = m;
+            fa = fm;
+            if kept == 1 {
+                fb *= 0.5;
+            }
+            kept = 1;
+        } else {
+            b = m;
+            fb = fm;
+            if kept == -1 {
+                fa *= 0.5;
+            }
+            kept = -1;
+        }
+    }
+    if fa.abs() < fb.abs() {
+        a
+    } else {
+        b
+    }
+}
+
 /// Balances the cell at reference temperature. None when no lithium can be cycled in the
 /// window (the inventory or an electrode is gone).
 pub fn balance_cell(cell: &Cell, health: &Health) -> Option<Balance> {
@@ -43,30 +90,30 @@ pub fn balance_cell(cell: &Cell, health: &Health) -> Option<Balance> {
     }
     // OCV rises with x (charging fills the negative). Scan upward for the first crossing of
     // each window end, so a fit misbehaving beyond the window cannot mislead the search; an
-    // end not reached inside the feasible range is held at its bound.
-    const SCAN: usize = 200;
+    // end not reached inside the feasible range is held at its bound. The grid's values are
+    // kept, so the downward scan for the lower end evaluates nothing again.
     let grid = |i: usize| x_lo + (x_hi - x_lo) * i as f64 / SCAN as f64;
-    let bisect = |mut a: f64, mut b: f64, target: f64| {
-        for _ in 0..60 {
-            let m = 0.5 * (a + b);
-            if ocv(m) < target {
-                a = m;
-            } else {
-                b = m;
-            }
+    let mut values = [f64::NAN; SCAN + 1];
+    let mut value = |i: usize| {
+        if values[i].is_nan() {
+            values[i] = ocv(grid(i));
         }
-        0.5 * (a + b)
+        values[i]
     };
-    let top = (1..=SCAN).find(|&i| ocv(grid(i)) >= cell.voltage_max_v);
+    let top = (1..=SCAN).find(|&i| value(i) >= cell.voltage_max_v);
     let x_full = match top {
-        Some(i) if ocv(grid(i - 1)) < cell.voltage_max_v => bisect(grid(i - 1), grid(i), cell.voltage_max_v),
+        Some(i) if value(i - 1) < cell.voltage_max_v => {
+            locate_crossing(&ocv, (grid(i - 1), value(i - 1)), (grid(i), value(i)), cell.voltage_max_v)
+        }
         Some(_) => x_lo,
         None => x_hi,
     };
     let top_index = top.unwrap_or(SCAN);
-    let bottom = (0..top_index).rev().find(|&i| ocv(grid(i)) <= cell.voltage_min_v);
+    let bottom = (0..top_index).rev().find(|&i| value(i) <= cell.voltage_min_v);
     let x_empty = match bottom {
-        Some(i) => bisect(grid(i), grid(i + 1), cell.voltage_min_v).min(x_full),
+        Some(i) => {
+            locate_crossing(&ocv, (grid(i), value(i)), (grid(i + 1), value(i + 1)), cell.voltage_min_v).min(x_full)
+        }
         None => x_lo,
     };
     Some(Balance {
@@ -109,5 +156,37 @@ impl Balance {
         let x = self.neg_stoich_empty + soc * (self.neg_stoich_full - self.neg_stoich_empty);
         let y = (health.lithium_inventory_coulomb - x * self.neg_capacity_coulomb) / self.pos_capacity_coulomb;
         (x, y)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Bisection to the last bit, the search the false position replaced.
+    fn bisected(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64, target: f64) -> f64 {
+        for _ in 0..200 {
+            let m = 0.5 * (a + b);
+            if f(m) < target {
+                a = m;
+            } else {
+                b = m;
+            }
+        }
+        0.5 * (a + b)
+    }
+
+    #[test]
+    fn crossings_match_bisection_on_smooth_and_staged_curves() {
+        // A cubic, and a staged curve as steep as graphite's plateaus (tanh steps 0.02 wide).
+        let cubic = |x: f64| x * x * x;
+        let staged = |x: f64| 0.1 + 0.2 * ((x - 0.5) / 0.02).tanh() + 0.05 * ((x - 0.2) / 0.01).tanh();
+        for (f, a, b, target) in
+            [(&cubic as &dyn Fn(f64) -> f64, 0.0, 1.0, 0.125), (&staged, 0.3, 0.7, 0.2), (&staged, 0.0, 0.6, 0.0)]
+        {
+            let located = locate_crossing(&f, (a, f(a)), (b, f(b)), target);
+            let reference = bisected(f, a, b, target);
+            assert!((located - reference).abs() < 10.0 * CROSSING_TOLERANCE, "{located} vs {reference}");
+        }
     }
 }
