@@ -417,7 +417,9 @@ pub fn run_pack_forecast(
         Err(failure) => return fail(forecast, failure),
     };
     let spacing = x_end / options.report_points.max(1) as f64;
-    let (xs, ys) = if options.every_cycle {
+    // Short horizons every cycle, as for a lone cell (jumping would simulate no fewer).
+    forecast.every_cycle = options.every_cycle || (forecaster.cycling() && x_end <= EVERY_CYCLE_UP_TO_CYCLES);
+    let (xs, ys) = if forecast.every_cycle {
         pack_every_cycle(&forecaster, fresh_states, x_end, spacing)
     } else {
         pack_jumping(&forecaster, fresh_states, x_end, spacing, options, &mut forecast)
