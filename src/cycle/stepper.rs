@@ -453,6 +453,19 @@ pub(super) fn relative_current_change(current: f64, previous: f64) -> f64 {
     }
 }
 
+/// First guess of a held voltage's current after `dt`: a held current decays nearly
+/// geometrically, so the last two accepted points of the step (the same sign) extrapolate it
+/// far closer than the last value alone, which saves the solver an iteration; `otherwise` when
+/// the step has no two such points (a current drive passes its own current through).
+fn held_current_guess(record: &CycleRecord, step: usize, dt: f64, otherwise: f64) -> f64 {
+    let [.., before, last] = record.trace.as_slice() else { return otherwise };
+    let ratio = last.current_a / before.current_a;
+    if last.step != step || before.step != step || last.dt_s <= 0.0 || !(ratio > 0.0 && ratio.is_finite()) {
+        return otherwise;
+    }
+    last.current_a * ratio.powf(dt / last.dt_s)
+}
+
 /// What becomes of a trial step.
 enum Judged {
     Accept(Trial),
@@ -581,7 +594,9 @@ impl Stepper<'_> {
             dt = dt.min(time_end - elapsed).max(MIN_STEP_S);
             let previous = *record.trace.last().expect("trace starts with the initial point");
             let cond = self.model.step_conditions(self.health, state, dt, self.ambient_at(None));
-            let trial = self.model.trial(state, &cond, control, dt, self.current_guess, &mut self.scratch);
+            let guess =
+                if first { self.current_guess } else { held_current_guess(record, index, dt, self.current_guess) };
+            let trial = self.model.trial(state, &cond, control, dt, guess, &mut self.scratch);
             let checks = StepChecks::of(Some(step.drive), first, self.model.cell.plating.is_some());
             let trial = match self.judge(dt, trial, &previous, checks) {
                 Judged::Accept(trial) => trial,
