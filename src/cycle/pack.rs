@@ -578,17 +578,6 @@ enum PackJudged {
     GiveUp,
 }
 
-/// Largest change of any cell over a trial: state of charge, voltage (V), temperature (K),
-/// relative current and the negative's potential near lithium (V).
-#[derive(Debug, Clone, Copy, Default)]
-struct PackChanges {
-    soc: f64,
-    voltage: f64,
-    temperature: f64,
-    current: f64,
-    plating_potential: f64,
-}
-
 struct PackStepper<'a> {
     solver: PackSolver<'a>,
     balances: &'a [Balance],
@@ -727,20 +716,12 @@ impl PackStepper<'_> {
         self.margins = out;
     }
 
-    /// Largest change over the cells of (state of charge, cell voltage, temperature) from the
-    /// last accepted points to a trial.
-    fn changes(&self, record: &PackRecord, trial: &PackTrial) -> PackChanges {
-        let mut c = PackChanges::default();
-        for (i, t) in trial.cells.iter().enumerate() {
+    /// Largest change over the cells from the last accepted points to a trial.
+    fn changes(&self, record: &PackRecord, trial: &PackTrial) -> StepChanges {
+        trial.cells.iter().enumerate().fold(StepChanges::default(), |largest, (i, t)| {
             let previous = record.cells[i].trace.last().expect("trace starts with the initial point");
-            c.soc = c.soc.max((self.cell_soc(i, t) - previous.soc).abs());
-            c.voltage = c.voltage.max((t.voltage - previous.voltage_v).abs());
-            c.temperature = c.temperature.max((t.temperature_k - previous.temperature_k).abs());
-            c.current = c.current.max(relative_current_change(t.current, previous.current_a));
-            c.plating_potential =
-                c.plating_potential.max(plating_potential_change(t.neg_potential, previous.neg_potential_v));
-        }
-        c
+            largest.max(StepChanges::between(previous, t, self.cell_soc(i, t)))
+        })
     }
 
     fn judge(&self, dt: f64, trial: Option<PackTrial>, record: &PackRecord, checks: StepChecks) -> PackJudged {
@@ -749,13 +730,7 @@ impl PackStepper<'_> {
             None if dt < SHORTEST_RETRY_STEP_S => PackJudged::GiveUp,
             None => PackJudged::Retry(dt * FAILED_TRIAL_SHRINK),
             Some(trial) if dt > s.first_dt_s * SHORTEST_REFINED_STEP_FRACTION => {
-                let c = self.changes(record, &trial);
-                let coarse = c.soc > COARSE_STEP_SLACK * s.max_soc_step
-                    || c.temperature > COARSE_STEP_SLACK * s.max_temperature_step_k
-                    || (checks.voltage && c.voltage > COARSE_STEP_SLACK * s.max_voltage_step_v)
-                    || (checks.held_current && c.current > COARSE_STEP_SLACK * s.max_held_current_step)
-                    || (checks.plating && c.plating_potential > COARSE_STEP_SLACK * s.max_plating_potential_step_v);
-                if coarse {
+                if self.changes(record, &trial).too_coarse(checks, s) {
                     PackJudged::Retry(dt * COARSE_TRIAL_SHRINK)
                 } else {
                     PackJudged::Accept(trial)
@@ -763,22 +738,6 @@ impl PackStepper<'_> {
             }
             Some(trial) => PackJudged::Accept(trial),
         }
-    }
-
-    fn next_dt(&self, c: PackChanges, dt: f64, checks: StepChecks, max_dt: f64) -> f64 {
-        let s = self.settings;
-        let ratio = |change: f64, limit: f64| if change > NEGLIGIBLE_CHANGE { limit / change } else { f64::INFINITY };
-        let mut r = ratio(c.soc, s.max_soc_step).min(ratio(c.temperature, s.max_temperature_step_k));
-        if checks.voltage {
-            r = r.min(ratio(c.voltage, s.max_voltage_step_v));
-        }
-        if checks.held_current {
-            r = r.min(ratio(c.current, s.max_held_current_step));
-        }
-        if checks.plating {
-            r = r.min(ratio(c.plating_potential, s.max_plating_potential_step_v));
-        }
-        (dt * r.clamp(MIN_STEP_RATIO, MAX_STEP_RATIO)).min(max_dt)
     }
 
     fn control(drive: Drive) -> Control {
@@ -808,6 +767,7 @@ impl PackStepper<'_> {
         let mut charge = 0.0;
         let mut dt = self.settings.first_dt_s;
         let mut first = true;
+        let plates = self.solver.model.models.iter().any(|m| m.cell.plating.is_some());
         self.split_start.clone_from(&self.solver.currents);
         self.split_rate.fill(0.0);
         self.current_guess = match step.drive {
@@ -832,7 +792,6 @@ impl PackStepper<'_> {
             self.solver.prepare(states, &self.ambients, dt);
             self.predict_split(dt);
             let trial = self.solver.trial(states, control, dt, self.current_guess);
-            let plates = self.solver.model.models.iter().any(|m| m.cell.plating.is_some());
             let checks = StepChecks::of(Some(step.drive), first, plates);
             let trial = match self.judge(dt, trial, record, checks) {
                 PackJudged::Accept(trial) => trial,
@@ -872,7 +831,7 @@ impl PackStepper<'_> {
             }
             charge = passed;
             elapsed += dt;
-            dt = self.next_dt(changes, trial.dt, checks, max_dt);
+            dt = (trial.dt * changes.step_ratio(checks, self.settings)).min(max_dt);
             first = false;
         }
     }

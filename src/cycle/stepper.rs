@@ -453,10 +453,72 @@ pub(super) fn relative_current_change(current: f64, previous: f64) -> f64 {
     }
 }
 
-/// First guess of a held voltage's current after `dt`: a held current decays nearly
-/// geometrically, so the last two accepted points of the step (the same sign) extrapolate it
-/// far closer than the last value alone, which saves the solver an iteration; `otherwise` when
-/// the step has no two such points (a current drive passes its own current through).
+/// The largest changes over a trial that limit the step (of any cell, for a pack): state of
+/// charge, terminal voltage (V), temperature (K), relative current and the negative's potential
+/// near lithium (V). One judgement and one next step for the lone cell and the pack.
+#[derive(Debug, Clone, Copy, Default)]
+pub(super) struct StepChanges {
+    soc: f64,
+    voltage: f64,
+    temperature: f64,
+    current: f64,
+    plating_potential: f64,
+}
+
+impl StepChanges {
+    /// From the last accepted point to a trial that ends at state of charge `soc`.
+    pub(super) fn between(previous: &TracePoint, trial: &Trial, soc: f64) -> StepChanges {
+        StepChanges {
+            soc: (soc - previous.soc).abs(),
+            voltage: (trial.voltage - previous.voltage_v).abs(),
+            temperature: (trial.temperature_k - previous.temperature_k).abs(),
+            current: relative_current_change(trial.current, previous.current_a),
+            plating_potential: plating_potential_change(trial.neg_potential, previous.neg_potential_v),
+        }
+    }
+
+    /// The larger of each change.
+    pub(super) fn max(self, other: StepChanges) -> StepChanges {
+        StepChanges {
+            soc: self.soc.max(other.soc),
+            voltage: self.voltage.max(other.voltage),
+            temperature: self.temperature.max(other.temperature),
+            current: self.current.max(other.current),
+            plating_potential: self.plating_potential.max(other.plating_potential),
+        }
+    }
+
+    /// True when a change the checks cover exceeds its limit by more than [`COARSE_STEP_SLACK`].
+    pub(super) fn too_coarse(&self, checks: StepChecks, s: &SolverSettings) -> bool {
+        self.soc > COARSE_STEP_SLACK * s.max_soc_step
+            || self.temperature > COARSE_STEP_SLACK * s.max_temperature_step_k
+            || (checks.voltage && self.voltage > COARSE_STEP_SLACK * s.max_voltage_step_v)
+            || (checks.held_current && self.current > COARSE_STEP_SLACK * s.max_held_current_step)
+            || (checks.plating && self.plating_potential > COARSE_STEP_SLACK * s.max_plating_potential_step_v)
+    }
+
+    /// The next step's length as a multiple of this one's: each covered change brought to its
+    /// limit, within [`MIN_STEP_RATIO`]–[`MAX_STEP_RATIO`].
+    pub(super) fn step_ratio(&self, checks: StepChecks, s: &SolverSettings) -> f64 {
+        let ratio = |change: f64, limit: f64| if change > NEGLIGIBLE_CHANGE { limit / change } else { f64::INFINITY };
+        let mut r = ratio(self.soc, s.max_soc_step).min(ratio(self.temperature, s.max_temperature_step_k));
+        if checks.voltage {
+            r = r.min(ratio(self.voltage, s.max_voltage_step_v));
+        }
+        if checks.held_current {
+            r = r.min(ratio(self.current, s.max_held_current_step));
+        }
+        if checks.plating {
+            r = r.min(ratio(self.plating_potential, s.max_plating_potential_step_v));
+        }
+        r.clamp(MIN_STEP_RATIO, MAX_STEP_RATIO)
+    }
+}
+
+/// First guess of a controlled current after `dt` (a held voltage's or power's; a current
+/// drive ignores it): a held current decays nearly geometrically, so the last two accepted
+/// points of the step (the same sign) extrapolate it far closer than the last value alone,
+/// which saves the solver an iteration; `otherwise` when the step has no two such points.
 fn held_current_guess(record: &CycleRecord, step: usize, dt: f64, otherwise: f64) -> f64 {
     let [.., before, last] = record.trace.as_slice() else { return otherwise };
     let ratio = last.current_a / before.current_a;
@@ -505,18 +567,9 @@ impl Stepper<'_> {
         self.balance.soc_of_neg_stoich(trial.neg_mean)
     }
 
-    /// True when a trial moved the state more than the settings allow (with [`COARSE_STEP_SLACK`]).
-    fn too_coarse(&self, previous: &TracePoint, trial: &Trial, checks: StepChecks) -> bool {
-        let s = self.settings;
-        (self.soc(trial) - previous.soc).abs() > COARSE_STEP_SLACK * s.max_soc_step
-            || (trial.temperature_k - previous.temperature_k).abs() > COARSE_STEP_SLACK * s.max_temperature_step_k
-            || (checks.voltage && (trial.voltage - previous.voltage_v).abs() > COARSE_STEP_SLACK * s.max_voltage_step_v)
-            || (checks.held_current
-                && relative_current_change(trial.current, previous.current_a)
-                    > COARSE_STEP_SLACK * s.max_held_current_step)
-            || (checks.plating
-                && plating_potential_change(trial.neg_potential, previous.neg_potential_v)
-                    > COARSE_STEP_SLACK * s.max_plating_potential_step_v)
+    /// How much a trial moved the state since the last accepted point.
+    fn changes(&self, previous: &TracePoint, trial: &Trial) -> StepChanges {
+        StepChanges::between(previous, trial, self.soc(trial))
     }
 
     /// Whether a trial of length `dt` (None: the cell model could not evaluate it) is accepted,
@@ -527,7 +580,7 @@ impl Stepper<'_> {
             None => Judged::Retry(dt * FAILED_TRIAL_SHRINK),
             Some(trial)
                 if dt > self.settings.first_dt_s * SHORTEST_REFINED_STEP_FRACTION
-                    && self.too_coarse(previous, &trial, checks) =>
+                    && self.changes(previous, &trial).too_coarse(checks, self.settings) =>
             {
                 Judged::Retry(dt * COARSE_TRIAL_SHRINK)
             }
@@ -537,21 +590,7 @@ impl Stepper<'_> {
 
     /// Next step length from how much the accepted step changed the state.
     fn next_dt(&self, previous: &TracePoint, trial: &Trial, checks: StepChecks, max_dt: f64) -> f64 {
-        let s = self.settings;
-        let ratio = |change: f64, limit: f64| if change > NEGLIGIBLE_CHANGE { limit / change } else { f64::INFINITY };
-        let mut r = ratio((self.soc(trial) - previous.soc).abs(), s.max_soc_step)
-            .min(ratio((trial.temperature_k - previous.temperature_k).abs(), s.max_temperature_step_k));
-        if checks.voltage {
-            r = r.min(ratio((trial.voltage - previous.voltage_v).abs(), s.max_voltage_step_v));
-        }
-        if checks.held_current {
-            r = r.min(ratio(relative_current_change(trial.current, previous.current_a), s.max_held_current_step));
-        }
-        if checks.plating {
-            let change = plating_potential_change(trial.neg_potential, previous.neg_potential_v);
-            r = r.min(ratio(change, s.max_plating_potential_step_v));
-        }
-        (trial.dt * r.clamp(MIN_STEP_RATIO, MAX_STEP_RATIO)).min(max_dt)
+        (trial.dt * self.changes(previous, trial).step_ratio(checks, self.settings)).min(max_dt)
     }
 
     fn run_step(
