@@ -88,14 +88,17 @@ fn intercalation_and_plating_add_up_to_the_applied_current_at_every_step() {
     let (mut worst_current, mut worst_lithium) = (0.0f64, 0.0f64);
     for pair in record.trace.windows(2) {
         let (a, b) = (&pair[0], &pair[1]);
-        // Intercalation from the particle's own lithium change over the step (the current is
-        // constant within a step, positive on discharge, which empties the negative).
-        let intercalation = -(b.neg_mean_stoich - a.neg_mean_stoich) * balance.neg_capacity_coulomb / b.dt_s;
-        let scale = b.current_a.abs().max(1.0);
-        worst_current = worst_current.max((intercalation + b.plating_current_a - b.current_a).abs() / scale);
+        // Charges over the step (each current held or moving linearly within it, positive on
+        // discharge, which empties the negative): intercalation from the particle's own lithium
+        // change, plating from what was deposited and stripped.
+        let intercalation = -(b.neg_mean_stoich - a.neg_mean_stoich) * balance.neg_capacity_coulomb;
+        let (deposited, stripped) = b.plating_exchange_coulomb();
+        let plating = stripped - deposited;
+        let scale = b.current_a.abs().max(1.0) * b.dt_s;
+        worst_current = worst_current.max((intercalation + plating - b.charge_coulomb()).abs() / scale);
         // The lithium on the surface changes by what the plating current carried.
-        let lithium = b.plated_coulomb - a.plated_coulomb + b.plating_current_a * b.dt_s;
-        worst_lithium = worst_lithium.max(lithium.abs() / (scale * b.dt_s));
+        let lithium = b.plated_coulomb - a.plated_coulomb + plating;
+        worst_lithium = worst_lithium.max(lithium.abs() / scale);
     }
     println!("  largest current imbalance {worst_current:.2e}, lithium imbalance {worst_lithium:.2e} (relative)");
     let source = "derived: charge and lithium conservation of the split (intercalation + plating = applied)";

@@ -1,20 +1,22 @@
 //! The cycle model's default step limits against runs with finer steps.
 //!
-//! - One cycle, against every step limit and step length a quarter: the peak surface stress of the negative (within 0.3 %) and the length of a
-//!   constant-voltage hold (within 3 %), the two quantities whose step errors used to drive the
-//!   aging rates (the diffusivity taken at the step's start temperature, and a held current
-//!   falling freely over a step). Measured before the fixes: stress peak 0.75 % high, lab hold
-//!   12 % long; at this commit ≤ 0.19 % and ≤ 2.1 % (lab, tug, overnight).
+//! - One cycle, against every step limit and step length a quarter: the peak surface stress of
+//!   the negative (within 0.3 %) and the length of a constant-voltage hold (within 1 %), the two
+//!   quantities whose step errors used to drive the aging rates (the diffusivity taken at the
+//!   step's start temperature, and a held current carried at its end value over a step).
+//!   Measured before the fixes: stress peak 0.75 % high, lab hold 12 % long; with the current
+//!   moving linearly within a step, ≤ 0.19 % and ≤ 0.39 % (lab, tug, overnight).
 //! - Forecasts: every cycling demo's 3000-cycle forecast within 0.1 percentage points of state
 //!   of health and 0.5 % of resistance at every reported point of a reference with far finer
-//!   steps ([`reference`]), except the winter fast charge, held to 0.5 pp. Its remaining error
-//!   is first order in the hold after the fast charge: a held step carries its end current, the
-//!   hold's charge comes out 0.6 % low and the plating at its start follows (measured; left for
-//!   a current that varies within the step).
+//!   steps ([`reference`]), except the winter fast charge, held to 0.4 pp. Its knee turns on
+//!   plating and cracking rates that come out 1–3 % off at the 3 % state-of-charge steps of its
+//!   cold 2C charge; a 1/4 % limit in that step alone brings it to 0.09 pp (measured; left for
+//!   step limits chosen by an accuracy target).
 //!
 //! The bounds are the project's accuracy targets (common practice, no source). Measured at this
-//! commit: winter 0.46 pp; all others ≤ 0.06 pp and ≤ 0.13 %. Before this work, at the old
-//! 1 % / 10 mV steps: winter 0.54 pp, airport tug 0.12 pp.
+//! commit: winter 0.34 pp; all others ≤ 0.06 pp and ≤ 0.15 %. Before the current and heat moved
+//! linearly within a step: winter 0.46 pp, lab 0.0125 pp; at the old 1 % / 10 mV steps: winter
+//! 0.54 pp, airport tug 0.12 pp.
 
 mod common;
 
@@ -22,12 +24,20 @@ use common::cases;
 use fadecast::cycle::{simulate_periodic_cycle, CycleRecord, Health, SolverSettings};
 use fadecast::forecast::{run_cell_forecast, ForecastOptions, Horizon};
 
-/// The forecasts' reference: 1/4 % of state of charge, 2.5 mV, 0.125 K per step (a twelfth and
-/// an eighth of the defaults, a quarter of the limits used before they were loosened), every
-/// other limit and step length a quarter of the default.
+/// The forecasts' reference, fixed: 1/4 % of state of charge, 2.5 mV, 0.125 K, 1.25 % of a held
+/// current and 0.25 mV of the plating potential per step (a quarter of the limits used before
+/// the step limits were loosened, and finer than a sixteenth of the held-current default), every
+/// step length a quarter of the default.
 fn reference() -> SolverSettings {
     let quarter = finer(SolverSettings::default(), 4.0);
-    SolverSettings { max_soc_step: 0.0025, max_voltage_step_v: 0.0025, max_temperature_step_k: 0.125, ..quarter }
+    SolverSettings {
+        max_soc_step: 0.0025,
+        max_voltage_step_v: 0.0025,
+        max_temperature_step_k: 0.125,
+        max_held_current_step: 0.0125,
+        max_plating_potential_step_v: 0.25e-3,
+        ..quarter
+    }
 }
 
 /// Every limit on the step divided by `factor`.
@@ -64,7 +74,7 @@ fn stress_peak_and_hold_length_match_four_times_finer_steps() {
         };
         let length = (hold(&ours) / hold(&reference) - 1.0).abs();
         eprintln!("{demo}: peak stress {:.3} % off, hold {:.3} % off", stress * 100.0, length * 100.0);
-        assert!(length < 0.03, "{demo}: hold {:.3} % off", length * 100.0);
+        assert!(length < 0.01, "{demo}: hold {:.3} % off", length * 100.0);
     }
 }
 
@@ -88,7 +98,7 @@ fn default_steps_forecast_within_a_tenth_of_a_point_of_the_fine_reference() {
             .map(|(a, b)| ((a.resistance_mohm - b.resistance_mohm) / b.resistance_mohm).abs() * 100.0)
             .fold(0.0, f64::max);
         eprintln!("{demo}: worst |ΔSOH| {soh:.4} pp, worst |ΔR| {resistance:.4} %");
-        let soh_bound = if demo == cases::WINTER_FAST_CHARGE { 0.5 } else { 0.1 };
+        let soh_bound = if demo == cases::WINTER_FAST_CHARGE { 0.4 } else { 0.1 };
         if soh > soh_bound || resistance > 0.5 {
             failures.push(format!("{demo}: {soh:.4} pp (bound {soh_bound}), {resistance:.4} %"));
         }

@@ -40,6 +40,9 @@ pub struct SphereModes {
     /// input_k / λ_k (0 for the conserved mode, λ = 0): the gain of a step is this times
     /// (e^x − 1) and scales that temperature does not change, so no division per step.
     input_over_decay: Vec<f64>,
+    /// input_k / λ_k² (0 for the conserved mode): likewise for the gain of an input that ramps
+    /// within the step, which carries (e^x − 1 − x).
+    input_over_decay_squared: Vec<f64>,
     /// Rows that map modal coordinates to the last two shells, the first two shells and the
     /// volume mean.
     outer: Vec<f64>,
@@ -104,6 +107,8 @@ impl SphereModes {
         let row = |i: usize| (0..n).map(|k| to_shell[(i, k)]).collect::<Vec<f64>>();
         let decay: Vec<f64> = eigenvalues.iter().map(|&l| l.min(0.0)).collect();
         let input_over_decay = decay.iter().zip(&input).map(|(&l, &g)| if l < 0.0 { g / l } else { 0.0 }).collect();
+        let input_over_decay_squared =
+            decay.iter().zip(&input).map(|(&l, &g)| if l < 0.0 { g / (l * l) } else { 0.0 }).collect();
         let moments = |i: usize| shell_moments(i as f64 * h, (i + 1) as f64 * h);
         let hoop = hoop_rows(&to_shell, &volume);
         SphereModes {
@@ -115,6 +120,7 @@ impl SphereModes {
             decay,
             input,
             input_over_decay,
+            input_over_decay_squared,
             outer: row(n - 1),
             second_outer: row(n.saturating_sub(2)),
             inner: row(0),
@@ -158,17 +164,26 @@ impl SphereModes {
         &self.volume
     }
 
-    /// Fills `step` with the response of every mode over `dt` for the given particle:
-    /// q_k(dt) = decay_k · q_k(0) + gain_k · u.
+    /// Fills `step` with the response of every mode over `dt` for the given particle, to an
+    /// input that moves linearly from u₀ at the step's start to u₁ at its end (a constant input
+    /// is u₀ = u₁): q_k(dt) = decay_k · q_k(0) + gain_k · u₀ + ramp_gain_k · (u₁ − u₀).
+    ///
+    /// With μ the mode's rate and x = μ dt, the exact integrals over the step are
+    /// gain = g·dt·(e^x − 1)/x and ramp_gain = g·dt·(e^x − 1 − x)/x² (the exponential-integrator
+    /// functions φ₁ and φ₂: M. Hochbruck and A. Ostermann, "Exponential integrators", Acta
+    /// Numerica 19 (2010) 209–286, §2).
     pub fn step_factors(&self, radius_m: f64, diffusivity_m2_s: f64, dt_s: f64, step: &mut ModeStep) {
         let n = self.shells;
         let rate_scale = diffusivity_m2_s / (radius_m * radius_m);
         let input_scale = self.input_scale(radius_m, diffusivity_m2_s);
         // gain = g·input_scale·(e^x − 1)/(λ·rate_scale) = (g/λ)·(input_scale/rate_scale)·(e^x − 1).
         let gain_scale = input_scale / rate_scale;
+        // ramp_gain = g·input_scale·dt·(e^x − 1 − x)/x² = (g/λ²)·(gain_scale/(rate_scale·dt))·(e^x − 1 − x).
         let exponent_scale = rate_scale * dt_s;
+        let ramp_scale = gain_scale / exponent_scale;
         step.decay.resize(n, 0.0);
         step.gain.resize(n, 0.0);
+        step.ramp_gain.resize(n, 0.0);
         // Modes are slowest first: from the first one the step relaxes, all are relaxed.
         let live = self.decay.iter().position(|&l| l * exponent_scale < RELAXED_EXPONENT).unwrap_or(n);
         step.live = live;
@@ -177,22 +192,27 @@ impl SphereModes {
         }
         for k in 0..live {
             let x = self.decay[k] * exponent_scale;
-            step.gain[k] = if self.decay[k] == 0.0 {
-                self.input[k] * input_scale * dt_s
+            if self.decay[k] == 0.0 {
+                step.gain[k] = self.input[k] * input_scale * dt_s;
+                step.ramp_gain[k] = 0.5 * step.gain[k];
+            } else if x > -1e-3 {
+                // Series where the subtractions would cancel (truncation x⁶/720 and x⁵/5040).
+                let e_minus_one = x * (1.0 + x * (1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x / 120.0))));
+                let phi2 = 1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x * (1.0 / 120.0 + x / 720.0)));
+                step.gain[k] = self.input_over_decay[k] * gain_scale * e_minus_one;
+                step.ramp_gain[k] = self.input[k] * input_scale * dt_s * phi2;
             } else {
-                // e^x − 1 by its series where the subtraction would cancel (truncation x⁶/720).
-                let e_minus_one = if x > -1e-3 {
-                    x * (1.0 + x * (1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x / 120.0))))
-                } else {
-                    step.decay[k] - 1.0
-                };
-                self.input_over_decay[k] * gain_scale * e_minus_one
-            };
+                step.gain[k] = self.input_over_decay[k] * gain_scale * (step.decay[k] - 1.0);
+                step.ramp_gain[k] = self.input_over_decay_squared[k] * ramp_scale * (step.decay[k] - 1.0 - x);
+            }
         }
         for k in live..n {
-            // A relaxed mode sits at its steady value for the input: −g·input_scale/μ.
+            // A relaxed mode sits at its steady value for the input, lagging a ramp by its own
+            // time constant: −g·input_scale/μ per unit input, and (−1 − x)/x² of that gain.
+            let x = self.decay[k] * exponent_scale;
             step.decay[k] = 0.0;
             step.gain[k] = -self.input_over_decay[k] * gain_scale;
+            step.ramp_gain[k] = self.input_over_decay_squared[k] * ramp_scale * (-1.0 - x);
         }
     }
 
@@ -302,6 +322,9 @@ const RELAXED_EXPONENT: f64 = -37.0;
 pub struct ModeStep {
     pub decay: Vec<f64>,
     pub gain: Vec<f64>,
+    /// Response to an input that rises by one unit over the step from nil (see
+    /// [`SphereModes::step_factors`]).
+    pub ramp_gain: Vec<f64>,
     /// Modes before this index keep part of their start value; the rest relax completely
     /// (decay 0), so free responses need only the first `live`.
     pub live: usize,
@@ -312,6 +335,14 @@ impl ModeStep {
     pub fn apply(&self, modes: &mut [f64], u: f64) {
         for ((q, &d), &g) in modes.iter_mut().zip(&self.decay).zip(&self.gain) {
             *q = d * *q + g * u;
+        }
+    }
+
+    /// Advances modal coordinates in place with an input moving linearly from `start` to `end`.
+    pub fn apply_ramp(&self, modes: &mut [f64], start: f64, end: f64) {
+        let rise = end - start;
+        for (((q, &d), &g), &r) in modes.iter_mut().zip(&self.decay).zip(&self.gain).zip(&self.ramp_gain) {
+            *q = d * *q + g * start + r * rise;
         }
     }
 
@@ -339,6 +370,11 @@ impl ModeStep {
     /// Responses of several linear functionals to a unit input over the step.
     pub fn input_responses<const N: usize>(&self, rows: [&[f64]; N]) -> [f64; N] {
         rows.map(|row| row.iter().zip(&self.gain).map(|(r, g)| r * g).sum())
+    }
+
+    /// Responses of several linear functionals to an input rising from nil to one over the step.
+    pub fn ramp_responses<const N: usize>(&self, rows: [&[f64]; N]) -> [f64; N] {
+        rows.map(|row| row.iter().zip(&self.ramp_gain).map(|(r, g)| r * g).sum())
     }
 }
 
@@ -375,6 +411,51 @@ mod tests {
                 assert!((step.decay[k] - decay).abs() <= 1e-15, "dt {dt} mode {k}");
                 assert!((step.gain[k] - gain).abs() <= 1e-12 * gain.abs().max(1e-300), "dt {dt} mode {k}");
             }
+        }
+    }
+
+    #[test]
+    fn ramp_factors_match_the_direct_formulas_and_fine_constant_steps() {
+        // ramp_gain = g·s·dt·φ₂(μ dt), φ₂(x) = (eˣ − 1 − x)/x² (Hochbruck and Ostermann 2010, §2),
+        // relaxed modes included; and a ramped step against 4000 constant substeps at each
+        // substep's middle value (second order: error ~ (dt/4000)²).
+        let modes = SphereModes::new(16, Boundary::Flux);
+        let (r, d) = (5e-6, 5e-14);
+        let mut step = ModeStep::default();
+        for dt in [1e-6, 0.3, 30.0, 900.0, 1e5] {
+            modes.step_factors(r, d, dt, &mut step);
+            for k in 0..16 {
+                let x = modes.decay[k] * d / (r * r) * dt;
+                // Near nil by its series (the conserved mode's λ is round-off).
+                let phi2 = if x.abs() < 1e-3 { 0.5 + x / 6.0 + x * x / 24.0 } else { (x.exp() - 1.0 - x) / (x * x) };
+                let ramp = modes.input[k] / r * dt * phi2;
+                let tolerance = 1e-9 * ramp.abs() + 1e-300;
+                assert!(
+                    (step.ramp_gain[k] - ramp).abs() <= tolerance,
+                    "dt {dt} mode {k}: {} vs {ramp}",
+                    step.ramp_gain[k]
+                );
+            }
+            let (u0, u1) = (2e-5, -1e-5);
+            let mut ramped = modes.uniform(0.4);
+            step.apply_ramp(&mut ramped, u0, u1);
+            let n = 4000;
+            let mut fine = modes.uniform(0.4);
+            let mut sub = ModeStep::default();
+            modes.step_factors(r, d, dt / n as f64, &mut sub);
+            for i in 0..n {
+                sub.apply(&mut fine, u0 + (u1 - u0) * (i as f64 + 0.5) / n as f64);
+            }
+            let (a, b) = (modes.shells(&ramped), modes.shells(&fine));
+            let scale = 3.0 * u0.abs() * dt / r + 1e-12;
+            for (x, y) in a.iter().zip(&b) {
+                assert!((x - y).abs() <= 1e-6 * scale, "dt {dt}: {x} vs {y}");
+            }
+            // A flat ramp is the constant input.
+            let (mut flat, mut constant) = (modes.uniform(0.4), modes.uniform(0.4));
+            step.apply_ramp(&mut flat, u1, u1);
+            step.apply(&mut constant, u1);
+            assert_eq!(flat, constant);
         }
     }
 

@@ -24,7 +24,7 @@ pub mod thermal;
 pub use balance::{balance_cell, Balance};
 pub use cell::{Cell, Electrode};
 pub use protocol::{Drive, DutyCycle, Scenario, SeriesSignal, Step, StepEnd, StepProfile, TimeSeries};
-pub use record::{CycleRecord, EndReason, StepSummary, StressHistory, TracePoint};
+pub use record::{CycleRecord, EndReason, RampStart, StepSummary, StressHistory, TracePoint};
 pub use response::{CellModel, CellState, Health};
 pub use stepper::{
     simulate_cycle, simulate_periodic_cycle, simulate_periodic_with, CycleError, CycleRun, SolverSettings,

@@ -30,7 +30,7 @@
 
 use super::balance::Balance;
 use super::protocol::{Drive, Step, StepEnd, StepProfile};
-use super::record::{CycleRecord, EndReason, StepSummary, TracePoint};
+use super::record::{step_charge, CycleRecord, EndReason, RampStart, StepSummary, TracePoint};
 use super::response::{CellModel, CellState, Control, Evaluation, Health, Scratch, StepConditions, StepMaps, Trial};
 use super::stepper::*;
 use super::Cell;
@@ -182,10 +182,30 @@ impl PackModel {
 #[derive(Debug, Clone)]
 struct PackTrial {
     dt: f64,
+    /// The pack current at the step's start when it moves linearly within the step, A.
+    ramp_from: Option<f64>,
     /// Pack current (every group's), A, and pack voltage (sum of the groups' node voltages), V.
     current: f64,
     voltage: f64,
     cells: Vec<Trial>,
+}
+
+impl PackTrial {
+    /// Charge passed over the step, C: the end current's, or the trapezoid over a ramp.
+    fn charge_coulomb(&self) -> f64 {
+        step_charge(self.ramp_from, self.current, self.dt)
+    }
+}
+
+/// How currents move within a pack's trial step: not at all on a step's first trial; each
+/// cell's where it changes within the step (a held voltage or power, a cell that plates, or a
+/// parallel group sharing its current); the pack's, from this start, under a held voltage or
+/// power.
+#[derive(Debug, Clone, Copy)]
+struct Within {
+    first: bool,
+    cell_current_varies: bool,
+    pack_ramp_from: Option<f64>,
 }
 
 /// Solves a pack's trial steps: per-cell conditions, responses and scratch, reused.
@@ -204,6 +224,8 @@ struct PackSolver<'a> {
     slope_fresh: Vec<bool>,
     /// Start-of-step temperatures, K.
     temperatures: Vec<f64>,
+    /// The pack current the prepared step ramps from, A.
+    pack_ramp_from: Option<f64>,
     /// Each cell's last evaluation at its iterate current in this trial.
     evaluations: Vec<Option<Evaluation>>,
 }
@@ -222,17 +244,31 @@ impl<'a> PackSolver<'a> {
             slope: vec![0.0; n],
             slope_fresh: vec![false; n],
             temperatures: vec![0.0; n],
+            pack_ramp_from: None,
             evaluations: vec![None; n],
         }
     }
 
-    /// Conditions of every cell for a step of `dt` from `states` at per-position `ambients_k`.
+    /// Conditions of every cell for a step of `dt` from `states` at per-position `ambients_k`,
+    /// with every current and heat held over the step.
     fn prepare(&mut self, states: &[CellState], ambients_k: &[f64], dt: f64) {
         self.conds.clear();
         for (i, state) in states.iter().enumerate() {
             self.conds.push(self.model.models[i].step_conditions(&self.healths[i], state, dt, ambients_k[i]));
             self.temperatures[i] = state.temperature_k;
         }
+        self.pack_ramp_from = None;
+    }
+
+    /// The prepared step with each cell's current and heat moving within it as the lone cell's
+    /// do ([`within_step`]) from its last point in `cells`, and the pack's current as `within`
+    /// says.
+    fn move_within(&mut self, within: Within, cells: &[CycleRecord]) {
+        for (cond, record) in self.conds.iter_mut().zip(cells) {
+            let previous = record.trace.last().expect("trace starts with the initial point");
+            *cond = within_step(*cond, within.first, within.cell_current_varies, previous);
+        }
+        self.pack_ramp_from = within.pack_ramp_from;
     }
 
     /// Node voltage of cell i carrying `current`, keeping the evaluation to finish the trial.
@@ -401,7 +437,7 @@ impl<'a> PackSolver<'a> {
             };
             cells.push(trial?);
         }
-        Some(PackTrial { dt, current, voltage, cells })
+        Some(PackTrial { dt, ramp_from: self.pack_ramp_from, current, voltage, cells })
     }
 
     /// Heat flowing into cell i from its neighbours in the group at the step's start, W.
@@ -653,6 +689,7 @@ impl PackStepper<'_> {
             temperature_k: hottest,
             soc: self.pack_soc(trial, trial.current.signum()),
             step,
+            ramp_start: trial.ramp_from.map(|current_a| RampStart { current_a, plating_current_a: 0.0 }),
             ..TracePoint::default()
         });
     }
@@ -789,7 +826,16 @@ impl PackStepper<'_> {
                 ));
             }
             dt = dt.min(time_end - elapsed).max(MIN_STEP_S);
+            let within = Within {
+                first,
+                cell_current_varies: current_varies(step.drive, plates) || self.layout().parallel > 1,
+                pack_ramp_from: match record.pack.trace.last() {
+                    Some(p) if !first && matches!(step.drive, Drive::Voltage(_) | Drive::Power(_)) => Some(p.current_a),
+                    _ => None,
+                },
+            };
             self.solver.prepare(states, &self.ambients, dt);
+            self.solver.move_within(within, &record.cells);
             self.predict_split(dt);
             let trial = self.solver.trial(states, control, dt, self.current_guess);
             let checks = StepChecks::of(Some(step.drive), first, plates);
@@ -801,7 +847,7 @@ impl PackStepper<'_> {
                 }
                 PackJudged::GiveUp => return Err(self.fail(index, &step.label, describe(step.drive))),
             };
-            let passed = charge + trial.current * trial.dt;
+            let passed = charge + trial.charge_coulomb();
             self.end_margins(step, &trial, PackProgress { elapsed_s: elapsed + dt, charge_passed_coulomb: passed });
             let other_end = self.margins.iter().any(|(r, m)| *r != EndReason::Time && *m <= 0.0);
             let time_end_reached = self.margins.iter().any(|(r, m)| *r == EndReason::Time && *m <= 0.0);
@@ -812,7 +858,7 @@ impl PackStepper<'_> {
                     (trial, EndReason::Time)
                 };
                 self.accept(states, &trial, (index, &step.label), record)?;
-                charge += trial.current * trial.dt;
+                charge += trial.charge_coulomb();
                 elapsed += trial.dt;
                 return Ok(StepSummary {
                     index,
@@ -876,7 +922,8 @@ impl PackStepper<'_> {
         let evaluate = |this: &mut Self, h: f64| -> Option<(PackTrial, EndReason, f64)> {
             this.predict_split(h);
             let trial = this.solver.trial(states, control, h, this.current_guess)?;
-            let progress = PackProgress { elapsed_s: elapsed + h, charge_passed_coulomb: charge + trial.current * h };
+            let progress =
+                PackProgress { elapsed_s: elapsed + h, charge_passed_coulomb: charge + trial.charge_coulomb() };
             this.end_margins(step, &trial, progress);
             let (reason, margin) = this.margins.iter().copied().min_by(|a, b| a.1.total_cmp(&b.1))?;
             Some((trial, reason, margin))

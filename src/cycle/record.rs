@@ -30,6 +30,56 @@ pub struct TracePoint {
     pub pos_surface_stress_pa: f64,
     /// Index of the step (0-based, into the expanded step list; 0 for a time series).
     pub step: usize,
+    /// Heat generated in the cell at the step's end, W (Bernardi's, with what neighbours pass).
+    pub heat_w: f64,
+    /// Where the current moved linearly over the step that ended here, the currents it started
+    /// from; none where it was held constant at `current_a` and `plating_current_a`.
+    pub ramp_start: Option<RampStart>,
+}
+
+/// The currents at the start of a time step over which the current moves linearly to its end
+/// value (within a held voltage or power, and the plating split of a cell that plates), A.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct RampStart {
+    pub current_a: f64,
+    pub plating_current_a: f64,
+}
+
+impl TracePoint {
+    /// Charge passed over the step that ended here, C (positive on discharge).
+    pub fn charge_coulomb(&self) -> f64 {
+        step_charge(self.ramp_start.map(|s| s.current_a), self.current_a, self.dt_s)
+    }
+
+    /// Lithium deposited and stripped over the step that ended here, C (both ≥ 0).
+    pub fn plating_exchange_coulomb(&self) -> (f64, f64) {
+        signed_areas(self.ramp_start.map(|s| s.plating_current_a), self.plating_current_a, self.dt_s)
+    }
+}
+
+/// Charge passed over a step of `dt` whose current is held at `end`, or moves linearly to it
+/// from `start`, C.
+pub(crate) fn step_charge(start: Option<f64>, end: f64, dt: f64) -> f64 {
+    match start {
+        None => end * dt,
+        Some(start) => 0.5 * (start + end) * dt,
+    }
+}
+
+/// Areas below and above nil of a value held at `end` over `dt`, or moving linearly to it from
+/// `start`: (below, above), both ≥ 0. A ramp that crosses nil is split where it crosses.
+pub(crate) fn signed_areas(start: Option<f64>, end: f64, dt: f64) -> (f64, f64) {
+    match start {
+        None => ((-end).max(0.0) * dt, end.max(0.0) * dt),
+        Some(a) if a * end < 0.0 => {
+            let half_over_span = 0.5 * dt / (end - a).abs();
+            (a.min(end).powi(2) * half_over_span, a.max(end).powi(2) * half_over_span)
+        }
+        Some(a) => {
+            let mean = 0.5 * (a + end) * dt;
+            ((-mean).max(0.0), mean.max(0.0))
+        }
+    }
 }
 
 /// Why a step ended.
@@ -182,4 +232,20 @@ pub struct CycleRecord {
     pub warmup_cycles: usize,
     /// Largest change of the start state over the last warm-up cycle (stoichiometry).
     pub periodic_residual: f64,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn signed_areas_of_held_values_and_ramps_that_cross_nil() {
+        assert_eq!(signed_areas(None, -2.0, 3.0), (6.0, 0.0));
+        assert_eq!(signed_areas(None, 2.0, 3.0), (0.0, 6.0));
+        assert_eq!(signed_areas(Some(1.0), 3.0, 2.0), (0.0, 4.0));
+        assert_eq!(signed_areas(Some(-1.0), -3.0, 2.0), (4.0, 0.0));
+        // From −1 to 3 over 4 s: nil at 1 s; triangles of 1·1/2 below and 3·3/2 above.
+        assert_eq!(signed_areas(Some(-1.0), 3.0, 4.0), (0.5, 4.5));
+        assert_eq!(signed_areas(Some(3.0), -1.0, 4.0), (0.5, 4.5));
+    }
 }

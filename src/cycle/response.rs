@@ -3,9 +3,11 @@
 //! step imposes), the current, terminal voltage, overpotentials, heat, temperature, surface and
 //! mean stoichiometries and surface stress at the step's end.
 //!
-//! Within a step the current is constant. Diffusion is integrated exactly for that current
+//! Within a step the current is held at its end value or, where the stepper says so
+//! ([`StepConditions::ramp_from`]), moves linearly to it from fixed start values; the heat
+//! likewise ([`StepConditions::heat_from`]). Diffusion is integrated exactly for either input
 //! ([`super::diffusion`]), so each particle's surface and mean stoichiometry at the step's end
-//! are affine in the current; the terminal voltage, overpotentials and heat are evaluated at
+//! are affine in the end current; the terminal voltage, overpotentials and heat are evaluated at
 //! the end of the step (implicit, so constant-voltage and constant-power steps are stable at
 //! any step length). A constant-voltage or constant-power step solves a scalar equation for
 //! its current: Newton's method with a forward-difference slope, each iterate kept inside a
@@ -25,9 +27,9 @@
 use super::balance::Balance;
 use super::diffusion::{Boundary, ModeStep, SphereModes};
 use super::kinetics::{exchange_current_density, lithium_metal_current_density, overpotential};
-use super::record::TracePoint;
+use super::record::{signed_areas, step_charge, RampStart, TracePoint};
 use super::stress::surface_hoop_stress;
-use super::thermal::{advance_temperature, bernardi_heat};
+use super::thermal::{advance_temperature, advance_temperature_ramp, bernardi_heat};
 use super::{Cell, Electrode};
 use crate::material::constants::FARADAY;
 use crate::material::constants::GAS_CONSTANT;
@@ -131,6 +133,24 @@ pub(super) struct StepConditions {
     /// Lithium-metal exchange current density at this temperature (A/m²) and cathodic transfer
     /// coefficient, when plating is on.
     plating: Option<(f64, f64)>,
+    /// The currents the step starts from when its current moves linearly within it (the
+    /// stepper's choice, [`StepConditions::ramp_from`]); none when it is held constant.
+    pub(super) ramp: Option<RampStart>,
+    /// Heat at the step's start when it moves linearly within the step (any step after its
+    /// first trial), W; none when the end's heat is held over the step.
+    pub(super) start_heat_w: Option<f64>,
+}
+
+impl StepConditions {
+    /// The same step with its current moving linearly from `start` to the end value solved for.
+    pub(super) fn ramp_from(self, start: RampStart) -> StepConditions {
+        StepConditions { ramp: Some(start), ..self }
+    }
+
+    /// The same step with its heat moving linearly from `start_heat_w` to the end's.
+    pub(super) fn heat_from(self, start_heat_w: f64) -> StepConditions {
+        StepConditions { start_heat_w: Some(start_heat_w), ..self }
+    }
 }
 
 /// [`crate::material::arrhenius_factor`] with the cycle model's exponential: the same
@@ -156,6 +176,17 @@ pub(super) struct Trial {
     pub(super) plating_current: f64,
     /// Positive electrode potential against Li/Li⁺, V.
     pub(super) pos_potential: f64,
+    /// The currents the step started from, when its current moved linearly within it.
+    pub(super) ramp_start: Option<RampStart>,
+    /// Heat generated at the step's end, W.
+    pub(super) heat_w: f64,
+}
+
+impl Trial {
+    /// Charge passed over the step, C: the end current's, or the trapezoid over a ramp.
+    pub(super) fn charge_coulomb(&self) -> f64 {
+        step_charge(self.ramp_start.map(|s| s.current_a), self.current, self.dt)
+    }
 }
 
 /// Surface and mean stoichiometry after a step, both affine in the current.
@@ -177,6 +208,8 @@ pub(super) struct StepMaps {
     maps: [Affine; 4],
     strip_limit: f64,
     dt: f64,
+    /// The currents the step ramps from, with stripping capped by the lithium left to strip.
+    ramp: Option<RampStart>,
 }
 
 /// Reused buffers, so a cycle allocates nothing per step.
@@ -185,9 +218,12 @@ pub(super) struct Scratch {
     neg: ModeStep,
     pos: ModeStep,
     /// Each particle's outer-shell, second-outer-shell and mean responses to a unit flux over
-    /// the step: they depend on the step's factors only, not on the state.
+    /// the step, and to a flux rising from nil to one: they depend on the step's factors only,
+    /// not on the state.
     neg_unit: [f64; 3],
     pos_unit: [f64; 3],
+    neg_ramp: [f64; 3],
+    pos_ramp: [f64; 3],
     /// (dt, negative D, positive D) the factors above were computed for: a step that is
     /// committed right after its trial reuses them instead of recomputing every exponential.
     factors_for: Option<(f64, f64, f64)>,
@@ -203,6 +239,8 @@ impl Scratch {
         pos.modes.step_factors(pos.radius_m, cond.pos_diffusivity, dt, &mut self.pos);
         self.neg_unit = self.neg.input_responses(neg.response_rows());
         self.pos_unit = self.pos.input_responses(pos.response_rows());
+        self.neg_ramp = self.neg.ramp_responses(neg.response_rows());
+        self.pos_ramp = self.pos.ramp_responses(pos.response_rows());
         self.factors_for = Some(key);
     }
 }
@@ -340,11 +378,22 @@ impl CellModel {
             neg_area_m2: self.neg.surface_area_m2 * health.neg_active_scale,
             pos_area_m2: self.pos.surface_area_m2 * health.pos_active_scale,
             plating: cell.plating.map(|p| (p.exchange_current_at(temperature_k), p.transfer_coefficient)),
+            ramp: None,
+            start_heat_w: None,
         }
     }
 
-    /// Affine maps current → surface and mean stoichiometry after `dt`, per electrode.
-    fn responses(&self, state: &CellState, cond: &StepConditions, dt: f64, scratch: &mut Scratch) -> [Affine; 4] {
+    /// Affine maps current at the step's end → surface and mean stoichiometry after `dt`, per
+    /// electrode (the negative's in its intercalation current). With a ramp the start currents
+    /// are fixed and only the end current is free.
+    fn responses(
+        &self,
+        state: &CellState,
+        cond: &StepConditions,
+        ramp: Option<RampStart>,
+        dt: f64,
+        scratch: &mut Scratch,
+    ) -> [Affine; 4] {
         let neg = &self.neg;
         let pos = &self.pos;
         scratch.prepare(neg, pos, cond, dt);
@@ -352,18 +401,48 @@ impl CellModel {
         // negative and fills the positive.
         let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * neg.max_concentration);
         let pos_flux_per_amp = 1.0 / (FARADAY * cond.pos_area_m2 * pos.max_concentration);
-        let respond = |p: &ParticleModel, step: &ModeStep, unit: &[f64; 3], modes: &[f64], d: f64, per_amp: f64| {
-            let [o_free, s_free, m_free] = step.free_responses(p.response_rows(), modes);
-            let [o_unit, s_unit, m_unit] = *unit;
-            let value = |u: f64| p.modes.surface_from_outer(o_free + u * o_unit, s_free + u * s_unit, u, p.radius_m, d);
+        // Each particle's flux at the step's start when it ramps.
+        let start_flux =
+            ramp.map(|r| (neg_flux_per_amp * (r.current_a - r.plating_current_a), pos_flux_per_amp * r.current_a));
+        let respond = |p: &ParticleModel,
+                       step: &ModeStep,
+                       [unit, ramp]: [&[f64; 3]; 2],
+                       start: Option<f64>,
+                       modes: &[f64],
+                       d: f64,
+                       per_amp: f64| {
+            let free = step.free_responses(p.response_rows(), modes);
+            // Response to the end flux u: free + u·unit held, or free + u₀·(unit − ramp) + u·ramp.
+            let (base, weight) = match start {
+                None => (free, *unit),
+                Some(u0) => (std::array::from_fn(|j| free[j] + u0 * (unit[j] - ramp[j])), *ramp),
+            };
+            let [o_base, s_base, m_base] = base;
+            let [o_weight, s_weight, m_weight] = weight;
+            let value =
+                |u: f64| p.modes.surface_from_outer(o_base + u * o_weight, s_base + u * s_weight, u, p.radius_m, d);
             let at_zero = value(0.0);
             let surface = Affine { at_zero, per_amp: (value(1.0) - at_zero) * per_amp };
-            (surface, Affine { at_zero: m_free, per_amp: m_unit * per_amp })
+            (surface, Affine { at_zero: m_base, per_amp: m_weight * per_amp })
         };
-        let (neg_surface, neg_mean) =
-            respond(neg, &scratch.neg, &scratch.neg_unit, &state.neg_modes, cond.neg_diffusivity, neg_flux_per_amp);
-        let (pos_surface, pos_mean) =
-            respond(pos, &scratch.pos, &scratch.pos_unit, &state.pos_modes, cond.pos_diffusivity, pos_flux_per_amp);
+        let (neg_surface, neg_mean) = respond(
+            neg,
+            &scratch.neg,
+            [&scratch.neg_unit, &scratch.neg_ramp],
+            start_flux.map(|f| f.0),
+            &state.neg_modes,
+            cond.neg_diffusivity,
+            neg_flux_per_amp,
+        );
+        let (pos_surface, pos_mean) = respond(
+            pos,
+            &scratch.pos,
+            [&scratch.pos_unit, &scratch.pos_ramp],
+            start_flux.map(|f| f.1),
+            &state.pos_modes,
+            cond.pos_diffusivity,
+            pos_flux_per_amp,
+        );
         [neg_surface, pos_surface, neg_mean, pos_mean]
     }
 
@@ -508,8 +587,20 @@ impl CellModel {
         scratch: &mut Scratch,
     ) -> StepMaps {
         // Stripping can return at most the reversible lithium on the surface within the step.
-        let strip_limit = if dt > 0.0 { state.plated_coulomb / dt } else { 0.0 };
-        StepMaps { maps: self.responses(state, cond, dt, scratch), strip_limit, dt }
+        // Over a ramp the start's stripping comes first: where it alone would take more than
+        // is left (the lithium runs out within the step), it is cut to take exactly that, and
+        // the end's stripping gets what the start's leaves.
+        let (strip_limit, ramp) = match cond.ramp {
+            _ if dt <= 0.0 => (0.0, cond.ramp),
+            None => (state.plated_coulomb / dt, None),
+            Some(start) => {
+                let room = 2.0 * state.plated_coulomb / dt;
+                let start_strip = start.plating_current_a.max(0.0).min(room);
+                let start = RampStart { plating_current_a: start.plating_current_a.min(start_strip), ..start };
+                (room - start_strip, Some(start))
+            }
+        };
+        StepMaps { maps: self.responses(state, cond, ramp, dt, scratch), strip_limit, dt, ramp }
     }
 
     /// Terminal voltage at the step's end for a current.
@@ -550,6 +641,7 @@ impl CellModel {
         if !voltage.is_finite() {
             return None;
         }
+        let ramp_start = maps.ramp;
         let maps = &maps.maps;
         let (neg_potential, neg_surface) = (negative.potential, negative.x);
         let neg_mean = maps[2].at(negative.intercalation);
@@ -558,14 +650,18 @@ impl CellModel {
         let ocv = cell.positive.ocp.potential(pos_mean) - cell.negative.ocp.potential(neg_mean)
             + (cond.temperature_k - cell.reference_temperature_k) * self.entropic_v_k();
         let heat = bernardi_heat(current, ocv, voltage, cond.temperature_k, self.entropic_v_k()) + exchanged_heat_w;
-        let temperature_k = advance_temperature(
-            cond.start_temperature_k,
-            cond.ambient_k,
-            heat,
-            cell.heat_capacity_j_k(),
-            cell.convective_conductance_w_k,
-            dt,
-        );
+        let (capacity, conductance) = (cell.heat_capacity_j_k(), cell.convective_conductance_w_k);
+        let temperature_k = match cond.start_heat_w {
+            None => advance_temperature(cond.start_temperature_k, cond.ambient_k, heat, capacity, conductance, dt),
+            Some(start) => advance_temperature_ramp(
+                cond.start_temperature_k,
+                cond.ambient_k,
+                [start, heat],
+                capacity,
+                conductance,
+                dt,
+            ),
+        };
         Some(Trial {
             dt,
             current,
@@ -578,6 +674,8 @@ impl CellModel {
             neg_potential,
             plating_current: negative.plating,
             pos_potential,
+            ramp_start,
+            heat_w: heat,
         })
     }
 
@@ -591,21 +689,33 @@ impl CellModel {
         scratch.prepare(&self.neg, &self.pos, cond, trial.dt);
         // Only the intercalation part of the current enters or leaves the negative particle.
         let intercalation = trial.current - trial.plating_current;
-        let neg_flux = -intercalation / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
-        let pos_flux = trial.current / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
-        scratch.neg.apply(&mut state.neg_modes, neg_flux);
-        scratch.pos.apply(&mut state.pos_modes, pos_flux);
+        match trial.ramp_start {
+            None => {
+                let neg_flux = -intercalation / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
+                let pos_flux = trial.current / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
+                scratch.neg.apply(&mut state.neg_modes, neg_flux);
+                scratch.pos.apply(&mut state.pos_modes, pos_flux);
+            }
+            Some(start) => {
+                let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
+                let pos_flux_per_amp = 1.0 / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
+                let start_intercalation = start.current_a - start.plating_current_a;
+                let (neg_start, neg_end) = (neg_flux_per_amp * start_intercalation, neg_flux_per_amp * intercalation);
+                scratch.neg.apply_ramp(&mut state.neg_modes, neg_start, neg_end);
+                let (pos_start, pos_end) = (pos_flux_per_amp * start.current_a, pos_flux_per_amp * trial.current);
+                scratch.pos.apply_ramp(&mut state.pos_modes, pos_start, pos_end);
+            }
+        }
         if trial.dt > 0.0 {
             state.temperature_rate_k_s = (trial.temperature_k - state.temperature_k) / trial.dt;
         }
         state.temperature_k = trial.temperature_k;
-        if trial.plating_current < 0.0 {
-            let deposited = -trial.plating_current * trial.dt;
+        let (deposited, stripped) =
+            signed_areas(trial.ramp_start.map(|s| s.plating_current_a), trial.plating_current, trial.dt);
+        if deposited > 0.0 || stripped > 0.0 {
             let dead_share = self.cell.plating.map_or(0.0, |p| p.irreversible_fraction);
-            state.plated_coulomb += (1.0 - dead_share) * deposited;
+            state.plated_coulomb = (state.plated_coulomb + (1.0 - dead_share) * deposited - stripped).max(0.0);
             state.dead_coulomb += dead_share * deposited;
-        } else if trial.plating_current > 0.0 {
-            state.plated_coulomb = (state.plated_coulomb - trial.plating_current * trial.dt).max(0.0);
         }
     }
 
@@ -636,6 +746,8 @@ impl CellModel {
             neg_potential_v: trial.neg_potential,
             plating_current_a: trial.plating_current,
             pos_potential_v: trial.pos_potential,
+            ramp_start: trial.ramp_start,
+            heat_w: trial.heat_w,
             // The stepper fills in the lithium on the surface once the step is committed.
             plated_coulomb: 0.0,
             neg_mean_stoich: trial.neg_mean,
