@@ -188,7 +188,7 @@ impl SphereModes {
         let live = self.decay.iter().position(|&l| l * exponent_scale < RELAXED_EXPONENT).unwrap_or(n);
         step.live = live;
         for (d, &lambda) in step.decay[..live].iter_mut().zip(&self.decay) {
-            *d = super::fast_exp::exp_in_range(lambda * exponent_scale);
+            *d = crate::material::fast_exp::exp_in_range(lambda * exponent_scale);
         }
         for k in 0..live {
             let x = self.decay[k] * exponent_scale;

@@ -11,7 +11,6 @@
 pub mod balance;
 pub mod cell;
 pub mod diffusion;
-pub mod fast_exp;
 pub mod kinetics;
 pub mod pack;
 pub mod protocol;

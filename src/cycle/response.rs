@@ -156,7 +156,7 @@ impl StepConditions {
 /// [`crate::material::arrhenius_factor`] with the cycle model's exponential: the same
 /// expression, computed for every trial step (five factors each).
 fn arrhenius(activation_j_mol: f64, temperature_k: f64, reference_k: f64) -> f64 {
-    super::fast_exp::exp(-activation_j_mol / GAS_CONSTANT * (1.0 / temperature_k - 1.0 / reference_k))
+    crate::material::fast_exp::exp(-activation_j_mol / GAS_CONSTANT * (1.0 / temperature_k - 1.0 / reference_k))
 }
 
 /// The state at the end of a trial step of length `dt`.

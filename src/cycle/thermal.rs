@@ -19,7 +19,7 @@ pub fn advance_temperature(
     dt_s: f64,
 ) -> f64 {
     let steady = ambient_k + heat_w / conductance_w_k;
-    steady + (temperature_k - steady) * super::fast_exp::exp(-dt_s * conductance_w_k / heat_capacity_j_k)
+    steady + (temperature_k - steady) * crate::material::fast_exp::exp(-dt_s * conductance_w_k / heat_capacity_j_k)
 }
 
 /// Temperature after `dt` with heat moving linearly from `start_heat_w` to `end_heat_w`: with
@@ -36,7 +36,7 @@ pub fn advance_temperature_ramp(
     dt_s: f64,
 ) -> f64 {
     let x = -dt_s * conductance_w_k / heat_capacity_j_k;
-    let decay = super::fast_exp::exp(x);
+    let decay = crate::material::fast_exp::exp(x);
     let (phi1, phi2) = if x > -1e-3 {
         // Series where the subtractions would cancel (truncation x⁵/720 and x⁵/5040).
         (

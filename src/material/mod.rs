@@ -2,6 +2,7 @@
 
 pub mod arrhenius;
 pub mod constants;
+pub mod fast_exp;
 pub mod ocp;
 pub mod units;
 

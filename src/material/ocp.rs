@@ -11,6 +11,7 @@
 //!   Q. Guo, P. Ramadass, R. E. White, J. Power Sources 156 (2006) 620.
 //! - Graphite and iron phosphate: M. Safari, C. Delacourt, J. Electrochem. Soc. 158 (2011) A562.
 
+use super::fast_exp::{exp, tanh};
 use serde::Serialize;
 
 /// Stoichiometries are kept this far inside (0, 1) so every form stays finite.
@@ -56,14 +57,14 @@ impl BuiltinOcp {
             BuiltinOcp::GraphiteSmooth => {
                 0.7222 + 0.1387 * x + 0.029 * x.sqrt() - 0.0172 / x
                     + 0.0019 / (x * x.sqrt())
-                    + 0.2808 * (0.9 - 15.0 * x).exp()
-                    - 0.7984 * (0.4465 * x - 0.4108).exp()
+                    + 0.2808 * exp(0.9 - 15.0 * x)
+                    - 0.7984 * exp(0.4465 * x - 0.4108)
             }
             BuiltinOcp::GraphiteStaged => {
-                0.6379 + 0.5416 * (-305.5309 * x).exp() + 0.044 * (-(x - 0.1958) / 0.1088).tanh()
-                    - 0.1978 * ((x - 1.0571) / 0.0854).tanh()
-                    - 0.6875 * ((x + 0.0117) / 0.0529).tanh()
-                    - 0.0175 * ((x - 0.5692) / 0.0875).tanh()
+                0.6379 + 0.5416 * exp(-305.5309 * x) + 0.044 * tanh(-(x - 0.1958) / 0.1088)
+                    - 0.1978 * tanh((x - 1.0571) / 0.0854)
+                    - 0.6875 * tanh((x + 0.0117) / 0.0529)
+                    - 0.0175 * tanh((x - 0.5692) / 0.0875)
             }
             BuiltinOcp::CobaltOxide => {
                 // The rational fit has a pole near y ≈ 0.43, below the range it was fitted on;
