@@ -190,27 +190,21 @@ impl SphereModes {
         for (d, &lambda) in step.decay[..live].iter_mut().zip(&self.decay) {
             *d = crate::material::fast_exp::exp_in_range(lambda * exponent_scale);
         }
-        // Written as selects over both forms so the loop vectorises: where the subtractions
-        // would cancel (x > −1e-3, the conserved mode's x = 0 among them) the series of
-        // φ₁ = (eˣ − 1)/x and φ₂ = (eˣ − 1 − x)/x² (truncation x⁵/720 and x⁵/5040), else the
-        // exponential itself.
-        let input_dt = input_scale * dt_s;
         for k in 0..live {
             let x = self.decay[k] * exponent_scale;
-            let phi1 = 1.0 + x * (1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x / 120.0)));
-            let phi2 = 1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x * (1.0 / 120.0 + x / 720.0)));
-            let small = x > -1e-3;
-            let e_minus_one = step.decay[k] - 1.0;
-            step.gain[k] = if small {
-                self.input[k] * input_dt * phi1
+            if self.decay[k] == 0.0 {
+                step.gain[k] = self.input[k] * input_scale * dt_s;
+                step.ramp_gain[k] = 0.5 * step.gain[k];
+            } else if x > -1e-3 {
+                // Series where the subtractions would cancel (truncation x⁶/720 and x⁵/5040).
+                let e_minus_one = x * (1.0 + x * (1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x / 120.0))));
+                let phi2 = 1.0 / 2.0 + x * (1.0 / 6.0 + x * (1.0 / 24.0 + x * (1.0 / 120.0 + x / 720.0)));
+                step.gain[k] = self.input_over_decay[k] * gain_scale * e_minus_one;
+                step.ramp_gain[k] = self.input[k] * input_scale * dt_s * phi2;
             } else {
-                self.input_over_decay[k] * gain_scale * e_minus_one
-            };
-            step.ramp_gain[k] = if small {
-                self.input[k] * input_dt * phi2
-            } else {
-                self.input_over_decay_squared[k] * ramp_scale * (e_minus_one - x)
-            };
+                step.gain[k] = self.input_over_decay[k] * gain_scale * (step.decay[k] - 1.0);
+                step.ramp_gain[k] = self.input_over_decay_squared[k] * ramp_scale * (step.decay[k] - 1.0 - x);
+            }
         }
         for k in live..n {
             // A relaxed mode sits at its steady value for the input, lagging a ramp by its own
@@ -319,24 +313,6 @@ fn shell_moments(lo: f64, hi: f64) -> [f64; 2] {
     [(first(hi) - first(lo)) / w, (second(hi) - second(lo)) / w]
 }
 
-/// Σ aᵢbᵢ in four interleaved partial sums: four independent chains of multiply-adds instead
-/// of one, which the processor overlaps (a step takes a dozen such sums).
-#[inline]
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    let n = a.len().min(b.len());
-    let (a, b) = (&a[..n], &b[..n]);
-    let mut partial = [0.0; 4];
-    let whole = n - n % 4;
-    for i in (0..whole).step_by(4) {
-        partial[0] += a[i] * b[i];
-        partial[1] += a[i + 1] * b[i + 1];
-        partial[2] += a[i + 2] * b[i + 2];
-        partial[3] += a[i + 3] * b[i + 3];
-    }
-    let tail: f64 = a[whole..].iter().zip(&b[whole..]).map(|(x, y)| x * y).sum();
-    (partial[0] + partial[1]) + (partial[2] + partial[3]) + tail
-}
-
 /// Below this exponent λ·D/R²·dt a mode counts as relaxed within the step: e^−37 ≈ 9e-17, under
 /// round-off of the modal amplitudes (stoichiometry, of order one).
 const RELAXED_EXPONENT: f64 = -37.0;
@@ -393,12 +369,12 @@ impl ModeStep {
 
     /// Responses of several linear functionals to a unit input over the step.
     pub fn input_responses<const N: usize>(&self, rows: [&[f64]; N]) -> [f64; N] {
-        rows.map(|row| dot(row, &self.gain))
+        rows.map(|row| row.iter().zip(&self.gain).map(|(r, g)| r * g).sum())
     }
 
     /// Responses of several linear functionals to an input rising from nil to one over the step.
     pub fn ramp_responses<const N: usize>(&self, rows: [&[f64]; N]) -> [f64; N] {
-        rows.map(|row| dot(row, &self.ramp_gain))
+        rows.map(|row| row.iter().zip(&self.ramp_gain).map(|(r, g)| r * g).sum())
     }
 }
 
