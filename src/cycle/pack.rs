@@ -830,7 +830,8 @@ impl PackStepper<'_> {
                 first,
                 cell_current_varies: current_varies(step.drive, plates) || self.layout().parallel > 1,
                 pack_ramp_from: match record.pack.trace.last() {
-                    Some(p) if !first && matches!(step.drive, Drive::Voltage(_) | Drive::Power(_)) => Some(p.current_a),
+                    // The pack's own current varies with its drive only (plating splits cells).
+                    Some(p) if !first && current_varies(step.drive, false) => Some(p.current_a),
                     _ => None,
                 },
             };

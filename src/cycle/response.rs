@@ -397,10 +397,7 @@ impl CellModel {
         let neg = &self.neg;
         let pos = &self.pos;
         scratch.prepare(neg, pos, cond, dt);
-        // Flux into each particle per ampere, in stoichiometry units: discharge empties the
-        // negative and fills the positive.
-        let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * neg.max_concentration);
-        let pos_flux_per_amp = 1.0 / (FARADAY * cond.pos_area_m2 * pos.max_concentration);
+        let (neg_flux_per_amp, pos_flux_per_amp) = self.flux_per_amp(cond);
         // Each particle's flux at the step's start when it ramps.
         let start_flux =
             ramp.map(|r| (neg_flux_per_amp * (r.current_a - r.plating_current_a), pos_flux_per_amp * r.current_a));
@@ -444,6 +441,15 @@ impl CellModel {
             pos_flux_per_amp,
         );
         [neg_surface, pos_surface, neg_mean, pos_mean]
+    }
+
+    /// Flux into each particle per ampere (negative, positive), in stoichiometry units:
+    /// discharge empties the negative and fills the positive.
+    fn flux_per_amp(&self, cond: &StepConditions) -> (f64, f64) {
+        (
+            -1.0 / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration),
+            1.0 / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration),
+        )
     }
 
     /// An electrode's potential against Li/Li⁺ at surface stoichiometry θ while
@@ -697,8 +703,7 @@ impl CellModel {
                 scratch.pos.apply(&mut state.pos_modes, pos_flux);
             }
             Some(start) => {
-                let neg_flux_per_amp = -1.0 / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
-                let pos_flux_per_amp = 1.0 / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
+                let (neg_flux_per_amp, pos_flux_per_amp) = self.flux_per_amp(cond);
                 let start_intercalation = start.current_a - start.plating_current_a;
                 let (neg_start, neg_end) = (neg_flux_per_amp * start_intercalation, neg_flux_per_amp * intercalation);
                 scratch.neg.apply_ramp(&mut state.neg_modes, neg_start, neg_end);

@@ -44,8 +44,8 @@ pub const MAX_TEMPERATURE_CHANGE_K: f64 = 1.0;
 pub const MAX_HELD_CURRENT_CHANGE: f64 = 0.2;
 /// Default largest change of the negative's potential in one time step while it is within
 /// [`PLATING_WATCH_V`] of lithium (cells that plate only), V. Plating and stripping grow
-/// exponentially with this potential (about 5 % per mV at 0 °C) and a step carries its end
-/// value over its whole length, so where they run the step follows the potential itself.
+/// exponentially with this potential (about 5 % per mV at 0 °C) while a step carries them as a
+/// linear ramp between its ends, so where they run the step follows the potential itself.
 pub const MAX_PLATING_POTENTIAL_CHANGE_V: f64 = 1e-3;
 /// Potential of the negative against lithium below which [`MAX_PLATING_POTENTIAL_CHANGE_V`]
 /// applies, V.
