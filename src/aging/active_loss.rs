@@ -16,6 +16,7 @@
 use super::cracking::tensile_range;
 use super::rainflow::count_periodic;
 use super::{AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
+use crate::cycle::record::sharpen_turning_points;
 use crate::material::arrhenius_factor;
 use crate::material::units::MEGA;
 
@@ -123,7 +124,12 @@ impl Mechanism for ActiveLoss {
                 (|p| p.pos_surface_stress_pa, state[Component::PosActiveLost], cell.positive.capacity_coulomb())
             }
         };
-        let history: Vec<f64> = record.trace.iter().map(stress_of).collect();
+        let mut history: Vec<f64> = record.trace.iter().map(stress_of).collect();
+        let stored = match self.side {
+            Side::Negative => &record.neg_stress,
+            Side::Positive => &record.pos_stress,
+        };
+        sharpen_turning_points(&mut history, stored.surface_rates_pa_s(), &record.trace);
         let mut counted = 0.0;
         count_periodic(&history, &mut Vec::new(), |cycle| {
             let range = tensile_range(cycle.high, cycle.low);

@@ -28,6 +28,7 @@
 use super::fracture::{intensity_weights, CrackOrigin};
 use super::rainflow::count_periodic;
 use super::{crack_length_m, AgingContext, AgingState, Component, Mechanism, Registration, Side, TableReader};
+use crate::cycle::record::sharpen_turning_points;
 use crate::cycle::{CycleRecord, TracePoint};
 use crate::material::arrhenius_factor;
 use crate::material::units::{KILO, NANO, PER_SQUARE_MICROMETRE};
@@ -75,6 +76,9 @@ pub fn intensity_history(
     intensity_weights(origin, crack_m, radius_m, history.shells(), &mut weights);
     let mut out = Vec::new();
     history.weighted(&weights, record.trace.iter().map(surface), &mut out);
+    let mut rates = Vec::new();
+    history.weighted_rates(&weights, &mut rates);
+    sharpen_turning_points(&mut out, &rates, &record.trace);
     out
 }
 

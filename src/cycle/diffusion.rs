@@ -187,6 +187,8 @@ impl SphereModes {
         // Modes are slowest first: from the first one the step relaxes, all are relaxed.
         let live = self.decay.iter().position(|&l| l * exponent_scale < RELAXED_EXPONENT).unwrap_or(n);
         step.live = live;
+        // Under a flux the slowest mode is the particle's content (λ = 0 up to round-off).
+        step.conserved = (self.boundary == Boundary::Flux).then_some(0);
         for (d, &lambda) in step.decay[..live].iter_mut().zip(&self.decay) {
             *d = crate::material::fast_exp::exp_in_range(lambda * exponent_scale);
         }
@@ -214,6 +216,20 @@ impl SphereModes {
             step.gain[k] = -self.input_over_decay[k] * gain_scale;
             step.ramp_gain[k] = self.input_over_decay_squared[k] * ramp_scale * (-1.0 - x);
         }
+    }
+
+    /// Appends the rates of change of modal coordinates at an instant, dq/dt = (D λ/R²)·q + g·u,
+    /// for the diffusivity and input of that instant.
+    pub fn rates(&self, radius_m: f64, diffusivity_m2_s: f64, modes: &[f64], input: f64, out: &mut Vec<f64>) {
+        let rate_scale = diffusivity_m2_s / (radius_m * radius_m);
+        let input_scale = self.input_scale(radius_m, diffusivity_m2_s);
+        out.extend(
+            self.decay
+                .iter()
+                .zip(&self.input)
+                .zip(modes)
+                .map(|((l, g), q)| l * rate_scale * q + g * input_scale * input),
+        );
     }
 
     fn dot(row: &[f64], modes: &[f64]) -> f64 {
@@ -328,6 +344,8 @@ pub struct ModeStep {
     /// Modes before this index keep part of their start value; the rest relax completely
     /// (decay 0), so free responses need only the first `live`.
     pub live: usize,
+    /// The mode that holds the particle's content (λ = 0), under a flux.
+    pub conserved: Option<usize>,
 }
 
 impl ModeStep {
@@ -343,6 +361,27 @@ impl ModeStep {
         let rise = end - start;
         for (((q, &d), &g), &r) in modes.iter_mut().zip(&self.decay).zip(&self.gain).zip(&self.ramp_gain) {
             *q = d * *q + g * start + r * rise;
+        }
+    }
+
+    /// [`ModeStep::apply_ramp`] for a step whose diffusivity drifts: the input at its start and
+    /// end weighted by D̄/D there (`weights`), the step's factors at D̄. In the time τ = ∫D dt
+    /// each mode obeys dq/dτ = (λ/R²)·q + g·u/D: a step of constant D̄ driven by u·D̄/D(t),
+    /// carried as a ramp between its ends. The conserved mode (λ = 0) takes the input
+    /// unweighted, so the particle's content changes by exactly ∫u dt.
+    pub fn apply_drifting_ramp(&self, modes: &mut [f64], [start, end]: [f64; 2], [a, b]: [f64; 2]) {
+        self.apply_ramp(modes, a * start, b * end);
+        if let Some(k) = self.conserved {
+            modes[k] += self.gain[k] * (1.0 - a) * start + self.ramp_gain[k] * ((1.0 - b) * end - (1.0 - a) * start);
+        }
+    }
+
+    /// The conserved mode's share of [`ModeStep::input_responses`] and
+    /// [`ModeStep::ramp_responses`] (nil without one).
+    pub fn conserved_responses<const N: usize>(&self, rows: [&[f64]; N]) -> ([f64; N], [f64; N]) {
+        match self.conserved {
+            Some(k) => (rows.map(|row| row[k] * self.gain[k]), rows.map(|row| row[k] * self.ramp_gain[k])),
+            None => ([0.0; N], [0.0; N]),
         }
     }
 
@@ -456,6 +495,67 @@ mod tests {
             step.apply_ramp(&mut flat, u1, u1);
             step.apply(&mut constant, u1);
             assert_eq!(flat, constant);
+        }
+    }
+
+    #[test]
+    fn modal_rates_match_a_short_step() {
+        // dq/dt = (D λ/R²)·q + g·u against (q(δ) − q(0))/δ of the exact step, whose own error is
+        // about δ·|q″|/2 (δ far below the fastest mode's time constant).
+        let modes = SphereModes::new(16, Boundary::Flux);
+        let (r, d, u) = (5e-6, 5e-14, 2e-5);
+        let mut q = modes.uniform(0.4);
+        let mut step = ModeStep::default();
+        modes.step_factors(r, d, 120.0, &mut step);
+        step.apply(&mut q, -u);
+        let mut rates = Vec::new();
+        modes.rates(r, d, &q, u, &mut rates);
+        let delta = 1e-9;
+        modes.step_factors(r, d, delta, &mut step);
+        let mut after = q.clone();
+        step.apply(&mut after, u);
+        for k in 0..16 {
+            let difference = (after[k] - q[k]) / delta;
+            assert!(
+                (rates[k] - difference).abs() <= 1e-5 * rates[k].abs().max(1e-3),
+                "mode {k}: {} vs {difference}",
+                rates[k]
+            );
+        }
+    }
+
+    #[test]
+    fn a_drifting_diffusivity_is_a_ramped_input_in_its_own_time() {
+        // D(t) = D̄·e^{κ(t/dt − 1/2)} (an Arrhenius diffusivity under a linear temperature) over one
+        // step: the step at D̄ with the input u·D̄/D(t) ramped between its ends (what the cell
+        // model's diffusivity drift does) against 4000 substeps, each at its own middle D.
+        let modes = SphereModes::new(16, Boundary::Flux);
+        let (r, d_mean, u) = (5e-6, 5e-14, 2e-5);
+        for (dt, kappa) in [(30.0, 0.06), (300.0, 0.1), (3000.0, -0.2)] {
+            let d_at = |s: f64| d_mean * f64::exp(kappa * (s - 0.5));
+            // D̄ = Δτ/dt, the mean of D over the step.
+            let d_bar = d_mean * (f64::exp(kappa / 2.0) - f64::exp(-kappa / 2.0)) / kappa;
+            let mut step = ModeStep::default();
+            modes.step_factors(r, d_bar, dt, &mut step);
+            let mut drifted = modes.uniform(0.4);
+            step.apply_drifting_ramp(&mut drifted, [u, u], [d_bar / d_at(0.0), d_bar / d_at(1.0)]);
+            let mut held = modes.uniform(0.4);
+            step.apply(&mut held, u);
+            let n = 4000;
+            let mut fine = modes.uniform(0.4);
+            let mut sub = ModeStep::default();
+            for i in 0..n {
+                modes.step_factors(r, d_at((i as f64 + 0.5) / n as f64), dt / n as f64, &mut sub);
+                sub.apply(&mut fine, u);
+            }
+            let surface = |q: &[f64]| modes.surface(q, u, r, d_at(1.0));
+            let (ours, old, reference) = (surface(&drifted), surface(&held), surface(&fine));
+            let change = (reference - 0.4).abs();
+            assert!((ours - reference).abs() <= 3e-4 * change, "dt {dt}: {ours} vs {reference}");
+            // The drift is what closes most of the gap.
+            assert!((ours - reference).abs() < 0.1 * (old - reference).abs(), "dt {dt}");
+            // The content is the input's integral, as held.
+            assert!((modes.mean(&drifted) - modes.mean(&held)).abs() <= 1e-12 * modes.mean(&held), "dt {dt}");
         }
     }
 

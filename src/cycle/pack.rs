@@ -678,7 +678,7 @@ impl PackStepper<'_> {
             let mut point = model.trace_point(self.time_s, cell_trial, &self.balances[i], step);
             point.plated_coulomb = states[i].plated_coulomb + states[i].dead_coulomb;
             record.cells[i].trace.push(point);
-            model.record_profiles(&states[i], &mut record.cells[i]);
+            model.record_profiles(&states[i], &self.solver.conds[i], cell_trial, &mut record.cells[i]);
             hottest = hottest.max(cell_trial.temperature_k);
         }
         record.pack.trace.push(TracePoint {
@@ -854,7 +854,12 @@ impl PackStepper<'_> {
             let time_end_reached = self.margins.iter().any(|(r, m)| *r == EndReason::Time && *m <= 0.0);
             if other_end || time_end_reached {
                 let (trial, reason) = if other_end {
-                    self.locate(step, index, states, control, elapsed, charge, dt)?
+                    let located =
+                        self.locate(step, index, (states, &record.cells), within, control, elapsed, charge, dt)?;
+                    // The conditions depend on the step's length (the temperature predicted over it).
+                    self.solver.prepare(states, &self.ambients, located.0.dt);
+                    self.solver.move_within(within, &record.cells);
+                    located
                 } else {
                     (trial, EndReason::Time)
                 };
@@ -910,17 +915,21 @@ impl PackStepper<'_> {
 
     /// Finds the step length at which the first end is met (as the lone cell's stepper does).
     #[allow(clippy::too_many_arguments)]
+    #[allow(clippy::too_many_arguments)]
     fn locate(
         &mut self,
         step: &Step,
         index: usize,
-        states: &[CellState],
+        (states, cells): (&[CellState], &[CycleRecord]),
+        within: Within,
         control: Control,
         elapsed: f64,
         charge: f64,
         dt: f64,
     ) -> Result<(PackTrial, EndReason), CycleError> {
         let evaluate = |this: &mut Self, h: f64| -> Option<(PackTrial, EndReason, f64)> {
+            this.solver.prepare(states, &this.ambients, h);
+            this.solver.move_within(within, cells);
             this.predict_split(h);
             let trial = this.solver.trial(states, control, h, this.current_guess)?;
             let progress =

@@ -16,7 +16,7 @@
 
 use super::balance::{balance_cell, Balance};
 use super::protocol::{Drive, DutyCycle, SeriesSignal, Step, StepEnd};
-use super::record::{CycleRecord, EndReason, RampStart, StepSummary, TracePoint};
+use super::record::{sharpen_turning_points, CycleRecord, EndReason, RampStart, StepSummary, TracePoint};
 use super::response::{CellModel, CellState, Control, Health, Scratch, StepConditions, Trial};
 use super::{Cell, Scenario};
 use crate::material::constants::SECONDS_PER_HOUR;
@@ -302,7 +302,7 @@ pub fn simulate_cycle(
         }
     })?;
     record.trace.push(model.trace_point(0.0, &start, balance, 0));
-    model.record_profiles(state, record);
+    model.record_profiles(state, &cond, &start, record);
     let mut voltage_limited_s = 0.0;
     match run.duty {
         DutyCycle::Steps(profile) => {
@@ -408,6 +408,24 @@ pub(super) fn summarise(record: &mut CycleRecord, duration_s: f64, voltage_limit
         let (plated, stripped) = p.plating_exchange_coulomb();
         r.plated_coulomb += plated;
         r.stripped_coulomb += stripped;
+    }
+    // Stress extremes between the points, where the drive runs smoothly through a turning point.
+    let mut stress = Vec::with_capacity(r.trace.len());
+    for (history, of, extremes) in [
+        (
+            &r.neg_stress,
+            (|p| p.neg_surface_stress_pa) as fn(&TracePoint) -> f64,
+            (&mut r.neg_stress_max_pa, &mut r.neg_stress_min_pa),
+        ),
+        (&r.pos_stress, |p| p.pos_surface_stress_pa, (&mut r.pos_stress_max_pa, &mut r.pos_stress_min_pa)),
+    ] {
+        stress.clear();
+        stress.extend(r.trace.iter().map(of));
+        sharpen_turning_points(&mut stress, history.surface_rates_pa_s(), &r.trace);
+        for &x in &stress {
+            *extremes.0 = extremes.0.max(x);
+            *extremes.1 = extremes.1.min(x);
+        }
     }
     r.time_steps = r.trace.len().saturating_sub(1);
     r.warmup_cycles = record.warmup_cycles;
@@ -665,8 +683,13 @@ impl Stepper<'_> {
             }
             dt = dt.min(time_end - elapsed).max(MIN_STEP_S);
             let previous = *record.trace.last().expect("trace starts with the initial point");
-            let cond = self.model.step_conditions(self.health, state, dt, self.ambient_at(None));
-            let cond = within_step(cond, first, current_varies(step.drive, plates), &previous);
+            let (model, health, ambient_k) = (self.model, self.health, self.ambient_at(None));
+            let varies = current_varies(step.drive, plates);
+            // The conditions depend on the step's length (the temperature predicted over it).
+            let conditions = |state: &CellState, dt: f64| {
+                within_step(model.step_conditions(health, state, dt, ambient_k), first, varies, &previous)
+            };
+            let cond = conditions(state, dt);
             let guess =
                 if first { self.current_guess } else { held_current_guess(record, index, dt, self.current_guess) };
             let trial = self.model.trial(state, &cond, control, dt, guess, &mut self.scratch);
@@ -693,10 +716,11 @@ impl Stepper<'_> {
             if other_end || time_end_reached {
                 // An end inside the step is located; the time end is met exactly by the clamp.
                 let (trial, reason) = if other_end {
-                    self.locate(&active, state, &cond, control, elapsed, charge, dt)?
+                    self.locate(&active, state, &conditions, control, elapsed, charge, dt)?
                 } else {
                     (trial, EndReason::Time)
                 };
+                let cond = if trial.dt == dt { cond } else { conditions(state, trial.dt) };
                 self.accept(state, &cond, &trial, (index, &step.label), record)?;
                 charge += trial.charge_coulomb();
                 elapsed += trial.dt;
@@ -748,7 +772,7 @@ impl Stepper<'_> {
         let mut point = self.model.trace_point(self.time_s, trial, self.balance, step);
         point.plated_coulomb = state.plated_coulomb + state.dead_coulomb;
         record.trace.push(point);
-        self.model.record_profiles(state, record);
+        self.model.record_profiles(state, cond, trial, record);
         Ok(())
     }
 
@@ -761,7 +785,7 @@ impl Stepper<'_> {
         &mut self,
         step: &ActiveStep,
         state: &CellState,
-        cond: &StepConditions,
+        conditions: &dyn Fn(&CellState, f64) -> StepConditions,
         control: Control,
         elapsed: f64,
         charge: f64,
@@ -769,7 +793,8 @@ impl Stepper<'_> {
     ) -> Result<(Trial, EndReason), CycleError> {
         // Scaled margins are ≤ 0 once an end is reached; accept anything in [−1, 0].
         let evaluate = |this: &mut Self, h: f64| -> Option<(Trial, EndReason, f64)> {
-            let trial = this.model.trial(state, cond, control, h, this.current_guess, &mut this.scratch)?;
+            let cond = conditions(state, h);
+            let trial = this.model.trial(state, &cond, control, h, this.current_guess, &mut this.scratch)?;
             let soc = this.soc(&trial);
             end_margins(
                 step,
