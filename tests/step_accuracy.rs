@@ -5,17 +5,18 @@
 //!   quantities whose step errors used to drive the aging rates (the diffusivity taken at the
 //!   step's start temperature, and a held current carried at its end value over a step).
 //!   Measured before the fixes: stress peak 0.75 % high, lab hold 12 % long; now ≤ 0.16 % and
-//!   ≤ 0.36 % (lab, tug, overnight).
+//!   ≤ 0.35 % (lab, tug, overnight).
 //! - Forecasts: every cycling demo's 3000-cycle forecast within 0.1 percentage points of state
 //!   of health and 0.5 % of resistance at every reported point of a reference with far finer
 //!   steps ([`reference`]).
 //!
 //! The bounds are the project's accuracy targets (common practice, no source). Measured at this
-//! commit: winter fast charge 0.056 pp, all others ≤ 0.04 pp; resistance ≤ 0.17 %. Before the
-//! temperature was predicted over the step from the heat (kinetics at the step's end, the
-//! diffusivity's drift within it) and the stress extremes were taken between the points: winter
-//! 0.34 pp, all others ≤ 0.06 pp. Before the current and heat moved linearly within a step:
-//! winter 0.46 pp; at the old 1 % / 10 mV steps: winter 0.54 pp, airport tug 0.12 pp.
+//! commit (4 % / 40 mV / 1 K): winter fast charge 0.077 pp, all others ≤ 0.04 pp; resistance
+//! ≤ 0.16 % (at 3 % / 30 mV: winter 0.056 pp). Before the temperature was predicted over the
+//! step from the heat (kinetics at the step's end, the diffusivity's drift within it) and the
+//! stress extremes were taken between the points, at 3 % / 30 mV: winter 0.34 pp, all others
+//! ≤ 0.06 pp. Before the current and heat moved linearly within a step: winter 0.46 pp; at the
+//! old 1 % / 10 mV steps: winter 0.54 pp, airport tug 0.12 pp.
 
 mod common;
 

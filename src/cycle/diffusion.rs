@@ -218,18 +218,27 @@ impl SphereModes {
         }
     }
 
-    /// Appends the rates of change of modal coordinates at an instant, dq/dt = (D λ/R²)·q + g·u,
-    /// for the diffusivity and input of that instant.
-    pub fn rates(&self, radius_m: f64, diffusivity_m2_s: f64, modes: &[f64], input: f64, out: &mut Vec<f64>) {
-        let rate_scale = diffusivity_m2_s / (radius_m * radius_m);
-        let input_scale = self.input_scale(radius_m, diffusivity_m2_s);
-        out.extend(
-            self.decay
-                .iter()
-                .zip(&self.input)
-                .zip(modes)
-                .map(|((l, g), q)| l * rate_scale * q + g * input_scale * input),
-        );
+    /// Each mode's decay rate λ_k followed by its input weight g_k: the terms of
+    /// dq_k/dt = (D/R²)·λ_k·q_k + s·g_k·u, s the input scale ([`SphereModes::rate_scales`]).
+    pub fn rate_terms(&self) -> Vec<f64> {
+        self.decay.iter().chain(&self.input).copied().collect()
+    }
+
+    /// The scales of the two terms above for a particle at an instant: (D/R², s·u).
+    pub fn rate_scales(&self, radius_m: f64, diffusivity_m2_s: f64, input: f64) -> [f64; 2] {
+        [diffusivity_m2_s / (radius_m * radius_m), self.input_scale(radius_m, diffusivity_m2_s) * input]
+    }
+
+    /// Rate of change of a linear functional `row` of the modal state, with `terms` from
+    /// [`SphereModes::rate_terms`] and `scales` from [`SphereModes::rate_scales`].
+    pub fn row_rate(row: &[f64], terms: &[f64], modes: &[f64], [rate_scale, input]: [f64; 2]) -> f64 {
+        let (decay, gain) = terms.split_at(modes.len());
+        let (mut relaxing, mut driven) = (0.0, 0.0);
+        for (((r, l), g), q) in row.iter().zip(decay).zip(gain).zip(modes) {
+            relaxing += r * l * q;
+            driven += r * g;
+        }
+        rate_scale * relaxing + input * driven
     }
 
     fn dot(row: &[f64], modes: &[f64]) -> f64 {
@@ -500,27 +509,24 @@ mod tests {
 
     #[test]
     fn modal_rates_match_a_short_step() {
-        // dq/dt = (D λ/R²)·q + g·u against (q(δ) − q(0))/δ of the exact step, whose own error is
-        // about δ·|q″|/2 (δ far below the fastest mode's time constant).
+        // d(row·q)/dt = Σ row_k ((D λ_k/R²)·q_k + g_k·u) against the change of the exact step over
+        // δ, whose own error is about δ·|q″|/2 (δ far below the fastest mode's time constant).
         let modes = SphereModes::new(16, Boundary::Flux);
         let (r, d, u) = (5e-6, 5e-14, 2e-5);
         let mut q = modes.uniform(0.4);
         let mut step = ModeStep::default();
         modes.step_factors(r, d, 120.0, &mut step);
         step.apply(&mut q, -u);
-        let mut rates = Vec::new();
-        modes.rates(r, d, &q, u, &mut rates);
+        let terms = modes.rate_terms();
         let delta = 1e-9;
         modes.step_factors(r, d, delta, &mut step);
         let mut after = q.clone();
         step.apply(&mut after, u);
-        for k in 0..16 {
-            let difference = (after[k] - q[k]) / delta;
-            assert!(
-                (rates[k] - difference).abs() <= 1e-5 * rates[k].abs().max(1e-3),
-                "mode {k}: {} vs {difference}",
-                rates[k]
-            );
+        let (outer, _) = modes.outer_rows();
+        for row in [outer, modes.mean_row(), &modes.hoop_rows()[16..32]] {
+            let rate = SphereModes::row_rate(row, &terms, &q, modes.rate_scales(r, d, u));
+            let difference = (SphereModes::dot(row, &after) - SphereModes::dot(row, &q)) / delta;
+            assert!((rate - difference).abs() <= 1e-5 * rate.abs(), "{rate} vs {difference}");
         }
     }
 

@@ -1,6 +1,8 @@
 //! What one simulated cycle leaves behind: a trace of the fast state and per-step summaries.
 //! Aging laws integrate over the trace; reports print it.
 
+use super::diffusion::SphereModes;
+
 /// The fast state at the end of one time step (SI units; stresses positive in tension).
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct TracePoint {
@@ -208,21 +210,27 @@ pub struct StressHistory {
     coefficient_pa: f64,
     /// Modal state after every trace point, n per point.
     modes: Vec<f64>,
-    /// Its rate of change at every trace point (n per point), and the surface hoop stress's,
-    /// Pa/s: what places an extreme between two points ([`sharpen_turning_points`]).
-    rates: Vec<f64>,
+    /// What the modal state's rate of change is made of: the modes' terms (shared, see
+    /// [`crate::cycle::diffusion::SphereModes::rate_terms`]) and each point's scales. With the
+    /// surface hoop stress's rate (Pa/s), they place an extreme between two points
+    /// ([`sharpen_turning_points`]).
+    rate_terms: std::sync::Arc<[f64]>,
+    rate_scales: Vec<[f64; 2]>,
     surface_rates_pa_s: Vec<f64>,
 }
 
 impl StressHistory {
     /// Starts an empty history for a particle model's rows, keeping the stored allocation.
-    pub(crate) fn reset(&mut self, rows: &std::sync::Arc<[f64]>, coefficient_pa: f64) {
+    pub(crate) fn reset(&mut self, [rows, rate_terms]: [&std::sync::Arc<[f64]>; 2], coefficient_pa: f64) {
         if !std::sync::Arc::ptr_eq(&self.rows, rows) {
             self.rows = rows.clone();
         }
+        if !std::sync::Arc::ptr_eq(&self.rate_terms, rate_terms) {
+            self.rate_terms = rate_terms.clone();
+        }
         self.coefficient_pa = coefficient_pa;
         self.modes.clear();
-        self.rates.clear();
+        self.rate_scales.clear();
         self.surface_rates_pa_s.clear();
     }
 
@@ -237,16 +245,12 @@ impl StressHistory {
         (0..=n).map(|j| j as f64 / n as f64).collect()
     }
 
-    /// Stores a trace point's modal state; `rates` already holds its rate of change (appended by
-    /// [`crate::cycle::diffusion::SphereModes::rates`]).
-    pub(crate) fn push(&mut self, modes: &[f64], surface_rate_pa_s: f64) {
+    /// Stores a trace point's modal state with the scales of its rate of change
+    /// ([`crate::cycle::diffusion::SphereModes::rate_scales`]) and the surface stress's rate.
+    pub(crate) fn push(&mut self, modes: &[f64], rate_scales: [f64; 2], surface_rate_pa_s: f64) {
         self.modes.extend_from_slice(modes);
+        self.rate_scales.push(rate_scales);
         self.surface_rates_pa_s.push(surface_rate_pa_s);
-    }
-
-    /// The buffer the next point's modal rates are appended to.
-    pub(crate) fn rates_mut(&mut self) -> &mut Vec<f64> {
-        &mut self.rates
     }
 
     /// Rate of change of the surface hoop stress at every trace point, Pa/s.
@@ -257,22 +261,37 @@ impl StressHistory {
     /// Σ_j w_j σ_t(ρ_j, t) at every trace point, Pa·(unit of w), for weights at [`Self::radii`];
     /// `surface_pa` gives the surface value of each point. Empty when no profile was stored.
     pub fn weighted(&self, weights: &[f64], surface_pa: impl Iterator<Item = f64>, out: &mut Vec<f64>) {
-        self.weighted_over(&self.modes, weights, surface_pa, out);
+        out.clear();
+        let Some(per_mode) = self.per_mode(weights) else { return };
+        let n = per_mode.len();
+        for (modes, surface) in self.modes.chunks_exact(n).zip(surface_pa) {
+            let inner: f64 = per_mode.iter().zip(modes).map(|(w, q)| w * q).sum();
+            out.push(self.coefficient_pa * inner + weights[n] * surface);
+        }
     }
 
     /// The rate of change of [`Self::weighted`] at every trace point, Pa/s·(unit of w).
     pub fn weighted_rates(&self, weights: &[f64], out: &mut Vec<f64>) {
-        self.weighted_over(&self.rates, weights, self.surface_rates_pa_s.iter().copied(), out);
-    }
-
-    fn weighted_over(&self, modes: &[f64], weights: &[f64], surface_pa: impl Iterator<Item = f64>, out: &mut Vec<f64>) {
         out.clear();
-        let n = self.shells();
-        if n == 0 || modes.is_empty() {
+        let Some(per_mode) = self.per_mode(weights) else { return };
+        let n = per_mode.len();
+        if self.rate_terms.len() != 2 * n {
             return;
         }
+        let points = self.modes.chunks_exact(n).zip(&self.rate_scales).zip(&self.surface_rates_pa_s);
+        for ((modes, &scales), surface_rate) in points {
+            let inner = SphereModes::row_rate(&per_mode, &self.rate_terms, modes, scales);
+            out.push(self.coefficient_pa * inner + weights[n] * surface_rate);
+        }
+    }
+
+    /// The weights at the interior radii collapsed onto the modes; none without a profile.
+    fn per_mode(&self, weights: &[f64]) -> Option<Vec<f64>> {
+        let n = self.shells();
+        if n == 0 || self.modes.is_empty() {
+            return None;
+        }
         debug_assert_eq!(weights.len(), n + 1);
-        // Collapse the weights onto the modes once, then one short dot product per point.
         let mut per_mode = vec![0.0; n];
         for (j, w) in weights[..n].iter().enumerate() {
             if *w != 0.0 {
@@ -281,11 +300,7 @@ impl StressHistory {
                 }
             }
         }
-        let surface_weight = weights[n];
-        for (modes, surface) in modes.chunks_exact(n).zip(surface_pa) {
-            let inner: f64 = per_mode.iter().zip(modes).map(|(w, q)| w * q).sum();
-            out.push(self.coefficient_pa * inner + surface_weight * surface);
-        }
+        Some(per_mode)
     }
 }
 

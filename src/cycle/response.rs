@@ -86,15 +86,29 @@ struct ParticleModel {
     max_concentration: f64,
     surface_area_m2: f64,
     stress_coefficient: f64,
-    /// The modes' hoop-stress rows, shared with every cycle record.
+    /// The modes' hoop-stress rows and rate terms, shared with every cycle record.
     hoop_rows: std::sync::Arc<[f64]>,
+    rate_terms: std::sync::Arc<[f64]>,
+    /// The response rows (outer, second-outer, mean) times each mode's decay rate, and their
+    /// products with the input weights: d(row·q)/dt = (D/R²)·(row∘λ)·q + s·u·(row·g).
+    rate_rows: [Vec<f64>; 3],
+    row_gains: [f64; 3],
 }
 
 impl ParticleModel {
     fn new(electrode: &Electrode, shells: usize) -> ParticleModel {
         let modes = SphereModes::new(shells, Boundary::Flux);
+        let terms = modes.rate_terms();
+        let (decay, gain) = terms.split_at(shells);
+        let (outer, second) = modes.outer_rows();
+        let rows = [outer, second, modes.mean_row()];
+        let rate_rows = rows.map(|row| row.iter().zip(decay).map(|(r, l)| r * l).collect());
+        let row_gains = rows.map(|row| row.iter().zip(gain).map(|(r, g)| r * g).sum());
         ParticleModel {
             hoop_rows: modes.hoop_rows().into(),
+            rate_terms: modes.rate_terms().into(),
+            rate_rows,
+            row_gains,
             modes,
             radius_m: electrode.particle_radius_m,
             max_concentration: electrode.max_concentration_mol_m3,
@@ -109,11 +123,11 @@ impl ParticleModel {
     fn record(&self, modes: &[f64], at: ParticleInstant, dt: f64, history: &mut super::record::StressHistory) {
         let end_diffusivity = at.diffusivity / at.drift.end_weight;
         let start_diffusivity = at.diffusivity / at.drift.start_weight;
-        let rates = history.rates_mut();
-        let from = rates.len();
-        self.modes.rates(self.radius_m, end_diffusivity, modes, at.flux, rates);
-        let rates = &rates[from..];
-        let [outer, second, mean] = self.response_rows().map(|row| row.iter().zip(rates).map(|(r, q)| r * q).sum());
+        let scales = self.modes.rate_scales(self.radius_m, end_diffusivity, at.flux);
+        let [outer, second, mean]: [f64; 3] = std::array::from_fn(|j| {
+            let relaxing: f64 = self.rate_rows[j].iter().zip(modes).map(|(r, q)| r * q).sum();
+            scales[0] * relaxing + scales[1] * self.row_gains[j]
+        });
         let (flux_rate, diffusivity_rate) = if dt > 0.0 {
             ((at.flux - at.start_flux.unwrap_or(at.flux)) / dt, (end_diffusivity - start_diffusivity) / dt)
         } else {
@@ -124,7 +138,7 @@ impl ParticleModel {
             flux_rate / end_diffusivity - at.flux * diffusivity_rate / (end_diffusivity * end_diffusivity);
         let surface = self.modes.surface_from_outer(outer, second, boundary_rate, self.radius_m, 1.0);
         let surface_rate = surface_hoop_stress(self.stress_coefficient * self.max_concentration, mean, surface);
-        history.push(modes, surface_rate);
+        history.push(modes, scales, surface_rate);
     }
 
     /// The rows a trial projects the state on: outer shell, second-outer shell, mean.
@@ -858,7 +872,7 @@ impl CellModel {
     pub(super) fn start_stress_histories(&self, record: &mut super::CycleRecord) {
         for (history, particle) in [(&mut record.neg_stress, &self.neg), (&mut record.pos_stress, &self.pos)] {
             let coefficient = particle.stress_coefficient * particle.max_concentration;
-            history.reset(&particle.hoop_rows, coefficient);
+            history.reset([&particle.hoop_rows, &particle.rate_terms], coefficient);
         }
     }
 
