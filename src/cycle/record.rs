@@ -87,7 +87,7 @@ pub(crate) fn signed_areas(start: Option<f64>, end: f64, dt: f64) -> (f64, f64) 
 /// The extreme over one time step of a quantity known with its rate of change at both ends:
 /// the extreme of the cubic Hermite interpolant through them (its ends included); the larger
 /// when `maximum`, else the smaller. The state moves smoothly within a step, so the cubic
-/// follows it to third order in the step.
+/// follows it to fourth order in the step.
 fn step_extreme([t0, t1]: [f64; 2], [y0, y1]: [f64; 2], [m0, m1]: [f64; 2], maximum: bool) -> f64 {
     let h = t1 - t0;
     // y(s) = y0 + a1 s + a2 s² + a3 s³ on s ∈ [0, 1].

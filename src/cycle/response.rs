@@ -106,7 +106,7 @@ impl ParticleModel {
         let row_gains = rows.map(|row| row.iter().zip(gain).map(|(r, g)| r * g).sum());
         ParticleModel {
             hoop_rows: modes.hoop_rows().into(),
-            rate_terms: modes.rate_terms().into(),
+            rate_terms: terms.into(),
             rate_rows,
             row_gains,
             modes,
