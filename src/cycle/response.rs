@@ -446,7 +446,7 @@ impl CellModel {
     /// - the diffusivity taken at the start: stress peak early in a discharge 0.75 % high;
     /// - the temperature extrapolated from the last step's mean rate instead of its heat: the
     ///   stress peak 0.4 % off;
-    /// - the kinetics taken at the middle: plated lithium 2.9 % low (now 0.7 % high).
+    /// - the kinetics taken at the middle: plated lithium 2.7 % low (now 0.7 % high).
     pub(super) fn step_conditions(
         &self,
         health: &Health,
