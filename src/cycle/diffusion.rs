@@ -380,6 +380,9 @@ impl ModeStep {
     /// unweighted, so the particle's content changes by exactly ∫u dt.
     pub fn apply_drifting_ramp(&self, modes: &mut [f64], [start, end]: [f64; 2], [a, b]: [f64; 2]) {
         self.apply_ramp(modes, a * start, b * end);
+        if a == 1.0 && b == 1.0 {
+            return;
+        }
         if let Some(k) = self.conserved {
             modes[k] += self.gain[k] * (1.0 - a) * start + self.ramp_gain[k] * ((1.0 - b) * end - (1.0 - a) * start);
         }

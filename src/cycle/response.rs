@@ -236,9 +236,15 @@ impl DiffusivityDrift {
         }
     }
 
-    /// True when the diffusivity holds over the step.
+    /// True when the diffusivity holds over the step (both weights 1; equal weights other than
+    /// 1 still drift within the step).
     fn is_flat(self) -> bool {
-        self.start_weight == self.end_weight
+        self == Self::NONE
+    }
+
+    /// The input's weights at the step's start and end.
+    fn weights(self) -> [f64; 2] {
+        [self.start_weight, self.end_weight]
     }
 }
 
@@ -301,23 +307,35 @@ pub(super) struct StepMaps {
     ramp: Option<RampStart>,
 }
 
+/// One particle's factors over a step and its outer-shell, second-outer-shell and mean
+/// responses to a unit flux, to a flux rising from nil to one, and the conserved mode's share
+/// of both: they depend on the step's factors only, not on the state.
+#[derive(Debug, Default)]
+struct ParticleStep {
+    factors: ModeStep,
+    unit: [f64; 3],
+    ramp: [f64; 3],
+    conserved_unit: [f64; 3],
+    conserved_ramp: [f64; 3],
+}
+
+impl ParticleStep {
+    fn prepare(&mut self, particle: &ParticleModel, diffusivity: f64, dt: f64) {
+        particle.modes.step_factors(particle.radius_m, diffusivity, dt, &mut self.factors);
+        let rows = particle.response_rows();
+        self.unit = self.factors.input_responses(rows);
+        self.ramp = self.factors.ramp_responses(rows);
+        (self.conserved_unit, self.conserved_ramp) = self.factors.conserved_responses(rows);
+    }
+}
+
 /// Reused buffers, so a cycle allocates nothing per step.
 #[derive(Debug, Default)]
 pub(super) struct Scratch {
-    neg: ModeStep,
-    pos: ModeStep,
-    /// Each particle's outer-shell, second-outer-shell and mean responses to a unit flux over
-    /// the step, and to a flux rising from nil to one: they depend on the step's factors only,
-    /// not on the state.
-    neg_unit: [f64; 3],
-    pos_unit: [f64; 3],
-    neg_ramp: [f64; 3],
-    pos_ramp: [f64; 3],
-    /// The conserved mode's share of the unit and ramp responses.
-    neg_conserved: ([f64; 3], [f64; 3]),
-    pos_conserved: ([f64; 3], [f64; 3]),
-    /// (dt, negative D, positive D) the factors above were computed for: a step that is
-    /// committed right after its trial reuses them instead of recomputing every exponential.
+    neg: ParticleStep,
+    pos: ParticleStep,
+    /// (dt, negative D, positive D) the steps above were prepared for: a step that is committed
+    /// right after its trial reuses them instead of recomputing every exponential.
     factors_for: Option<(f64, f64, f64)>,
 }
 
@@ -327,14 +345,8 @@ impl Scratch {
         if self.factors_for == Some(key) {
             return;
         }
-        neg.modes.step_factors(neg.radius_m, cond.neg_diffusivity, dt, &mut self.neg);
-        pos.modes.step_factors(pos.radius_m, cond.pos_diffusivity, dt, &mut self.pos);
-        self.neg_unit = self.neg.input_responses(neg.response_rows());
-        self.pos_unit = self.pos.input_responses(pos.response_rows());
-        self.neg_ramp = self.neg.ramp_responses(neg.response_rows());
-        self.pos_ramp = self.pos.ramp_responses(pos.response_rows());
-        self.neg_conserved = self.neg.conserved_responses(neg.response_rows());
-        self.pos_conserved = self.pos.conserved_responses(pos.response_rows());
+        self.neg.prepare(neg, cond.neg_diffusivity, dt);
+        self.pos.prepare(pos, cond.pos_diffusivity, dt);
         self.factors_for = Some(key);
     }
 }
@@ -523,13 +535,13 @@ impl CellModel {
         let start_flux =
             ramp.map(|r| (neg_flux_per_amp * (r.current_a - r.plating_current_a), pos_flux_per_amp * r.current_a));
         let respond = |p: &ParticleModel,
-                       step: &ModeStep,
-                       [unit, ramp, conserved_unit, conserved_ramp]: [&[f64; 3]; 4],
+                       step: &ParticleStep,
                        start: Option<f64>,
                        modes: &[f64],
                        (d, drift): (f64, DiffusivityDrift),
                        per_amp: f64| {
-            let free = step.free_responses(p.response_rows(), modes);
+            let free = step.factors.free_responses(p.response_rows(), modes);
+            let ParticleStep { unit, ramp, conserved_unit, conserved_ramp, .. } = step;
             // Response to the end flux u: free + u·unit held, or free + u₀·(unit − ramp) + u·ramp;
             // a drifting diffusivity weights the start's input by a and the end's by b, except in
             // the conserved mode (ModeStep::apply_drifting_ramp).
@@ -553,24 +565,12 @@ impl CellModel {
             let surface = Affine { at_zero, per_amp: (value(1.0) - at_zero) * per_amp };
             (surface, Affine { at_zero: m_base, per_amp: m_weight * per_amp })
         };
-        let (neg_surface, neg_mean) = respond(
-            neg,
-            &scratch.neg,
-            [&scratch.neg_unit, &scratch.neg_ramp, &scratch.neg_conserved.0, &scratch.neg_conserved.1],
-            start_flux.map(|f| f.0),
-            &state.neg_modes,
-            (cond.neg_diffusivity, cond.neg_drift),
-            neg_flux_per_amp,
-        );
-        let (pos_surface, pos_mean) = respond(
-            pos,
-            &scratch.pos,
-            [&scratch.pos_unit, &scratch.pos_ramp, &scratch.pos_conserved.0, &scratch.pos_conserved.1],
-            start_flux.map(|f| f.1),
-            &state.pos_modes,
-            (cond.pos_diffusivity, cond.pos_drift),
-            pos_flux_per_amp,
-        );
+        let neg_diffusion = (cond.neg_diffusivity, cond.neg_drift);
+        let (neg_surface, neg_mean) =
+            respond(neg, &scratch.neg, start_flux.map(|f| f.0), &state.neg_modes, neg_diffusion, neg_flux_per_amp);
+        let pos_diffusion = (cond.pos_diffusivity, cond.pos_drift);
+        let (pos_surface, pos_mean) =
+            respond(pos, &scratch.pos, start_flux.map(|f| f.1), &state.pos_modes, pos_diffusion, pos_flux_per_amp);
         [neg_surface, pos_surface, neg_mean, pos_mean]
     }
 
@@ -830,25 +830,18 @@ impl CellModel {
             None if cond.neg_drift.is_flat() && cond.pos_drift.is_flat() => {
                 let neg_flux = -intercalation / (FARADAY * cond.neg_area_m2 * self.neg.max_concentration);
                 let pos_flux = trial.current / (FARADAY * cond.pos_area_m2 * self.pos.max_concentration);
-                scratch.neg.apply(&mut state.neg_modes, neg_flux);
-                scratch.pos.apply(&mut state.pos_modes, pos_flux);
+                scratch.neg.factors.apply(&mut state.neg_modes, neg_flux);
+                scratch.pos.factors.apply(&mut state.pos_modes, pos_flux);
             }
             ramp_start => {
                 let (neg_flux_per_amp, pos_flux_per_amp) = self.flux_per_amp(cond);
                 // A current held over the step starts where it ends.
                 let (start_current, start_intercalation) = ramp_start
                     .map_or((trial.current, intercalation), |s| (s.current_a, s.current_a - s.plating_current_a));
-                let advance = |step: &ModeStep, modes: &mut [f64], drift: DiffusivityDrift, fluxes: [f64; 2]| {
-                    if drift.is_flat() {
-                        step.apply_ramp(modes, fluxes[0], fluxes[1]);
-                    } else {
-                        step.apply_drifting_ramp(modes, fluxes, [drift.start_weight, drift.end_weight]);
-                    }
-                };
                 let neg_fluxes = [neg_flux_per_amp * start_intercalation, neg_flux_per_amp * intercalation];
-                advance(&scratch.neg, &mut state.neg_modes, cond.neg_drift, neg_fluxes);
+                scratch.neg.factors.apply_drifting_ramp(&mut state.neg_modes, neg_fluxes, cond.neg_drift.weights());
                 let pos_fluxes = [pos_flux_per_amp * start_current, pos_flux_per_amp * trial.current];
-                advance(&scratch.pos, &mut state.pos_modes, cond.pos_drift, pos_fluxes);
+                scratch.pos.factors.apply_drifting_ramp(&mut state.pos_modes, pos_fluxes, cond.pos_drift.weights());
             }
         }
         // A step whose heat was held (the first of a protocol step, which may jump to a new
