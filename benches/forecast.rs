@@ -1,6 +1,9 @@
 //! Forecast of 5000 cycles of the 5 Ah demo scenario by cycle jumping (target: ≤ 0.1 s on one
 //! core), and the ratio of the every-cycle reference's time to the jumping time, both measured
-//! in this run (target ≥ 50×). Run: `cargo bench --bench forecast`.
+//! in this run (target ≥ 50×); then the same ratio over 3000 cycles of every cycling demo,
+//! with the simulated cycles, the integrator's accepted and rejected steps and the worst
+//! differences from the every-cycle forecast (target, issue 16: ≥ 40× at ≤ 0.2 pp on every
+//! demo). Run: `cargo bench --bench forecast` (about a minute).
 
 #[path = "../tests/common/cases.rs"]
 mod cases;
@@ -50,9 +53,48 @@ fn forecast(c: &mut Criterion) {
         worst
     );
 
+    every_demo_ratio();
+
     c.bench_function("forecast_5000_cycles_jumping", |b| {
         b.iter(|| black_box(run_forecast(&scenario, &plan, horizon, &jumping)))
     });
+}
+
+/// Every-cycle / jumping time over 3000 cycles of each cycling demo (median of three jumping
+/// runs, one every-cycle run).
+fn every_demo_ratio() {
+    let horizon = Horizon::Cycles(3000.0);
+    for path in cases::CYCLING_DEMOS {
+        let (scenario, plan) = cases::load(path, &[]);
+        let timed = |options: &ForecastOptions, runs: usize| {
+            let mut seconds = Vec::new();
+            let mut last = None;
+            for _ in 0..runs {
+                let start = Instant::now();
+                last = Some(run_forecast(&scenario, &plan, horizon, options));
+                seconds.push(start.elapsed().as_secs_f64());
+            }
+            seconds.sort_by(f64::total_cmp);
+            (seconds[runs / 2], last.expect("at least one run"))
+        };
+        let (t_jump, jumping) = timed(&ForecastOptions::default(), 3);
+        let (t_every, every) = timed(&cases::every_cycle(ForecastOptions::default()), 1);
+        let worst = |f: fn(&fadecast::forecast::FadePoint) -> f64| {
+            jumping.points.iter().zip(&every.points).map(|(a, b)| (f(a) - f(b)).abs()).fold(0.0, f64::max)
+        };
+        eprintln!(
+            "{path}: ratio {:.1}× (jumping {:.1} ms, {} simulated cycles, {} steps, {} rejected; every cycle {:.0} ms); \
+             worst |ΔSOH| {:.4} pp, |Δ resistance growth| {:.4} pp",
+            t_every / t_jump,
+            t_jump * 1e3,
+            jumping.simulated_cycles,
+            jumping.accepted_steps,
+            jumping.rejected_steps,
+            t_every * 1e3,
+            worst(|p| p.soh_pct),
+            worst(|p| p.resistance_growth_pct),
+        );
+    }
 }
 
 criterion_group! {

@@ -239,24 +239,31 @@ fn a_coolant_gradient_ages_the_warm_end_faster() {
 #[test]
 fn a_pack_of_one_cell_forecasts_as_the_cell() {
     let (scenario, plan) = common::load(OVERNIGHT, &[]);
-    let alone = forecast(&scenario, &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
     let layout = PackLayout::uniform(&scenario.cell, 1, 1);
-    let packed =
-        forecast(&pack_scenario(&scenario, layout), &plan, Horizon::Cycles(1000.0), ForecastOptions::default());
-    let cases: Vec<ReferenceCase> = alone
-        .points
-        .iter()
-        .zip(&packed.points)
-        .map(|(a, b)| {
-            ReferenceCase::new(
-                format!("state of health of a 1-cell pack at cycle {:.0}", a.cycle),
+    let packed_scenario = pack_scenario(&scenario, layout);
+    let mut cases = Vec::new();
+    // Cycle by cycle the two agree to 1e-9 pp. Jumping, each evaluation's one cycle starts from
+    // a warm state carried across the jump, off periodic, and the pack's stepping and control
+    // solve (to a residual of 1e-10 V, not exact) follow that start differently in the last
+    // digits: about 1e-5 pp at 1000 cycles, 2·10⁴ times below the accuracy target.
+    for (options, tolerance) in
+        [(common::every_cycle(ForecastOptions::default()), 1e-9), (ForecastOptions::default(), 1e-4)]
+    {
+        let alone = forecast(&scenario, &plan, Horizon::Cycles(1000.0), options);
+        let packed = forecast(&packed_scenario, &plan, Horizon::Cycles(1000.0), options);
+        for (a, b) in alone.points.iter().zip(&packed.points) {
+            cases.push(ReferenceCase::new(
+                format!(
+                    "state of health of a 1-cell pack at cycle {:.0} (every cycle: {})",
+                    a.cycle, options.every_cycle
+                ),
                 "derived: one cell with no interconnect is the lone cell",
-                Tolerance::Abs(1e-6),
+                Tolerance::Abs(tolerance),
                 b.soh_pct,
                 a.soh_pct,
-            )
-        })
-        .collect();
+            ));
+        }
+    }
     check_cases(&cases);
 }
 

@@ -408,19 +408,25 @@ impl CellModel {
         remaining
     }
 
-    /// Shifts the negative particle's concentration uniformly so the state holds exactly the
-    /// health's lithium inventory (the slow state moves lithium into films and plating between
-    /// cycles; the fast state must follow). Returns false when no shift keeps it inside 0–1.
-    pub fn align_lithium(&self, state: &mut CellState, balance: &Balance, health: &Health) -> bool {
-        let held = self.lithium_coulomb(state, balance);
-        let shift = (health.lithium_inventory_coulomb - held) / balance.neg_capacity_coulomb;
-        let mean = self.neg.modes.mean(&state.neg_modes);
-        if !(0.0..=1.0).contains(&(mean + shift)) {
+    /// Carries a cycle's end state, run at balance `from`, over to `to` (the health's balance
+    /// after the slow state moved): both particles keep their concentration profiles but shift
+    /// uniformly to the new balance's stoichiometries at the same state of charge, which hold
+    /// exactly the health's lithium inventory. Keeping the state of charge keeps the cycle's
+    /// start where the duty left it, so one cycle from here is close to periodic even where the
+    /// duty never resets the state of charge (a measured series). False when a shift leaves 0–1.
+    pub fn carry_over(&self, state: &mut CellState, from: &Balance, to: &Balance, health: &Health) -> bool {
+        let (neg_mean, pos_mean) = (self.neg.modes.mean(&state.neg_modes), self.pos.modes.mean(&state.pos_modes));
+        let soc = from.soc_of_neg_stoich(neg_mean);
+        let (x, y) = to.stoich_at_soc(soc, health);
+        if !(0.0..=1.0).contains(&x) || !(0.0..=1.0).contains(&y) {
             return false;
         }
-        let uniform = self.neg.modes.uniform(shift);
-        for (q, u) in state.neg_modes.iter_mut().zip(uniform) {
-            *q += u;
+        for (particle, modes, shift) in
+            [(&self.neg, &mut state.neg_modes, x - neg_mean), (&self.pos, &mut state.pos_modes, y - pos_mean)]
+        {
+            for (q, u) in modes.iter_mut().zip(particle.modes.uniform(shift)) {
+                *q += u;
+            }
         }
         true
     }

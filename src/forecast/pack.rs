@@ -37,6 +37,13 @@ struct PackSnapshot {
     peak_temperature_k: Vec<f64>,
 }
 
+/// The last simulated cycle's end states, the ambient it ran in and the cells' balances then.
+struct WarmPack {
+    states: Vec<CellState>,
+    ambient_k: f64,
+    balances: Vec<Balance>,
+}
+
 struct PackForecaster<'a> {
     layout: &'a PackLayout,
     plan: &'a Plan,
@@ -45,7 +52,7 @@ struct PackForecaster<'a> {
     model: PackModel,
     mechanisms: Vec<Vec<Box<dyn Mechanism>>>,
     settings: SolverSettings,
-    warm: RefCell<Option<Vec<CellState>>>,
+    warm: RefCell<Option<WarmPack>>,
     record: RefCell<PackRecord>,
     log: RefCell<Vec<PackSnapshot>>,
     failure: RefCell<Option<(f64, RateFailure)>>,
@@ -135,11 +142,13 @@ impl PackForecaster<'_> {
     ) -> Result<(), RateFailure> {
         let mut warm = self.warm.borrow_mut();
         let run = PackRun { profile: self.profile, ambient_k, healths, balances };
-        let aligned = warm.take().and_then(|mut states| {
-            let fits = states
-                .iter_mut()
-                .enumerate()
-                .all(|(i, s)| self.model.models[i].align_lithium(s, &balances[i], &healths[i]));
+        // As a lone cell's warm start (see the cell forecast): temperatures ride on the ambient,
+        // each cell keeps its state of charge.
+        let aligned = warm.take().and_then(|WarmPack { mut states, ambient_k: then_k, balances: then }| {
+            let fits = states.iter_mut().enumerate().all(|(i, s)| {
+                s.temperature_k += ambient_k - then_k;
+                self.model.models[i].carry_over(s, &then[i], &balances[i], &healths[i])
+            });
             fits.then_some(states)
         });
         let mut states = match aligned {
@@ -188,7 +197,7 @@ impl PackForecaster<'_> {
             .collect();
         let peak_temperature_k = cells.iter().map(|r| r.peak_temperature_k).collect();
         self.log.borrow_mut().push(PackSnapshot { pack: snapshot, share_pct, peak_temperature_k });
-        *warm = Some(states);
+        *warm = Some(WarmPack { states, ambient_k, balances: balances.to_vec() });
         Ok(())
     }
 
