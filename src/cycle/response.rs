@@ -124,10 +124,9 @@ impl ParticleModel {
         let end_diffusivity = at.diffusivity / at.drift.end_weight;
         let start_diffusivity = at.diffusivity / at.drift.start_weight;
         let scales = self.modes.rate_scales(self.radius_m, end_diffusivity, at.flux);
-        let [outer, second, mean]: [f64; 3] = std::array::from_fn(|j| {
-            let relaxing: f64 = self.rate_rows[j].iter().zip(modes).map(|(r, q)| r * q).sum();
-            scales[0] * relaxing + scales[1] * self.row_gains[j]
-        });
+        let relaxing = SphereModes::dots(self.rate_rows.each_ref().map(|r| &r[..]), modes);
+        let [outer, second, mean]: [f64; 3] =
+            std::array::from_fn(|j| scales[0] * relaxing[j] + scales[1] * self.row_gains[j]);
         let (flux_rate, diffusivity_rate) = if dt > 0.0 {
             ((at.flux - at.start_flux.unwrap_or(at.flux)) / dt, (end_diffusivity - start_diffusivity) / dt)
         } else {
@@ -164,6 +163,33 @@ pub struct CellModel {
     pub cell: Cell,
     neg: ParticleModel,
     pos: ParticleModel,
+    /// −E_a/R of each Arrhenius property, K, so a step's factors take one division per
+    /// temperature instead of three per factor.
+    slopes: ArrheniusSlopes,
+}
+
+/// −E_a/R of the properties the cycle model moves with temperature, K.
+#[derive(Debug, Clone, Copy)]
+struct ArrheniusSlopes {
+    neg_diffusivity: f64,
+    pos_diffusivity: f64,
+    neg_rate: f64,
+    pos_rate: f64,
+    ohmic: f64,
+}
+
+impl ArrheniusSlopes {
+    fn of(cell: &Cell) -> ArrheniusSlopes {
+        let slope = |activation_j_mol: f64| -activation_j_mol / GAS_CONSTANT;
+        let (n, p) = (&cell.negative, &cell.positive);
+        ArrheniusSlopes {
+            neg_diffusivity: slope(n.diffusivity_activation_j_mol),
+            pos_diffusivity: slope(p.diffusivity_activation_j_mol),
+            neg_rate: slope(n.rate_constant_activation_j_mol),
+            pos_rate: slope(p.rate_constant_activation_j_mol),
+            ohmic: slope(cell.ohmic_activation_j_mol),
+        }
+    }
 }
 
 /// Everything a trial step needs that stays fixed within it.
@@ -224,15 +250,15 @@ pub(super) struct DiffusivityDrift {
 impl DiffusivityDrift {
     const NONE: DiffusivityDrift = DiffusivityDrift { start_weight: 1.0, end_weight: 1.0 };
 
-    /// For an Arrhenius diffusivity with `activation_j_mol`, the step's properties taken at its
-    /// middle temperature, between its start and end temperatures.
-    fn of(activation_j_mol: f64, [start_k, middle_k, end_k]: [f64; 3]) -> DiffusivityDrift {
-        if start_k == middle_k && middle_k == end_k {
+    /// For an Arrhenius diffusivity with slope −E_a/R, the step's properties taken at its
+    /// middle temperature, between its start and end temperatures (given as 1/T).
+    fn of(slope_k: f64, [start, middle, end]: [f64; 3]) -> DiffusivityDrift {
+        if start == middle && middle == end {
             return Self::NONE;
         }
         DiffusivityDrift {
-            start_weight: arrhenius(activation_j_mol, middle_k, start_k),
-            end_weight: arrhenius(activation_j_mol, middle_k, end_k),
+            start_weight: arrhenius(slope_k, middle - start),
+            end_weight: arrhenius(slope_k, middle - end),
         }
     }
 
@@ -248,10 +274,11 @@ impl DiffusivityDrift {
     }
 }
 
-/// [`crate::material::arrhenius_factor`] with the cycle model's exponential: the same
-/// expression, computed for every trial step (five factors each).
-fn arrhenius(activation_j_mol: f64, temperature_k: f64, reference_k: f64) -> f64 {
-    crate::material::fast_exp::exp(-activation_j_mol / GAS_CONSTANT * (1.0 / temperature_k - 1.0 / reference_k))
+/// [`crate::material::arrhenius_factor`] with the cycle model's exponential, from the slope
+/// −E_a/R and 1/T − 1/T_ref: the same expression, computed for every trial step (five factors
+/// each), with the divisions done once per temperature.
+fn arrhenius(slope_k: f64, inverse_gap_per_k: f64) -> f64 {
+    crate::material::fast_exp::exp(slope_k * inverse_gap_per_k)
 }
 
 /// The state at the end of a trial step of length `dt`.
@@ -323,8 +350,7 @@ impl ParticleStep {
     fn prepare(&mut self, particle: &ParticleModel, diffusivity: f64, dt: f64) {
         particle.modes.step_factors(particle.radius_m, diffusivity, dt, &mut self.factors);
         let rows = particle.response_rows();
-        self.unit = self.factors.input_responses(rows);
-        self.ramp = self.factors.ramp_responses(rows);
+        (self.unit, self.ramp) = self.factors.input_and_ramp_responses(rows);
         (self.conserved_unit, self.conserved_ramp) = self.factors.conserved_responses(rows);
     }
 }
@@ -365,6 +391,7 @@ impl CellModel {
             cell: cell.clone(),
             neg: ParticleModel::new(&cell.negative, cell.shells),
             pos: ParticleModel::new(&cell.positive, cell.shells),
+            slopes: ArrheniusSlopes::of(cell),
         }
     }
 
@@ -480,10 +507,10 @@ impl CellModel {
             advance_temperature_ramp(start_k, ambient_k, heat, capacity, conductance, t)
         };
         let temperatures = [start_k, after(0.5 * dt), after(dt)];
-        let (n, p) = (&cell.negative, &cell.positive);
         let at_end = self.conditions(health, temperatures[2], ambient_k);
-        let neg_drift = DiffusivityDrift::of(n.diffusivity_activation_j_mol, temperatures);
-        let pos_drift = DiffusivityDrift::of(p.diffusivity_activation_j_mol, temperatures);
+        let inverse_temperatures = temperatures.map(|t| 1.0 / t);
+        let neg_drift = DiffusivityDrift::of(self.slopes.neg_diffusivity, inverse_temperatures);
+        let pos_drift = DiffusivityDrift::of(self.slopes.pos_diffusivity, inverse_temperatures);
         StepConditions {
             start_temperature_k: start_k,
             neg_diffusivity: at_end.neg_diffusivity * neg_drift.end_weight,
@@ -497,21 +524,20 @@ impl CellModel {
     /// Conditions with every property at `temperature_k`, which is also where the step starts.
     pub(super) fn conditions(&self, health: &Health, temperature_k: f64, ambient_k: f64) -> StepConditions {
         let cell = &self.cell;
-        let t_ref = cell.reference_temperature_k;
-        let (n, p) = (&cell.negative, &cell.positive);
+        let gap = 1.0 / temperature_k - 1.0 / cell.reference_temperature_k;
+        let (n, p, slopes) = (&cell.negative, &cell.positive, &self.slopes);
         StepConditions {
             temperature_k,
             start_temperature_k: temperature_k,
             ambient_k,
-            neg_diffusivity: n.diffusivity_m2_s * arrhenius(n.diffusivity_activation_j_mol, temperature_k, t_ref),
-            pos_diffusivity: p.diffusivity_m2_s * arrhenius(p.diffusivity_activation_j_mol, temperature_k, t_ref),
+            neg_diffusivity: n.diffusivity_m2_s * arrhenius(slopes.neg_diffusivity, gap),
+            pos_diffusivity: p.diffusivity_m2_s * arrhenius(slopes.pos_diffusivity, gap),
             neg_drift: DiffusivityDrift::NONE,
             pos_drift: DiffusivityDrift::NONE,
-            neg_rate: n.rate_constant_m_s * arrhenius(n.rate_constant_activation_j_mol, temperature_k, t_ref),
-            pos_rate: p.rate_constant_m_s * arrhenius(p.rate_constant_activation_j_mol, temperature_k, t_ref),
+            neg_rate: n.rate_constant_m_s * arrhenius(slopes.neg_rate, gap),
+            pos_rate: p.rate_constant_m_s * arrhenius(slopes.pos_rate, gap),
             // Conductances rise with temperature, so resistance falls by the inverse factor.
-            series_resistance_ohm: cell.ohmic_resistance_ohm
-                / arrhenius(cell.ohmic_activation_j_mol, temperature_k, t_ref)
+            series_resistance_ohm: cell.ohmic_resistance_ohm / arrhenius(slopes.ohmic, gap)
                 + cell.film_resistance_ohm
                 + health.added_resistance_ohm,
             neg_area_m2: self.neg.surface_area_m2 * health.neg_active_scale,
