@@ -105,9 +105,11 @@ fn cycle_jumping_matches_every_cycle_within_a_fifth_of_a_point() {
             "{path}: worst |ΔSOH| {worst:.4} pp; simulated {} vs {} cycles",
             jumping.simulated_cycles, every.simulated_cycles
         );
-        // The ferry's monthly ambient makes the integrator follow every season (about seven
-        // simulated cycles a month), and its counted crossings keep its cracks moving.
-        let fraction = if path == common::FERRY { 4 } else { 5 };
+        // At most an eighth. The ferry comes closest: its monthly ambient makes the integrator
+        // follow every season (284 of 3001 cycles, about three a month); before the warm start
+        // kept its temperature excess over the ambient it took 692, and the measured day 524
+        // before the warm start kept the state of charge and crack-face film was floored.
+        let fraction = 8;
         assert!(
             jumping.simulated_cycles * fraction < every.simulated_cycles,
             "{path}: jumping simulated {}",
