@@ -9,7 +9,8 @@
 mod cases;
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
+use fadecast::cycle::Scenario;
+use fadecast::forecast::{run_forecast, Forecast, ForecastOptions, Horizon, Plan};
 use std::hint::black_box;
 use std::time::Instant;
 
@@ -23,23 +24,10 @@ fn forecast(c: &mut Criterion) {
     let every = cases::every_cycle(ForecastOptions::default());
 
     // The ratio, from medians of repeated runs in this process.
-    let time = |options: &ForecastOptions, runs: usize| {
-        let mut seconds: Vec<f64> = (0..runs)
-            .map(|_| {
-                let start = Instant::now();
-                black_box(run_forecast(&scenario, &plan, horizon, options));
-                start.elapsed().as_secs_f64()
-            })
-            .collect();
-        seconds.sort_by(f64::total_cmp);
-        seconds[runs / 2]
-    };
-    let probe = run_forecast(&scenario, &plan, horizon, &jumping);
-    let reference = run_forecast(&scenario, &plan, horizon, &every);
+    let (t_jump, probe) = median_run(&scenario, &plan, horizon, &jumping, 15);
+    let (t_every, reference) = median_run(&scenario, &plan, horizon, &every, 3);
     let worst =
         probe.points.iter().zip(&reference.points).map(|(a, b)| (a.soh_pct - b.soh_pct).abs()).fold(0.0, f64::max);
-    let t_jump = time(&jumping, 15);
-    let t_every = time(&every, 3);
     eprintln!(
         "forecast {CYCLES} cycles: jumping {:.1} ms ({} simulated cycles, {} steps, {} rejected), every cycle {:.0} ms \
          ({} simulated); ratio {:.0}×; worst |ΔSOH| {:.4} pp",
@@ -60,25 +48,34 @@ fn forecast(c: &mut Criterion) {
     });
 }
 
+/// Median wall time of `runs` forecasts, s, and the last forecast.
+fn median_run(
+    scenario: &Scenario,
+    plan: &Plan,
+    horizon: Horizon,
+    options: &ForecastOptions,
+    runs: usize,
+) -> (f64, Forecast) {
+    let mut seconds = Vec::new();
+    let mut last = None;
+    for _ in 0..runs {
+        let start = Instant::now();
+        last = Some(black_box(run_forecast(scenario, plan, horizon, options)));
+        seconds.push(start.elapsed().as_secs_f64());
+    }
+    seconds.sort_by(f64::total_cmp);
+    (seconds[runs / 2], last.expect("at least one run"))
+}
+
 /// Every-cycle / jumping time over 3000 cycles of each cycling demo (median of three jumping
 /// runs, one every-cycle run).
 fn every_demo_ratio() {
     let horizon = Horizon::Cycles(3000.0);
     for path in cases::CYCLING_DEMOS {
         let (scenario, plan) = cases::load(path, &[]);
-        let timed = |options: &ForecastOptions, runs: usize| {
-            let mut seconds = Vec::new();
-            let mut last = None;
-            for _ in 0..runs {
-                let start = Instant::now();
-                last = Some(run_forecast(&scenario, &plan, horizon, options));
-                seconds.push(start.elapsed().as_secs_f64());
-            }
-            seconds.sort_by(f64::total_cmp);
-            (seconds[runs / 2], last.expect("at least one run"))
-        };
-        let (t_jump, jumping) = timed(&ForecastOptions::default(), 3);
-        let (t_every, every) = timed(&cases::every_cycle(ForecastOptions::default()), 1);
+        let (t_jump, jumping) = median_run(&scenario, &plan, horizon, &ForecastOptions::default(), 3);
+        let (t_every, every) =
+            median_run(&scenario, &plan, horizon, &cases::every_cycle(ForecastOptions::default()), 1);
         let worst = |f: fn(&fadecast::forecast::FadePoint) -> f64| {
             jumping.points.iter().zip(&every.points).map(|(a, b)| (f(a) - f(b)).abs()).fold(0.0, f64::max)
         };

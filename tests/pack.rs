@@ -243,9 +243,9 @@ fn a_pack_of_one_cell_forecasts_as_the_cell() {
     let packed_scenario = pack_scenario(&scenario, layout);
     let mut cases = Vec::new();
     // Cycle by cycle the two agree to 1e-9 pp. Jumping, each evaluation's one cycle starts from
-    // a warm state carried across the jump, off periodic, and the pack's stepping and control
-    // solve (to a residual of 1e-10 V, not exact) follow that start differently in the last
-    // digits: about 1e-5 pp at 1000 cycles, 2·10⁴ times below the accuracy target.
+    // a warm state carried across the jump, off periodic; there the two differ by about 1e-5 pp
+    // at 1000 cycles (measured; the pack's stepping or its control solve, to a residual of
+    // 1e-10 V, is the likely source, not traced), 2·10⁴ times below the accuracy target.
     for (options, tolerance) in
         [(common::every_cycle(ForecastOptions::default()), 1e-9), (ForecastOptions::default(), 1e-4)]
     {

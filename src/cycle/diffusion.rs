@@ -435,22 +435,9 @@ impl ModeStep {
     }
 
     /// Responses of several linear functionals to a unit input held over the step and to an
-    /// input rising from nil to one over it, in one pass over the modes: the functionals' sums
-    /// run side by side instead of one after another, each still in mode order (so the result
-    /// is the same to the bit), which keeps the processor from waiting on one long chain of
-    /// additions per sum.
+    /// input rising from nil to one over it.
     pub fn input_and_ramp_responses<const N: usize>(&self, rows: [&[f64]; N]) -> ([f64; N], [f64; N]) {
-        let (mut unit, mut ramp) = ([0.0; N], [0.0; N]);
-        let n = self.gain.len().min(self.ramp_gain.len());
-        // Cut to the modes' count up front, so the loop indexes without bounds checks.
-        let (gain, ramp_gain, rows) = (&self.gain[..n], &self.ramp_gain[..n], rows.map(|row| &row[..n]));
-        for (k, (g, r)) in gain.iter().zip(ramp_gain).enumerate() {
-            for j in 0..N {
-                unit[j] += rows[j][k] * g;
-                ramp[j] += rows[j][k] * r;
-            }
-        }
-        (unit, ramp)
+        (SphereModes::dots(rows, &self.gain), SphereModes::dots(rows, &self.ramp_gain))
     }
 }
 

@@ -435,13 +435,21 @@ impl CellModel {
         remaining
     }
 
-    /// Carries a cycle's end state, run at balance `from`, over to `to` (the health's balance
-    /// after the slow state moved): both particles keep their concentration profiles but shift
-    /// uniformly to the new balance's stoichiometries at the same state of charge, which hold
-    /// exactly the health's lithium inventory. Keeping the state of charge keeps the cycle's
-    /// start where the duty left it, so one cycle from here is close to periodic even where the
-    /// duty never resets the state of charge (a measured series). False when a shift leaves 0–1.
-    pub fn carry_over(&self, state: &mut CellState, from: &Balance, to: &Balance, health: &Health) -> bool {
+    /// Carries a cycle's end state, run at balance `from` in ambient `from_ambient_k`, over to
+    /// `to` (the health's balance after the slow state moved) in `to_ambient_k`: both particles
+    /// keep their concentration profiles but shift uniformly to the new balance's
+    /// stoichiometries at the same state of charge, which hold exactly the health's lithium
+    /// inventory, and the temperature keeps its excess over the ambient (the periodic
+    /// temperature rides on the ambient). Keeping the state of charge keeps the cycle's start
+    /// where the duty left it, so one cycle from here is close to periodic even where the duty
+    /// never resets the state of charge (a measured series). False when a shift leaves 0–1.
+    pub fn carry_over(
+        &self,
+        state: &mut CellState,
+        (from, from_ambient_k): (&Balance, f64),
+        (to, to_ambient_k): (&Balance, f64),
+        health: &Health,
+    ) -> bool {
         let (neg_mean, pos_mean) = (self.neg.modes.mean(&state.neg_modes), self.pos.modes.mean(&state.pos_modes));
         let soc = from.soc_of_neg_stoich(neg_mean);
         let (x, y) = to.stoich_at_soc(soc, health);
@@ -455,6 +463,7 @@ impl CellModel {
                 *q += u;
             }
         }
+        state.temperature_k += to_ambient_k - from_ambient_k;
         true
     }
 

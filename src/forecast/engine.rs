@@ -94,7 +94,7 @@ struct Forecaster<'a> {
     mechanisms: Vec<Box<dyn Mechanism>>,
     settings: SolverSettings,
     lithium_fresh_coulomb: f64,
-    /// The last simulated cycle's end state and the ambient it ran in, K.
+    /// The last simulated cycle's end state, the ambient it ran in (K) and the balance then.
     warm: RefCell<Option<(CellState, f64, Balance)>>,
     record: RefCell<CycleRecord>,
     log: RefCell<Vec<CycleSnapshot>>,
@@ -200,10 +200,7 @@ impl<'a> Forecaster<'a> {
         let mut warm = self.warm.borrow_mut();
         let scenario = self.scenario;
         let aligned = warm.take().and_then(|(mut s, then_k, then_balance)| {
-            // The periodic temperature rides on the ambient: a warm start carries its excess
-            // over the ambient it ran in, not its absolute temperature.
-            s.temperature_k += ambient_k - then_k;
-            self.model.carry_over(&mut s, &then_balance, balance, health).then_some(s)
+            self.model.carry_over(&mut s, (&then_balance, then_k), (balance, ambient_k), health).then_some(s)
         });
         let mut state = match aligned {
             Some(s) => s,

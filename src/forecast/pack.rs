@@ -142,12 +142,9 @@ impl PackForecaster<'_> {
     ) -> Result<(), RateFailure> {
         let mut warm = self.warm.borrow_mut();
         let run = PackRun { profile: self.profile, ambient_k, healths, balances };
-        // As a lone cell's warm start (see the cell forecast): temperatures ride on the ambient,
-        // each cell keeps its state of charge.
         let aligned = warm.take().and_then(|WarmPack { mut states, ambient_k: then_k, balances: then }| {
             let fits = states.iter_mut().enumerate().all(|(i, s)| {
-                s.temperature_k += ambient_k - then_k;
-                self.model.models[i].carry_over(s, &then[i], &balances[i], &healths[i])
+                self.model.models[i].carry_over(s, (&then[i], then_k), (&balances[i], ambient_k), &healths[i])
             });
             fits.then_some(states)
         });
