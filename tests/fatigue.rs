@@ -12,7 +12,7 @@ use fadecast::aging::cracking::{
 use fadecast::aging::film::growth_at_fixed_conditions;
 use fadecast::aging::fracture::CrackOrigin;
 use fadecast::aging::rainflow::count_periodic;
-use fadecast::aging::{AgingContext, AgingState, Component, Mechanism, Side, CRACK_FILM_BINS};
+use fadecast::aging::{AgingContext, AgingState, Component, Mechanism, Side, STATE_LEN};
 use fadecast::cycle::*;
 use fadecast::forecast::{run_forecast, ForecastOptions, Horizon};
 use fadecast::material::constants::FARADAY;
@@ -157,36 +157,28 @@ fn crack_face_film_by_depth_bin_matches_a_per_age_calculation() {
     ];
     let mut cases = Vec::new();
     for (name, depth) in &histories {
-        // The model: bins integrated by classical Runge–Kutta steps of a tenth of a day.
-        let mut state = AgingState::fresh(&plan.aging);
-        let rate_at = |n: f64, s: &AgingState| {
-            let mut s = *s;
+        // The model: its bins and the lithium they bind integrated by classical Runge–Kutta
+        // steps of a tenth of a day.
+        let mut state = AgingState::fresh(&plan.aging).to_vector();
+        let rate_at = |n: f64, s: &[f64; STATE_LEN]| {
+            let mut s = AgingState::from_vector(s);
             s[Component::NegCrackNm] = depth(n) * 1e9;
             let mut rate = AgingState::default();
             FilmOnCrackSurface.add_rates(&context, &s, &mut rate);
-            *rate.crack_film()
+            rate.to_vector()
         };
+        let shifted = |y: &[f64; STATE_LEN], k: &[f64; STATE_LEN], f: f64| std::array::from_fn(|i| y[i] + f * k[i]);
         let h = 0.1;
         let steps = (days as f64 / h) as usize;
         for i in 0..steps {
             let n = i as f64 * h;
-            let bins = *state.crack_film();
-            let shifted = |k: &[f64; CRACK_FILM_BINS], f: f64| {
-                let mut s = state;
-                for (b, (v, d)) in s.crack_film_mut().iter_mut().zip(bins.iter().zip(k)) {
-                    *b = v + f * d;
-                }
-                s
-            };
             let k1 = rate_at(n, &state);
-            let k2 = rate_at(n + 0.5 * h, &shifted(&k1, 0.5 * h));
-            let k3 = rate_at(n + 0.5 * h, &shifted(&k2, 0.5 * h));
-            let k4 = rate_at(n + h, &shifted(&k3, h));
-            for j in 0..CRACK_FILM_BINS {
-                state.crack_film_mut()[j] = bins[j] + h / 6.0 * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]);
-            }
+            let k2 = rate_at(n + 0.5 * h, &shifted(&state, &k1, 0.5 * h));
+            let k3 = rate_at(n + 0.5 * h, &shifted(&state, &k2, 0.5 * h));
+            let k4 = rate_at(n + h, &shifted(&state, &k3, h));
+            state = std::array::from_fn(|j| state[j] + h / 6.0 * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]));
         }
-        let model: f64 = state.crack_film().iter().sum();
+        let model = AgingState::from_vector(&state)[Component::LithiumFilmCrack];
         // The reference: cohorts of a hundredth of a day, each aged from its midpoint.
         let cohorts = days * 100;
         let reference: f64 = (0..cohorts)

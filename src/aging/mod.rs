@@ -27,7 +27,7 @@ pub use film_breathing::FilmBreathingParams;
 pub use params::{CalibrationRange, MechanismTable, TableReader};
 pub use plating::PlatingParams;
 pub use state::{
-    crack_length_m, film_resistance_ohm, health_of, interface_rise, negative_surfaces, AgingState, Component,
+    crack_length_m, film_resistance_ohm, health_of, interface_rise, negative_surfaces, AgingState, BinFilm, Component,
     ComponentSpec, InterfaceRise, Measure, PlotGroup, Surfaces, COMPONENTS, COMPONENT_COUNT, CRACK_FILM_BINS,
     STATE_LEN,
 };

@@ -8,6 +8,7 @@
 
 use std::ops::{Index, IndexMut};
 
+use super::crack_film::FilmMeasure;
 use super::AgingParams;
 use crate::cycle::{Cell, Health};
 use crate::material::constants::FARADAY;
@@ -226,27 +227,40 @@ pub const COMPONENTS: &[ComponentSpec] = &[
 pub const COMPONENT_COUNT: usize = COMPONENTS.len();
 
 /// Depth bins of the negative's surface crack whose faces carry film of their own age
-/// ([`super::crack_film`]): the crack depth from its initial length to the particle radius in
-/// equal steps.
-pub const CRACK_FILM_BINS: usize = 48;
+/// ([`super::crack_film`]): overlapping hats centred on equally spaced depths from the initial
+/// crack length to the particle radius. 64 keep the crack-face film within 1 % of a per-age
+/// calculation (tests/fatigue.rs; 48 read 1.1 % low).
+pub const CRACK_FILM_BINS: usize = 64;
 
-/// Length of the integrated vector: the components, then the crack-film bins.
-pub const STATE_LEN: usize = COMPONENT_COUNT + CRACK_FILM_BINS;
+/// Length of the integrated vector: the components, then the crack-film bins' two moments.
+pub const STATE_LEN: usize = COMPONENT_COUNT + 2 * CRACK_FILM_BINS;
+
+/// The film on one depth bin of the crack faces: the first two moments of its measure
+/// ([`FilmMeasure`]) over the bin's faces as the cell started with them (film on material since
+/// lost went with it, so the moments over those faces describe the faces still there). Newly
+/// exposed face adds area at zero measure; the mean and spread over the bin follow.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct BinFilm {
+    /// ∫ Φ dA, m³.
+    pub measure_m3: f64,
+    /// ∫ Φ² dA, m⁴.
+    pub measure_squared_m4: f64,
+}
 
 /// The slow state: one value per row of [`COMPONENTS`], indexed by [`Component`], and the
-/// film on each depth bin of the negative's surface crack (lithium bound, fraction of the
-/// fresh cyclable lithium; their sum is `LithiumFilmCrack`). `LithiumInventory` is integrated
+/// film on each depth bin of the negative's surface crack ([`BinFilm`]; the lithium it binds is
+/// `LithiumFilmCrack`). `LithiumInventory` is integrated
 /// as its own component (not derived from the sinks), so conservation can be checked rather
 /// than assumed.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct AgingState {
     values: [f64; COMPONENT_COUNT],
-    crack_film: [f64; CRACK_FILM_BINS],
+    crack_film: [BinFilm; CRACK_FILM_BINS],
 }
 
 impl Default for AgingState {
     fn default() -> AgingState {
-        AgingState { values: [0.0; COMPONENT_COUNT], crack_film: [0.0; CRACK_FILM_BINS] }
+        AgingState { values: [0.0; COMPONENT_COUNT], crack_film: [BinFilm::default(); CRACK_FILM_BINS] }
     }
 }
 
@@ -281,25 +295,32 @@ impl AgingState {
         &self.values
     }
 
-    /// Film on each depth bin of the negative's surface crack, fraction of the fresh lithium.
-    pub fn crack_film(&self) -> &[f64; CRACK_FILM_BINS] {
+    /// Film on each depth bin of the negative's surface crack.
+    pub fn crack_film(&self) -> &[BinFilm; CRACK_FILM_BINS] {
         &self.crack_film
     }
 
-    pub fn crack_film_mut(&mut self) -> &mut [f64; CRACK_FILM_BINS] {
+    pub fn crack_film_mut(&mut self) -> &mut [BinFilm; CRACK_FILM_BINS] {
         &mut self.crack_film
     }
 
-    /// The integrated vector: components, then crack-film bins.
+    /// The integrated vector: components, then each crack-film bin's two moments.
     pub fn to_vector(&self) -> [f64; STATE_LEN] {
-        std::array::from_fn(|i| if i < COMPONENT_COUNT { self.values[i] } else { self.crack_film[i - COMPONENT_COUNT] })
+        std::array::from_fn(|i| match i.checked_sub(COMPONENT_COUNT) {
+            None => self.values[i],
+            Some(k) if k % 2 == 0 => self.crack_film[k / 2].measure_m3,
+            Some(k) => self.crack_film[k / 2].measure_squared_m4,
+        })
     }
 
     /// A state from the integrated vector.
     pub fn from_vector(v: &[f64; STATE_LEN]) -> AgingState {
         AgingState {
             values: std::array::from_fn(|i| v[i]),
-            crack_film: std::array::from_fn(|i| v[COMPONENT_COUNT + i]),
+            crack_film: std::array::from_fn(|j| BinFilm {
+                measure_m3: v[COMPONENT_COUNT + 2 * j],
+                measure_squared_m4: v[COMPONENT_COUNT + 2 * j + 1],
+            }),
         }
     }
 
@@ -366,9 +387,10 @@ pub struct Surfaces {
     pub crack_per_depth_fresh_m: f64,
     /// Depth the surface crack has grown since the cell was fresh, m.
     pub crack_grown_m: f64,
-    /// Depth bins of the crack-face film: where the first starts and how deep each is, m.
+    /// Depth bins of the crack-face film: the depth of the first one's centre and the spacing
+    /// of the centres, each hat reaching one spacing either side, m.
     pub bins_start_m: f64,
-    pub bin_depth_m: f64,
+    pub bin_spacing_m: f64,
 }
 
 impl Surfaces {
@@ -377,7 +399,7 @@ impl Surfaces {
         self.crack_per_depth_m * self.crack_grown_m
     }
 
-    /// Crack-face area of depth bin `j` exposed so far, m².
+    /// Crack-face area of depth bin `j` exposed so far (its hat's weight over the depth grown), m².
     pub fn bin_m2(&self, j: usize) -> f64 {
         self.crack_per_depth_m * self.bin_exposed_m(j)
     }
@@ -388,7 +410,20 @@ impl Surfaces {
     }
 
     fn bin_exposed_m(&self, j: usize) -> f64 {
-        (self.crack_grown_m - j as f64 * self.bin_depth_m).clamp(0.0, self.bin_depth_m)
+        // ∫₀^u of the unit hat on [−1, 1].
+        let cumulative = |u: f64| {
+            if u <= -1.0 {
+                0.0
+            } else if u <= 0.0 {
+                0.5 * (u + 1.0) * (u + 1.0)
+            } else if u < 1.0 {
+                1.0 - 0.5 * (1.0 - u) * (1.0 - u)
+            } else {
+                1.0
+            }
+        };
+        let node = j as f64;
+        self.bin_spacing_m * (cumulative(self.crack_grown_m / self.bin_spacing_m - node) - cumulative(-node))
     }
 }
 
@@ -406,7 +441,7 @@ pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -
             crack_per_depth_fresh_m: cell.negative.surface_area_m2() * c.density_per_m2 * 2.0 * c.width_m,
             crack_grown_m: (crack_length_m(cell, state, Side::Negative) - c.initial_length_m).max(0.0),
             bins_start_m: c.initial_length_m,
-            bin_depth_m: (radius - c.initial_length_m) / CRACK_FILM_BINS as f64,
+            bin_spacing_m: (radius - c.initial_length_m) / (CRACK_FILM_BINS - 1) as f64,
         },
         None => Surfaces {
             original_m2: original,
@@ -414,7 +449,7 @@ pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -
             crack_per_depth_fresh_m: 0.0,
             crack_grown_m: 0.0,
             bins_start_m: 0.0,
-            bin_depth_m: radius / CRACK_FILM_BINS as f64,
+            bin_spacing_m: radius / (CRACK_FILM_BINS - 1) as f64,
         },
     }
 }
@@ -435,21 +470,19 @@ pub fn crack_film_mean_thickness_m(cell: &Cell, aging: &AgingParams, state: &Agi
     }
 }
 
-/// Film thickness on depth bin `j` of the crack faces, m (0 before the bin is exposed).
-pub fn crack_bin_thickness_m(
-    cell: &Cell,
-    aging: &AgingParams,
-    state: &AgingState,
-    surfaces: &Surfaces,
-    j: usize,
-) -> f64 {
+/// The film measure on depth bin `j` of the crack faces, m, as two points that stand for its
+/// spread: mean ∓ standard deviation over the bin's faces (each carrying half its area; a
+/// two-point rule exact for any quadratic in Φ). Both are 0 before the bin is exposed.
+pub fn crack_bin_measures_m(state: &AgingState, surfaces: &Surfaces, j: usize) -> [f64; 2] {
     let area = surfaces.bin_fresh_m2(j);
-    if area > 0.0 {
-        // Never negative, even in an integrator's trial stage.
-        (film_volume_of_lithium_m3(cell, aging, state.crack_film[j]) / area).max(0.0)
-    } else {
-        0.0
+    if area <= 0.0 {
+        return [0.0; 2];
     }
+    let film = state.crack_film[j];
+    // Never negative, even in an integrator's trial stage.
+    let mean = (film.measure_m3 / area).max(0.0);
+    let spread = (film.measure_squared_m4 / area - mean * mean).max(0.0).sqrt();
+    [(mean - spread).max(0.0), mean + spread]
 }
 
 /// Area-specific charge-transfer resistance of the negative at its reference temperature and
@@ -475,10 +508,16 @@ pub fn interface_resistance_ohm(cell: &Cell, aging: &AgingParams, state: &AgingS
     let surfaces = negative_surfaces(cell, aging, state);
     let original_film = state[C::FilmOriginalNm] * 1e-9;
     let mut conductance = surfaces.original_m2 / (r_ct + original_film / conductivity);
+    // Without film the faces are bare.
+    let measure = aging.film.map(|film| FilmMeasure::of(cell, &film));
     for j in 0..CRACK_FILM_BINS {
         let area = surfaces.bin_m2(j);
         if area > 0.0 {
-            conductance += area / (r_ct + crack_bin_thickness_m(cell, aging, state, &surfaces, j) / conductivity);
+            let points = crack_bin_measures_m(state, &surfaces, j);
+            for point in points {
+                let film_m = measure.map_or(0.0, |m| m.thickness_m(point));
+                conductance += 0.5 * area / (r_ct + film_m / conductivity);
+            }
         }
     }
     1.0 / conductance
