@@ -105,11 +105,11 @@ fn cycle_jumping_matches_every_cycle_within_a_fifth_of_a_point() {
             "{path}: worst |ΔSOH| {worst:.4} pp; simulated {} vs {} cycles",
             jumping.simulated_cycles, every.simulated_cycles
         );
-        // At most an eighth. The ferry comes closest: its monthly ambient makes the integrator
-        // follow every season (284 of 3001 cycles, about three a month); before the warm start
-        // kept its temperature excess over the ambient it took 692, and the measured day 524
-        // before the warm start kept the state of charge and crack-face film was floored.
-        let fraction = 8;
+        // At most a twentieth. The ferry comes closest: its monthly ambient makes the integrator
+        // follow every season (131 of 3001 cycles); before the Bogacki–Shampine pair it took
+        // 224, before crack-face film was carried in its measure 284, before the warm start
+        // kept its temperature excess over the ambient 692.
+        let fraction = 20;
         assert!(
             jumping.simulated_cycles * fraction < every.simulated_cycles,
             "{path}: jumping simulated {}",

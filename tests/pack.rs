@@ -320,8 +320,8 @@ fn the_demo_pack_conserves_lithium_and_jumps_like_every_cycle() {
 
 #[test]
 fn a_short_pack_horizon_is_simulated_cycle_by_cycle_as_a_lone_cell_is() {
-    // Jumping simulates at least twenty cycles whatever the horizon; ten cycles are run one by
-    // one, the reference itself, for a pack as for a lone cell.
+    // Jumping simulates at least fourteen cycles whatever the horizon; ten cycles are run one
+    // by one, the reference itself, for a pack as for a lone cell.
     let (scenario, plan) = common::load(DEMO_PACK, &[]);
     let horizon = Horizon::Cycles(10.0);
     let short = forecast(&scenario, &plan, horizon, ForecastOptions::default());

@@ -80,7 +80,13 @@ fn stress_peak_and_hold_length_match_four_times_finer_steps() {
 
 #[test]
 fn default_steps_forecast_within_a_tenth_of_a_point_of_the_fine_reference() {
-    let options = ForecastOptions { report_points: 20, ..ForecastOptions::default() };
+    // The jumping tolerance a tenth of the default, so the two runs' different jumps (each
+    // within 0.1 pp of its every-cycle forecast) do not stand in for the cycle steps' error.
+    let options = ForecastOptions {
+        report_points: 20,
+        relative_tolerance: 0.1 * ForecastOptions::default().relative_tolerance,
+        ..ForecastOptions::default()
+    };
     let horizon = Horizon::Cycles(3000.0);
     let defaults = SolverSettings::default();
     let mut failures = Vec::new();

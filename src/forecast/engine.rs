@@ -1,5 +1,5 @@
 //! Cycle jumping: the slow state is integrated over the cycle count by an adaptive
-//! Dormand–Prince integrator (ode_solvers' Dopri5); every evaluation of the rates simulates one
+//! Bogacki–Shampine integrator ([`super::integrator`]); every evaluation of the rates simulates one
 //! duty cycle at the health the integrator asks about, warm-started from the last simulated
 //! cycle so it starts from (nearly) the periodic state. The warm state is carried to the new
 //! health at its state of charge, both particles moved to the new balance ([`CellModel::carry_over`]),
@@ -11,9 +11,10 @@
 //! estimate grows and the integrator shortens its steps by itself. The reference mode
 //! simulates every cycle and advances the state by each cycle's rates.
 //!
-//! References: J. R. Dormand, P. J. Prince, J. Comput. Appl. Math. 6 (1980) 19; E. Hairer,
+//! References: P. Bogacki, L. F. Shampine, Appl. Math. Lett. 2 (1989) 321; E. Hairer,
 //! S. P. Nørsett, G. Wanner, *Solving Ordinary Differential Equations I*, Springer (1993).
 
+use super::integrator::{integrate, DenseSolution, IntegratorSettings, SlowSystem};
 use super::plan::{Ambient, Horizon, Plan};
 use super::result::*;
 use super::ForecastOptions;
@@ -30,8 +31,7 @@ use crate::cycle::{
     Scenario, SolverSettings,
 };
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
-use ode_solvers::continuous_output_model::ContinuousOutputModel;
-use ode_solvers::{DVector, Dopri5, OutputType, System};
+use nalgebra::DVector;
 use std::cell::RefCell;
 
 pub(super) const SECONDS_PER_DAY: f64 = 86_400.0;
@@ -45,14 +45,23 @@ pub(super) const PULSE_C_RATE: f64 = 1.0;
 /// Integrator settings of cycle jumping (see `integrate_jumping`).
 pub(super) const ABSOLUTE_TOLERANCE: f64 = 1e-7;
 pub(super) const FIRST_STEP: f64 = 1.0;
-/// Largest growth of the integrator's step from one step to the next. Dopri5's usual 10 lets a
-/// step after a smooth stretch overshoot into a bend and be thrown away; with 3 the airport
-/// tug's 5000 cycles simulate 266 cycles instead of 314, and the smooth demos no more.
+/// Largest growth of the integrator's step from one step to the next. The usual 10 lets a step
+/// after a smooth stretch overshoot into a bend and be thrown away; with 3 the airport tug's
+/// 5000 cycles simulated 266 cycles instead of 314 (Dormand–Prince), and the smooth demos no
+/// more.
 pub(super) const STEP_GROWTH_MAX: f64 = 3.0;
+/// The step controller's safety factor, β of its PI control, and the most a rejected step
+/// shrinks (1/5): the usual values (Hairer, Nørsett & Wanner, §II.4).
+const STEP_SAFETY: f64 = 0.9;
+const STEP_PI_BETA: f64 = 0.04;
+const STEP_SHRINK_MIN: f64 = 0.2;
+/// Steps allowed per integration: far more than any horizon takes (tens), a bound on time.
+const STEP_LIMIT: usize = 100_000;
 /// Cycling horizons up to this many cycles are simulated cycle by cycle: jumping simulates at
-/// least 20 cycles on every demo whatever the horizon (each integrator step costs six), so
-/// there every cycle is no dearer and is the reference itself.
-pub(super) const EVERY_CYCLE_UP_TO_CYCLES: f64 = 20.0;
+/// least 14 cycles on every demo whatever the horizon (its first evaluation and four steps of
+/// three; 14 for 25 or 40 cycles), so there every cycle is no dearer and is the reference
+/// itself.
+pub(super) const EVERY_CYCLE_UP_TO_CYCLES: f64 = 13.0;
 
 /// What one simulated cycle showed, kept for reporting between the integrator's points.
 #[derive(Debug, Clone, Copy)]
@@ -313,8 +322,8 @@ pub(super) fn unstretched(s: f64) -> f64 {
     (s + STRETCH_OFFSET.sqrt()).powi(2) - STRETCH_OFFSET
 }
 
-impl System<f64, DVector<f64>> for RateSystem<'_, '_> {
-    fn system(&self, s: f64, y: &DVector<f64>, dy: &mut DVector<f64>) {
+impl SlowSystem for RateSystem<'_, '_> {
+    fn derivative(&self, s: f64, y: &DVector<f64>, dy: &mut DVector<f64>) {
         let x = unstretched(s);
         let dx_ds = 2.0 * (s + STRETCH_OFFSET.sqrt());
         let state = from_integrator(y.as_slice());
@@ -331,7 +340,7 @@ impl System<f64, DVector<f64>> for RateSystem<'_, '_> {
         }
     }
 
-    fn solout(&mut self, _s: f64, _y: &DVector<f64>, _dy: &DVector<f64>) -> bool {
+    fn stop(&self) -> bool {
         self.0.failure.borrow().is_some()
     }
 }
@@ -510,8 +519,8 @@ pub fn run_cell_forecast(
     forecast
 }
 
-/// Cycle jumping with Dopri5; returns the states on the report grid (read from the
-/// integrator's continuous output, which is accurate up to the last step).
+/// Cycle jumping; returns the states on the report grid (read from the integrator's dense
+/// output, which is accurate up to the last step).
 fn integrate_jumping(
     forecaster: &Forecaster,
     start: AgingState,
@@ -544,7 +553,7 @@ pub(super) struct Jump<'a> {
 impl Jump<'_> {
     /// Integrates `system` from `y0` (the integrator's form of `start`) and returns the start and
     /// the states on the report grid, decoded by `decode`, up to where the integration reached.
-    pub(super) fn on_grid<S: System<f64, DVector<f64>>, T>(
+    pub(super) fn on_grid<S: SlowSystem, T>(
         &self,
         system: S,
         y0: Vec<f64>,
@@ -555,33 +564,25 @@ impl Jump<'_> {
     ) -> (Vec<f64>, Vec<T>) {
         let s_end = stretched(self.x_end);
         // Absolute tolerance in the state's own units (1e-7 of the lithium inventory, 1e-7 nm);
-        // the first step is one cycle, the automatic choice being far smaller.
-        let mut stepper = Dopri5::from_param(
-            system,
-            0.0,
-            s_end,
-            s_end,
-            DVector::from_vec(y0),
-            options.relative_tolerance * self.tolerance_factor,
-            ABSOLUTE_TOLERANCE * self.tolerance_factor,
-            0.9,
-            0.04,
-            0.2,
-            self.step_growth_max,
-            s_end,
-            stretched(FIRST_STEP.min(self.x_end)),
-            100_000,
-            1000,
-            OutputType::Continuous,
-        );
-        let mut continuous = ContinuousOutputModel::default();
-        match stepper.integrate_with_continuous_output_model(&mut continuous) {
+        // the first step is one cycle, the usual automatic choice being far smaller.
+        let settings = IntegratorSettings {
+            relative_tolerance: options.relative_tolerance * self.tolerance_factor,
+            absolute_tolerance: ABSOLUTE_TOLERANCE * self.tolerance_factor,
+            first_step: stretched(FIRST_STEP.min(self.x_end)),
+            growth_max: self.step_growth_max,
+            shrink_min: STEP_SHRINK_MIN,
+            safety: STEP_SAFETY,
+            beta: STEP_PI_BETA,
+            max_steps: STEP_LIMIT,
+        };
+        let mut dense = DenseSolution::default();
+        match integrate(&system, 0.0, s_end, DVector::from_vec(y0), &settings, &mut dense) {
             Ok(stats) => {
-                forecast.accepted_steps = stats.accepted_steps as usize;
-                forecast.rejected_steps = stats.rejected_steps as usize;
+                forecast.accepted_steps = stats.accepted_steps;
+                forecast.rejected_steps = stats.rejected_steps;
             }
             Err(e) => {
-                let x = stepper.x_out().last().copied().map_or(0.0, unstretched);
+                let x = dense.reached().map_or(0.0, unstretched);
                 self.failure
                     .borrow_mut()
                     .get_or_insert((x, RateFailure::Failed(ForecastFailure::Integrator { detail: e.to_string() })));
@@ -589,9 +590,9 @@ impl Jump<'_> {
         }
         let mut xs = vec![0.0];
         let mut ys = vec![start];
-        let reached = if continuous_is_empty(&continuous) { 0.0 } else { continuous.bounds().1 };
+        let reached = dense.reached().unwrap_or(0.0);
         // A failed rate evaluation zeroes that stage's rates and the step holding it may still be
-        // accepted, so its continuous output can run past the failure: report nothing beyond it.
+        // accepted, so its dense output can run past the failure: report nothing beyond it.
         let failed_at = self.failure.borrow().as_ref().map(|(x, _)| stretched(*x));
         let reached = failed_at.map_or(reached, |s| reached.min(s));
         let mut k = 1;
@@ -601,7 +602,7 @@ impl Jump<'_> {
             if s > reached + 1e-12 {
                 break;
             }
-            let Some(y) = continuous.evaluate(s.min(reached)) else { break };
+            let Some(y) = dense.evaluate(s.min(reached)) else { break };
             xs.push(x);
             ys.push(decode(y.as_slice()));
             if x >= self.x_end {
@@ -611,10 +612,6 @@ impl Jump<'_> {
         }
         (xs, ys)
     }
-}
-
-pub(super) fn continuous_is_empty(model: &ContinuousOutputModel<f64, DVector<f64>>) -> bool {
-    model.evaluate(0.0).is_none()
 }
 
 /// The reference: every cycle simulated, the state advanced by each cycle's rates.

@@ -17,6 +17,7 @@
 //! peak temperature.
 
 use super::engine::*;
+use super::integrator::SlowSystem;
 use super::plan::{Horizon, Plan};
 use super::result::*;
 use super::ForecastOptions;
@@ -25,7 +26,7 @@ use crate::aging::{health_of, mechanisms_for, AgingContext, AgingState, Componen
 use crate::cycle::pack::{simulate_pack_cycle, simulate_pack_periodic, PackLayout, PackModel, PackRecord, PackRun};
 use crate::cycle::{balance_cell, Balance, CellState, DutyCycle, Health, Scenario, SolverSettings, StepProfile};
 use crate::material::constants::{SECONDS_PER_HOUR, ZERO_CELSIUS_K};
-use ode_solvers::{DVector, System};
+use nalgebra::DVector;
 use std::cell::RefCell;
 
 /// What one simulated pack cycle showed: the pack's snapshot (peaks over all cells) and each
@@ -329,8 +330,8 @@ fn pack_from_integrator(values: &[f64]) -> Vec<AgingState> {
         .collect()
 }
 
-impl System<f64, DVector<f64>> for PackRateSystem<'_, '_> {
-    fn system(&self, s: f64, y: &DVector<f64>, dy: &mut DVector<f64>) {
+impl SlowSystem for PackRateSystem<'_, '_> {
+    fn derivative(&self, s: f64, y: &DVector<f64>, dy: &mut DVector<f64>) {
         let x = unstretched(s);
         let dx_ds = 2.0 * (s + STRETCH_OFFSET.sqrt());
         let states = pack_from_integrator(y.as_slice());
@@ -347,7 +348,7 @@ impl System<f64, DVector<f64>> for PackRateSystem<'_, '_> {
         }
     }
 
-    fn solout(&mut self, _s: f64, _y: &DVector<f64>, _dy: &DVector<f64>) -> bool {
+    fn stop(&self) -> bool {
         self.0.failure.borrow().is_some()
     }
 }
