@@ -136,7 +136,9 @@ pub struct FitOptions {
     /// does is reported as not converged.
     pub patience: usize,
     /// Forecast settings of every model evaluation: a tighter tolerance than a plain forecast's
-    /// keeps the finite-difference Jacobian above the integrator's noise.
+    /// (a thirtieth) keeps the finite-difference Jacobian above the integrator's noise. 1e-4
+    /// with the Bogacki–Shampine pair fits the storage demo to the same values within a tenth
+    /// of their standard errors, as fast as 1e-5 did with Dormand–Prince.
     pub forecast: ForecastOptions,
     /// Points of each fitted curve returned for plotting.
     pub curve_points: usize,
@@ -147,7 +149,7 @@ impl Default for FitOptions {
         FitOptions {
             starts: 3,
             patience: DEFAULT_PATIENCE,
-            forecast: ForecastOptions { every_cycle: false, report_points: 200, relative_tolerance: 1e-5 },
+            forecast: ForecastOptions { every_cycle: false, report_points: 200, relative_tolerance: 1e-4 },
             curve_points: 200,
         }
     }
