@@ -167,7 +167,10 @@ pub fn integrate<S: SlowSystem>(
         } else {
             stats.rejected_steps += 1;
             rejected_last = true;
-            h /= (error.powf(alpha) / settings.safety).min(1.0 / settings.shrink_min);
+            // A rate that is not a number shrinks the step all it may, so such a system ends
+            // in a step-too-small error within a few dozen steps rather than the step limit.
+            let shrink = if error.is_finite() { error.powf(alpha) / settings.safety } else { f64::INFINITY };
+            h /= shrink.min(1.0 / settings.shrink_min);
         }
     }
     Ok(stats)
@@ -253,6 +256,15 @@ mod tests {
         let steps = |tolerance| run(|s, y| -y + s.sin(), 20.0, tolerance).1.accepted_steps as f64;
         let ratio = steps(1e-8) / steps(1e-5);
         assert!((7.0..14.0).contains(&ratio), "steps ratio {ratio}");
+    }
+
+    #[test]
+    fn a_rate_that_is_not_a_number_ends_in_an_error_within_a_few_dozen_steps() {
+        let system = Scalar { rate: |s: f64, _| if s > 1.0 { f64::NAN } else { 1.0 }, evaluations: Cell::new(0) };
+        let mut dense = DenseSolution::default();
+        let outcome = integrate(&system, 0.0, 5.0, DVector::from_element(1, 0.0), &settings(1e-6), &mut dense);
+        assert!(matches!(outcome, Err(IntegratorError::StepTooSmall { .. })), "{outcome:?}");
+        assert!(system.evaluations.get() < 300, "{} evaluations", system.evaluations.get());
     }
 
     #[test]
