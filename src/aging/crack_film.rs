@@ -123,6 +123,9 @@ impl FilmMeasure {
         let temperature_k = film.reference_temperature_k;
         let crossover_m = transport_coefficient(film, potential_v, temperature_k)
             / (film.solvent_concentration_mol_m3 * reaction_rate(film, potential_v, temperature_k));
+        // Any positive δ× is a valid change of variable (it only sets how even Φ's growth is):
+        // held between a picometre and a metre, extreme inputs keep it finite.
+        let crossover_m = if crossover_m.is_nan() { 1e-9 } else { crossover_m.clamp(1e-12, 1.0) };
         FilmMeasure { film: *film, crossover_m }
     }
 
@@ -160,5 +163,46 @@ impl FilmMeasure {
             }
         }
         thickness
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::aging::film::FilmTransport;
+
+    fn film(thickness_exponent: f64) -> FilmParams {
+        FilmParams {
+            reaction_rate_m_s: 1e-15,
+            reaction_activation_j_mol: 50e3,
+            transport: FilmTransport::InterstitialDiffusion {
+                diffusivity_m2_s: 1e-17,
+                activation_j_mol: 60e3,
+                concentration_mol_m3: 1.0,
+                thickness_exponent,
+            },
+            solvent_concentration_mol_m3: 4000.0,
+            transfer_coefficient: 0.5,
+            reference_potential_v: 0.4,
+            molar_volume_m3_mol: 6e-5,
+            conductivity_s_m: 1e-6,
+            initial_thickness_m: 5e-9,
+            reference_temperature_k: 298.15,
+        }
+    }
+
+    #[test]
+    fn the_measure_inverts_to_its_thickness_and_grows_by_its_slope() {
+        // Φ(δ(Φ)) = Φ and dΦ/dδ = 1 + δ_eff/δ× (derived from the definition).
+        for n in [1.0, 0.6, 0.25] {
+            let measure = FilmMeasure { film: film(n), crossover_m: 0.4e-9 };
+            for thickness in [1e-11, 1e-9, 3e-8, 5e-7] {
+                let phi = measure.measure_m(thickness);
+                assert!((measure.thickness_m(phi) / thickness - 1.0).abs() < 1e-12, "n {n}, δ {thickness}");
+                let h = 1e-6 * thickness;
+                let slope = (measure.measure_m(thickness + h) - measure.measure_m(thickness - h)) / (2.0 * h);
+                assert!((slope / measure.slope(thickness) - 1.0).abs() < 1e-6, "n {n}, δ {thickness}");
+            }
+        }
     }
 }
