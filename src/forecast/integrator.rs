@@ -167,10 +167,10 @@ pub fn integrate<S: SlowSystem>(
         } else {
             stats.rejected_steps += 1;
             rejected_last = true;
-            // A rate that is not a number shrinks the step all it may, so such a system ends
-            // in a step-too-small error within a few dozen steps rather than the step limit.
-            let shrink = if error.is_finite() { error.powf(alpha) / settings.safety } else { f64::INFINITY };
-            h /= shrink.min(1.0 / settings.shrink_min);
+            // An error that is not a number shrinks the step all it may (`min` passes over NaN),
+            // so a rate that is not a number ends in a step-too-small error within a few dozen
+            // steps (tested).
+            h /= (error.powf(alpha) / settings.safety).min(1.0 / settings.shrink_min);
         }
     }
     Ok(stats)
