@@ -36,45 +36,44 @@ pub struct IntegratorSettings {
     pub max_steps: usize,
 }
 
-/// One accepted step, for dense output.
+/// The start or the end of an accepted step: where, the state, and its derivative.
 #[derive(Debug, Clone)]
-struct Segment {
-    s0: f64,
-    h: f64,
-    y0: DVector<f64>,
-    f0: DVector<f64>,
-    y1: DVector<f64>,
-    f1: DVector<f64>,
+struct Node {
+    s: f64,
+    y: DVector<f64>,
+    f: DVector<f64>,
 }
 
-/// The solution between the start and the last accepted step.
+/// The solution between the start and the last accepted step: the start and every accepted
+/// step's end, each step interpolated between its two ends.
 #[derive(Debug, Clone, Default)]
 pub struct DenseSolution {
-    segments: Vec<Segment>,
+    nodes: Vec<Node>,
 }
 
 impl DenseSolution {
-    /// End of the last accepted step (the start when there is none).
+    /// End of the last accepted step (None before the first).
     pub fn reached(&self) -> Option<f64> {
-        self.segments.last().map(|g| g.s0 + g.h)
+        (self.nodes.len() >= 2).then(|| self.nodes[self.nodes.len() - 1].s)
     }
 
     /// The state at `s` by the cubic Hermite interpolant of the step holding it.
     pub fn evaluate(&self, s: f64) -> Option<DVector<f64>> {
-        let first = self.segments.first()?;
-        if s < first.s0 || s > self.reached()? + 1e-12 {
+        if s < self.nodes.first()?.s || s > self.reached()? + 1e-12 {
             return None;
         }
-        let i = self.segments.partition_point(|g| g.s0 + g.h < s).min(self.segments.len() - 1);
-        let g = &self.segments[i];
-        let t = ((s - g.s0) / g.h).clamp(0.0, 1.0);
+        // The first node at or past `s`, never the start: the step ends there.
+        let end = self.nodes.partition_point(|n| n.s < s).clamp(1, self.nodes.len() - 1);
+        let (a, b) = (&self.nodes[end - 1], &self.nodes[end]);
+        let h = b.s - a.s;
+        let t = ((s - a.s) / h).clamp(0.0, 1.0);
         let (t2, t3) = (t * t, t * t * t);
         // y0 + (y1 − y0)·h01 + h (f0·h10 + f1·h11): the Hermite basis written so that a
         // component that does not change is returned to the bit.
         let h01 = -2.0 * t3 + 3.0 * t2;
         let h10 = t3 - 2.0 * t2 + t;
         let h11 = t3 - t2;
-        Some(&g.y0 + (&g.y1 - &g.y0) * h01 + (&g.f0 * h10 + &g.f1 * h11) * g.h)
+        Some(&a.y + (&b.y - &a.y) * h01 + (&a.f * h10 + &b.f * h11) * h)
     }
 }
 
@@ -117,6 +116,7 @@ pub fn integrate<S: SlowSystem>(
     let mut y = y0;
     let mut f = DVector::zeros(n);
     system.derivative(s, &y, &mut f);
+    dense.nodes = vec![Node { s, y: y.clone(), f: f.clone() }];
     let mut h = settings.first_step.min(s_end - s);
     let mut previous_error: f64 = 1e-4;
     let mut rejected_last = false;
@@ -151,8 +151,8 @@ pub fn integrate<S: SlowSystem>(
         if error <= 1.0 {
             stats.accepted_steps += 1;
             previous_error = error.max(1e-4);
-            dense.segments.push(Segment { s0: s, h, y0: y.clone(), f0: f.clone(), y1: y1.clone(), f1: k4.clone() });
             s = if last { s_end } else { s + h };
+            dense.nodes.push(Node { s, y: y1.clone(), f: k4.clone() });
             y = y1;
             std::mem::swap(&mut f, &mut k4);
             let mut next = h / factor;
@@ -226,8 +226,8 @@ mod tests {
         let mut dense = DenseSolution::default();
         let mut one_step = settings(1.0);
         one_step.first_step = 2.0;
-        integrate(&system, 0.0, 2.0, DVector::from_element(1, 1.0), &one_step, &mut dense).unwrap();
-        assert_eq!(dense.segments.len(), 1);
+        let stats = integrate(&system, 0.0, 2.0, DVector::from_element(1, 1.0), &one_step, &mut dense).unwrap();
+        assert_eq!((stats.accepted_steps, stats.rejected_steps), (1, 0));
         assert!((dense.evaluate(2.0).unwrap()[0] - 9.0).abs() < 1e-13);
     }
 
