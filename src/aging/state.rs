@@ -387,9 +387,8 @@ pub struct Surfaces {
     pub crack_per_depth_fresh_m: f64,
     /// Depth the surface crack has grown since the cell was fresh, m.
     pub crack_grown_m: f64,
-    /// Depth bins of the crack-face film: the depth of the first one's centre and the spacing
-    /// of the centres, each hat reaching one spacing either side, m.
-    pub bins_start_m: f64,
+    /// Spacing of the crack-face film's depth bins, m: their centres lie that far apart from
+    /// the initial crack length on, each hat reaching one spacing either side.
     pub bin_spacing_m: f64,
 }
 
@@ -440,7 +439,6 @@ pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -
             crack_per_depth_m: original * c.density_per_m2 * 2.0 * c.width_m,
             crack_per_depth_fresh_m: cell.negative.surface_area_m2() * c.density_per_m2 * 2.0 * c.width_m,
             crack_grown_m: (crack_length_m(cell, state, Side::Negative) - c.initial_length_m).max(0.0),
-            bins_start_m: c.initial_length_m,
             bin_spacing_m: (radius - c.initial_length_m) / (CRACK_FILM_BINS - 1) as f64,
         },
         None => Surfaces {
@@ -448,7 +446,6 @@ pub fn negative_surfaces(cell: &Cell, aging: &AgingParams, state: &AgingState) -
             crack_per_depth_m: 0.0,
             crack_per_depth_fresh_m: 0.0,
             crack_grown_m: 0.0,
-            bins_start_m: 0.0,
             bin_spacing_m: radius / (CRACK_FILM_BINS - 1) as f64,
         },
     }
